@@ -1,0 +1,675 @@
+package compiler
+
+import (
+	"fmt"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/assay-dev/assay/dialects"
+	"github.com/assay-dev/assay/metrics"
+)
+
+// Result column names shared by the printer and the engine reader.
+const (
+	ColVariant     = "variant"
+	ColUnits       = "units"
+	ColFingerprint = "spec_fingerprint"
+)
+
+// Statistic suffixes of per-metric result columns.
+const (
+	StatN       = "n"
+	StatMean    = "mean"
+	StatVar     = "var"
+	StatNumMean = "num_mean"
+	StatDenMean = "den_mean"
+	StatNumVar  = "num_var"
+	StatDenVar  = "den_var"
+	StatCov     = "cov"
+)
+
+// StatColumn is the result column holding statistic stat of metric name.
+func StatColumn(metric, stat string) string { return metric + "__" + stat }
+
+// Queries is the SQL text of one experiment.
+type Queries struct {
+	Main   string // one row per variant (and grouping key) with sufficient statistics
+	Health string // exposure and exclusion counts
+}
+
+// Print renders both queries of p in dialect d.
+func Print(p *Plan, d dialects.Dialect) (Queries, error) {
+	pr := &printer{p: p, d: d}
+	main, err := pr.main()
+	if err != nil {
+		return Queries{}, err
+	}
+	health, err := pr.health()
+	if err != nil {
+		return Queries{}, err
+	}
+	return Queries{Main: main, Health: health}, nil
+}
+
+type printer struct {
+	p   *Plan
+	d   dialects.Dialect
+	b   strings.Builder
+	err error
+}
+
+func (pr *printer) line(indent int, format string, args ...any) {
+	pr.b.WriteString(strings.Repeat("  ", indent))
+	fmt.Fprintf(&pr.b, format, args...)
+	pr.b.WriteByte('\n')
+}
+
+func (pr *printer) id(s string) string { return pr.d.Ident(s) }
+
+func us(v int64) string { return strconv.FormatInt(v, 10) }
+
+func stamp(v int64) string { return time.UnixMicro(v).UTC().Format(time.RFC3339Nano) }
+
+// plusUS renders "x + offset" with the sign folded in.
+func plusUS(x string, off int64) string {
+	if off < 0 {
+		return x + " - " + us(-off)
+	}
+	return x + " + " + us(off)
+}
+
+func (pr *printer) from(src *metrics.Source) string {
+	if src.File != "" {
+		f, err := pr.d.File(src.File)
+		if err != nil && pr.err == nil {
+			pr.err = fmt.Errorf("source %s: %w", src.Name, err)
+		}
+		return f
+	}
+	return pr.d.Table(strings.Split(src.Table, "."))
+}
+
+func (pr *printer) col(alias string) func(string) string {
+	return func(name string) string { return alias + "." + pr.id(name) }
+}
+
+func (pr *printer) expr(e *metrics.Expr, alias string) string {
+	return pr.d.Expr(e.Node, pr.col(alias))
+}
+
+// time renders a source's time column as microseconds.
+func (pr *printer) time(src *metrics.Source, alias string) string {
+	return pr.d.Micros(alias+"."+pr.id(src.Time), pr.p.TZ)
+}
+
+func (pr *printer) header(what string) {
+	s := pr.p.Spec
+	pr.line(0, "-- assay %s %s query for experiment %s (spec fingerprint %s)", Version, what, oneLine(s.ID), s.Fingerprint)
+	pr.line(0, "-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as %s.", pr.p.TZ)
+	pr.line(0, "-- Exposures are read in [%s, %s); outcome windows must have ended by %s.", stamp(pr.p.StartUS), stamp(pr.p.EndUS), stamp(pr.p.AsOfUS))
+	files := false
+	for _, src := range s.Sources {
+		files = files || src.File != ""
+	}
+	if files {
+		pr.line(0, "-- File paths are relative to the spec's directory.")
+	}
+}
+
+// oneLine keeps a user string inside a single SQL comment line.
+func oneLine(s string) string {
+	s = strings.Map(func(r rune) rune {
+		if r < 0x20 || r == 0x7f || r == 0x2028 || r == 0x2029 {
+			return ' '
+		}
+		return r
+	}, s)
+	return strings.ReplaceAll(s, "*/", "* /")
+}
+
+// cohort prints the CTEs shared by both queries: exposures in the window,
+// triggers, eligibility rules and the cohort with one row per triggered unit.
+func (pr *printer) cohort() {
+	p, s, d := pr.p, pr.p.Spec, pr.d
+	ex := s.Exposure
+	src := ex.Source
+	segs := p.Segments
+
+	pr.line(0, "WITH")
+	pr.line(0, "-- Exposure rows of %s inside the analysis window; rows without a unit or time are ignored.", src.Name)
+	pr.line(0, "exposure_rows AS (")
+	pr.line(1, "SELECT")
+	pr.line(2, "x.%s AS unit_id,", pr.id(src.Unit))
+	pr.line(2, "CAST(x.%s AS VARCHAR) AS variant,", pr.id(ex.Variant))
+	pr.line(2, "%s AS ts_us,", pr.time(src, "x"))
+	if ex.Filter != nil {
+		pr.line(2, "coalesce(%s, FALSE) AS qualifies%s", pr.expr(ex.Filter, "x"), commaIf(len(segsOn(segs, src)) > 0))
+	} else {
+		pr.line(2, "TRUE AS qualifies%s", commaIf(len(segsOn(segs, src)) > 0))
+	}
+	for i, seg := range segsOn(segs, src) {
+		pr.line(2, "x.%s AS %s%s", pr.id(seg.Column), pr.id("seg_"+seg.Name), commaIf(i < len(segsOn(segs, src))-1))
+	}
+	pr.line(1, "FROM %s AS x", pr.from(src))
+	pr.line(1, "WHERE x.%s IS NOT NULL AND x.%s IS NOT NULL", pr.id(src.Unit), pr.id(src.Time))
+	pr.line(2, "AND %s >= %s AND %s < %s", pr.time(src, "x"), us(p.StartUS), pr.time(src, "x"), us(p.EndUS))
+	pr.line(0, "),")
+
+	pr.line(0, "-- One row per exposed unit: how many variants it was seen in (more than one: crossover).")
+	pr.line(0, "exposed_units AS (")
+	pr.line(1, "SELECT unit_id, count(DISTINCT variant) AS variants_seen")
+	pr.line(1, "FROM exposure_rows")
+	pr.line(1, "GROUP BY unit_id")
+	pr.line(0, "),")
+
+	order := "ts_us, variant"
+	for _, seg := range segsOn(segs, src) {
+		order += ", " + pr.id("seg_"+seg.Name)
+	}
+	pr.line(0, "-- Trigger: each unit's first qualifying exposure%s.", filterNote(ex.Filter))
+	pr.line(0, "triggers AS (")
+	pr.line(1, "SELECT q.unit_id, q.variant, q.ts_us AS trigger_us%s", segCols(pr, segsOn(segs, src), "q"))
+	pr.line(1, "FROM (")
+	pr.line(2, "SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY %s) AS rn", prefixCols(order, "r."))
+	pr.line(2, "FROM exposure_rows AS r")
+	pr.line(2, "WHERE r.qualifies")
+	pr.line(1, ") AS q")
+	pr.line(1, "WHERE q.rn = 1")
+	pr.line(0, "),")
+
+	for _, a := range p.Attrs {
+		pr.attribute(a)
+	}
+	for i, r := range p.Rules {
+		pr.rule(i, r)
+	}
+
+	pr.line(0, "-- Every triggered unit with the reasons it may be excluded.")
+	pr.line(0, "cohort AS (")
+	pr.line(1, "SELECT")
+	pr.line(2, "t.unit_id,")
+	pr.line(2, "t.variant,")
+	pr.line(2, "t.trigger_us,")
+	pr.line(2, "%s AS trigger_day,", d.Day("t.trigger_us", p.TZ))
+	for _, seg := range segs {
+		alias := "t"
+		if seg.Source != src {
+			alias = attrAlias(p, seg.Source)
+		}
+		pr.line(2, "%s.%s AS %s,", alias, pr.id("seg_"+seg.Name), pr.id("seg_"+seg.Name))
+	}
+	vs := make([]string, len(p.Variants))
+	for i, v := range p.Variants {
+		vs[i] = d.String(v)
+	}
+	pr.line(2, "(u.variants_seen > 1) AS is_crossover,")
+	pr.line(2, "(t.variant NOT IN (%s)) AS is_unknown_variant%s", strings.Join(vs, ", "), commaIf(len(p.Rules) > 0))
+	for i, r := range p.Rules {
+		pr.line(2, "(r%d.unit_id IS %sNULL) AS %s%s", i+1, notIf(!r.Absent), pr.id("fails_"+r.Name), commaIf(i < len(p.Rules)-1))
+	}
+	pr.line(1, "FROM triggers AS t")
+	pr.line(1, "JOIN exposed_units AS u ON u.unit_id = t.unit_id")
+	for _, a := range p.Attrs {
+		if segUses(segs, a) {
+			al := attrAlias(p, a)
+			pr.line(1, "LEFT JOIN %s AS %s ON %s.unit_id = t.unit_id", pr.id("attr_"+a.Name), al, al)
+		}
+	}
+	for i := range p.Rules {
+		pr.line(1, "LEFT JOIN rule_%d AS r%d ON r%d.unit_id = t.unit_id", i+1, i+1, i+1)
+	}
+	pr.line(0, "),")
+}
+
+func notIf(b bool) string {
+	if b {
+		return ""
+	}
+	return "NOT "
+}
+
+func segUses(segs []*metrics.Segment, a *metrics.Source) bool {
+	for _, s := range segs {
+		if s.Source == a {
+			return true
+		}
+	}
+	return false
+}
+
+func attrAlias(p *Plan, src *metrics.Source) string {
+	for i, a := range p.Attrs {
+		if a == src {
+			return fmt.Sprintf("a%d", i+1)
+		}
+	}
+	return "a0"
+}
+
+func filterNote(f *metrics.Expr) string {
+	if f == nil {
+		return ""
+	}
+	return " (a row qualifies when: " + oneLine(f.Text) + ")"
+}
+
+func segsOn(segs []*metrics.Segment, src *metrics.Source) []*metrics.Segment {
+	var out []*metrics.Segment
+	for _, s := range segs {
+		if s.Source == src {
+			out = append(out, s)
+		}
+	}
+	return out
+}
+
+func segCols(pr *printer, segs []*metrics.Segment, alias string) string {
+	var b strings.Builder
+	for _, s := range segs {
+		b.WriteString(", " + alias + "." + pr.id("seg_"+s.Name))
+	}
+	return b.String()
+}
+
+func prefixCols(list, prefix string) string {
+	parts := strings.Split(list, ", ")
+	for i := range parts {
+		parts[i] = prefix + parts[i]
+	}
+	return strings.Join(parts, ", ")
+}
+
+func commaIf(b bool) string {
+	if b {
+		return ","
+	}
+	return ""
+}
+
+// attribute prints the attribute rows of src that apply at each trigger:
+// the latest row at or before the trigger for a time-versioned source, the
+// unit's row for a static one.
+func (pr *printer) attribute(src *metrics.Source) {
+	p := pr.p
+	segs := segsOn(p.Segments, src)
+	var cols []string
+	for _, seg := range segs {
+		cols = append(cols, "a."+pr.id(seg.Column)+" AS "+pr.id("seg_"+seg.Name))
+	}
+	if src.Static {
+		pr.line(0, "-- Attributes from %s (declared static: values do not change over time).", src.Name)
+	} else {
+		pr.line(0, "-- Attributes from %s as of each trigger: the latest row at or before it.", src.Name)
+	}
+	pr.line(0, "%s AS (", pr.id("attr_"+src.Name))
+	if src.Static {
+		pr.line(1, "SELECT t.unit_id%s", listPrefix(cols))
+		pr.line(1, "FROM triggers AS t")
+		pr.line(1, "JOIN %s AS a ON a.%s = t.unit_id", pr.from(src), pr.id(src.Unit))
+		pr.line(1, "QUALIFY row_number() OVER (PARTITION BY t.unit_id ORDER BY %s) = 1", orderAll(pr, src, "a"))
+	} else {
+		pr.line(1, "SELECT t.unit_id%s", listPrefix(cols))
+		pr.line(1, "FROM triggers AS t")
+		pr.line(1, "JOIN %s AS a ON a.%s = t.unit_id", pr.from(src), pr.id(src.Unit))
+		pr.line(1, "WHERE %s <= t.trigger_us", pr.time(src, "a"))
+		pr.line(1, "QUALIFY row_number() OVER (PARTITION BY t.unit_id ORDER BY %s DESC) = 1", pr.time(src, "a"))
+	}
+	pr.line(0, "),")
+}
+
+func orderAll(pr *printer, src *metrics.Source, alias string) string {
+	parts := make([]string, len(src.Columns))
+	for i, c := range src.Columns {
+		parts[i] = alias + "." + pr.id(c)
+	}
+	return strings.Join(parts, ", ")
+}
+
+func listPrefix(cols []string) string {
+	if len(cols) == 0 {
+		return ""
+	}
+	return ", " + strings.Join(cols, ", ")
+}
+
+// rule prints the set of triggered units that have a matching row.
+func (pr *printer) rule(i int, r *metrics.Rule) {
+	src := r.Source
+	filter := "TRUE"
+	if r.Filter != nil {
+		filter = pr.expr(r.Filter, "s")
+	}
+	switch r.Kind {
+	case metrics.RuleHistory:
+		verb := "has"
+		if r.Absent {
+			verb = "has no"
+		}
+		pr.line(0, "-- Rule %s: eligible when the unit %s row in %s in [trigger %s, trigger %s)%s.", oneLine(r.Name), verb, src.Name, signed(r.From), signed(r.To), whereNote(r.Filter))
+		pr.line(0, "rule_%d AS (", i+1)
+		pr.line(1, "SELECT DISTINCT t.unit_id")
+		pr.line(1, "FROM triggers AS t")
+		pr.line(1, "JOIN %s AS s ON s.%s = t.unit_id", pr.from(src), pr.id(src.Unit))
+		pr.line(1, "WHERE %s >= %s", pr.time(src, "s"), plusUS("t.trigger_us", r.From.Micros))
+		pr.line(2, "AND %s < %s", pr.time(src, "s"), plusUS("t.trigger_us", r.To.Micros))
+		pr.line(2, "AND coalesce(%s, FALSE)", filter)
+	case metrics.RuleAttribute:
+		pr.line(0, "-- Rule %s: eligible when the unit's attributes in %s at the trigger satisfy: %s.", oneLine(r.Name), src.Name, oneLine(r.Filter.Text))
+		pr.line(0, "rule_%d AS (", i+1)
+		pr.line(1, "SELECT DISTINCT t.unit_id")
+		pr.line(1, "FROM triggers AS t")
+		if src.Static {
+			pr.line(1, "JOIN %s AS s ON s.%s = t.unit_id", pr.from(src), pr.id(src.Unit))
+			pr.line(1, "WHERE coalesce(%s, FALSE)", filter)
+		} else {
+			pr.line(1, "JOIN (")
+			pr.line(2, "SELECT t2.unit_id, a.*")
+			pr.line(2, "FROM triggers AS t2")
+			pr.line(2, "JOIN %s AS a ON a.%s = t2.unit_id", pr.from(src), pr.id(src.Unit))
+			pr.line(2, "WHERE %s <= t2.trigger_us", pr.time(src, "a"))
+			pr.line(2, "QUALIFY row_number() OVER (PARTITION BY t2.unit_id ORDER BY %s DESC) = 1", pr.time(src, "a"))
+			pr.line(1, ") AS s ON s.unit_id = t.unit_id")
+			pr.line(1, "WHERE coalesce(%s, FALSE)", filter)
+		}
+	}
+	pr.line(0, "),")
+}
+
+func signed(d metrics.Duration) string {
+	if d.Micros < 0 {
+		return "- " + durationName(-d.Micros)
+	}
+	return "+ " + durationName(d.Micros)
+}
+
+func whereNote(f *metrics.Expr) string {
+	if f == nil {
+		return ""
+	}
+	return " where " + oneLine(f.Text)
+}
+
+// eligible prints the eligible units with their maturity flags.
+func (pr *printer) eligible() {
+	p := pr.p
+	var conds []string
+	conds = append(conds, "NOT c.is_crossover", "NOT c.is_unknown_variant")
+	for _, r := range p.Rules {
+		conds = append(conds, "NOT c."+pr.id("fails_"+r.Name))
+	}
+	pr.line(0, "-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.")
+	pr.line(0, "eligible AS (")
+	pr.line(1, "SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day%s", segCols(pr, p.Segments, "c"))
+	pr.line(1, "FROM cohort AS c")
+	pr.line(1, "WHERE %s", strings.Join(conds, "\n    AND "))
+	pr.line(0, "),")
+}
+
+func (pr *printer) aggExpr(a *AggPlan, src *metrics.Source) string {
+	t := pr.time(src, "s")
+	cond := fmt.Sprintf("%s >= %s AND %s < %s", t, plusUS("e.trigger_us", a.From.Micros), t, plusUS("e.trigger_us", a.To.Micros))
+	if a.Agg.Filter != nil {
+		cond += " AND " + paren(pr.expr(a.Agg.Filter, "s"))
+	}
+	switch a.Agg.Func {
+	case metrics.AggSum:
+		return fmt.Sprintf("sum(CASE WHEN %s THEN %s END)", cond, pr.d.Double(pr.expr(a.Agg.Value, "s")))
+	case metrics.AggCountDistinct:
+		return fmt.Sprintf("count(DISTINCT CASE WHEN %s THEN %s END)", cond, pr.expr(a.Agg.Value, "s"))
+	default:
+		return fmt.Sprintf("count(CASE WHEN %s THEN 1 END)", cond)
+	}
+}
+
+func paren(s string) string { return "(" + s + ")" }
+
+func aggRule(a *AggPlan) string {
+	var what string
+	switch a.Agg.Func {
+	case metrics.AggSum:
+		what = "sum of " + oneLine(a.Agg.Value.Text)
+	case metrics.AggCountDistinct:
+		what = "distinct values of " + oneLine(a.Agg.Value.Text)
+	default:
+		what = "count of rows"
+	}
+	if a.Agg.Filter != nil {
+		what += " where " + oneLine(a.Agg.Filter.Text)
+	}
+	return what
+}
+
+// passes prints one CTE per outcome source with every per-unit aggregate
+// that reads it.
+func (pr *printer) passes() {
+	for _, sp := range pr.p.Sources {
+		src := sp.Source
+		names := make([]string, 0, len(sp.Aggs))
+		for _, a := range sp.Aggs {
+			names = append(names, a.Col)
+		}
+		pr.line(0, "-- One pass over %s for: %s.", src.Name, strings.Join(names, ", "))
+		pr.line(0, "%s AS (", pr.id("pass_"+src.Name))
+		pr.line(1, "SELECT")
+		pr.line(2, "e.unit_id,")
+		for i, a := range sp.Aggs {
+			pr.line(2, "-- %s: %s in [trigger %s, trigger %s)", a.Col, aggRule(a), signed(a.From), signed(a.To))
+			pr.line(2, "%s AS %s%s", pr.aggExpr(a, src), pr.id(a.Col), commaIf(i < len(sp.Aggs)-1))
+		}
+		pr.line(1, "FROM eligible AS e")
+		pr.line(1, "JOIN %s AS s ON s.%s = e.unit_id", pr.from(src), pr.id(src.Unit))
+		t := pr.time(src, "s")
+		pr.line(1, "WHERE %s >= %s AND %s < %s", t, plusUS("e.trigger_us", sp.From), t, plusUS("e.trigger_us", sp.To))
+		pr.line(1, "GROUP BY e.unit_id")
+		pr.line(0, "),")
+	}
+}
+
+// units prints one row per eligible unit with every per-unit value; units
+// without outcome rows get zero.
+func (pr *printer) units(more bool) {
+	p := pr.p
+	pr.line(0, "-- One row per eligible unit; a unit without outcome rows counts as zero.")
+	pr.line(0, "unit_values AS (")
+	pr.line(1, "SELECT")
+	pr.line(2, "e.unit_id,")
+	pr.line(2, "e.variant,")
+	pr.line(2, "e.trigger_day,")
+	for _, seg := range p.Segments {
+		pr.line(2, "e.%s,", pr.id("seg_"+seg.Name))
+	}
+	for _, end := range p.MatureEnds {
+		pr.line(2, "(%s <= %s) AS %s,", plusUS("e.trigger_us", end), us(p.AsOfUS), matureCol(end))
+	}
+	var cols []string
+	for i, sp := range p.Sources {
+		for _, a := range sp.Aggs {
+			cols = append(cols, fmt.Sprintf("coalesce(p%d.%s, 0) AS %s", i+1, pr.id(a.Col), pr.id(a.Col)))
+		}
+	}
+	for i, c := range cols {
+		pr.line(2, "%s%s", c, commaIf(i < len(cols)-1))
+	}
+	pr.line(1, "FROM eligible AS e")
+	for i, sp := range p.Sources {
+		pr.line(1, "LEFT JOIN %s AS p%d ON p%d.unit_id = e.unit_id", pr.id("pass_"+sp.Source.Name), i+1, i+1)
+	}
+	pr.line(0, ")%s", commaIf(more))
+}
+
+func (pr *printer) capCol(a *AggPlan) string { return "cap_" + strings.TrimPrefix(a.Col, "m_") }
+
+// value renders a unit's (possibly capped) value of aggregate a, NULL when
+// the unit is not mature for the metric.
+func (pr *printer) value(mp *MetricPlan, a *AggPlan) string {
+	v := "u." + pr.id(a.Col)
+	switch {
+	case a.Agg.HasCap:
+		v = pr.d.Least(v, strconv.FormatFloat(a.Agg.Cap, 'g', -1, 64))
+	case a.Agg.CapQuantile > 0:
+		v = pr.d.Least(v, "k."+pr.id(pr.capCol(a)))
+	}
+	return "CASE WHEN u." + mp.Mature + " THEN " + pr.d.Double(v) + " END"
+}
+
+func (pr *printer) indicator(mp *MetricPlan) string {
+	return fmt.Sprintf("CASE WHEN u.%s THEN CASE WHEN u.%s > %s THEN 1.0 ELSE 0.0 END END", mp.Mature, pr.id(mp.Value.Col), strconv.FormatFloat(mp.M.Above, 'g', -1, 64))
+}
+
+func (pr *printer) main() (string, error) {
+	p := pr.p
+	pr.header("per-variant statistics")
+	pr.cohort()
+	pr.eligible()
+	pr.passes()
+	pr.units(p.HasCapQuant)
+	if p.HasCapQuant {
+		pr.line(0, "-- Winsorising caps: pooled quantiles over mature units of all variants.")
+		pr.line(0, "caps AS (")
+		pr.line(1, "SELECT")
+		var cs []string
+		for _, mp := range p.Metrics {
+			for _, a := range []*AggPlan{mp.Value, mp.Num, mp.Den} {
+				if a != nil && a.Agg.CapQuantile > 0 {
+					cs = append(cs, fmt.Sprintf("%s AS %s", pr.d.Quantile("CASE WHEN u."+mp.Mature+" THEN "+pr.d.Double("u."+pr.id(a.Col))+" END", a.Agg.CapQuantile), pr.id(pr.capCol(a))))
+				}
+			}
+		}
+		for i, c := range cs {
+			pr.line(2, "%s%s", c, commaIf(i < len(cs)-1))
+		}
+		pr.line(1, "FROM unit_values AS u")
+		pr.line(0, ")")
+	}
+
+	keys := []string{"u.variant"}
+	for _, g := range p.GroupBy {
+		if g.Day {
+			keys = append(keys, "u.trigger_day")
+		} else {
+			keys = append(keys, "u."+pr.id(g.Name))
+		}
+	}
+	pr.line(0, "SELECT")
+	pr.line(1, "%s AS %s,", pr.d.String(p.Spec.Fingerprint), ColFingerprint)
+	pr.line(1, "u.variant AS %s,", ColVariant)
+	for _, g := range p.GroupBy {
+		if g.Day {
+			pr.line(1, "u.trigger_day AS %s,", KeyTriggerDay)
+		} else {
+			pr.line(1, "u.%s AS %s,", pr.id(g.Name), pr.id(g.Name))
+		}
+	}
+	pr.line(1, "count(*) AS %s%s", ColUnits, commaIf(len(p.Metrics) > 0))
+	for i, mp := range p.Metrics {
+		m := mp.M
+		last := i == len(p.Metrics)-1
+		st := func(stat string) string { return pr.id(StatColumn(m.Name, stat)) }
+		pr.line(1, "-- %s (%s, %s): %s", oneLine(m.Name), m.Role, m.Kind, metricRule(mp))
+		pr.line(1, "count(CASE WHEN u.%s THEN 1 END) AS %s,", mp.Mature, st(StatN))
+		switch m.Kind {
+		case metrics.KindRatio:
+			num, den := pr.value(mp, mp.Num), pr.value(mp, mp.Den)
+			pr.line(1, "avg(%s) AS %s,", num, st(StatNumMean))
+			pr.line(1, "avg(%s) AS %s,", den, st(StatDenMean))
+			pr.line(1, "%s AS %s,", pr.d.VarSamp(num), st(StatNumVar))
+			pr.line(1, "%s AS %s,", pr.d.VarSamp(den), st(StatDenVar))
+			pr.line(1, "%s AS %s%s", pr.d.CovarSamp(num, den), st(StatCov), commaIf(!last))
+		case metrics.KindProportion:
+			v := pr.indicator(mp)
+			pr.line(1, "avg(%s) AS %s,", v, st(StatMean))
+			pr.line(1, "%s AS %s%s", pr.d.VarSamp(v), st(StatVar), commaIf(!last))
+		default:
+			v := pr.value(mp, mp.Value)
+			pr.line(1, "avg(%s) AS %s,", v, st(StatMean))
+			pr.line(1, "%s AS %s%s", pr.d.VarSamp(v), st(StatVar), commaIf(!last))
+		}
+	}
+	pr.line(0, "FROM unit_values AS u")
+	if p.HasCapQuant {
+		pr.line(0, "CROSS JOIN caps AS k")
+	}
+	pr.line(0, "GROUP BY %s", strings.Join(keys, ", "))
+	pr.line(0, "ORDER BY %s", strings.Join(keys, ", "))
+	return pr.b.String(), pr.err
+}
+
+func metricRule(mp *MetricPlan) string {
+	m := mp.M
+	win := fmt.Sprintf("window [trigger %s, trigger %s), mature units only", signed(m.From), signed(m.To))
+	capNote := func(a *AggPlan) string {
+		switch {
+		case a.Agg.HasCap:
+			return fmt.Sprintf(", capped at %v", a.Agg.Cap)
+		case a.Agg.CapQuantile > 0:
+			return fmt.Sprintf(", capped at the pooled %v quantile", a.Agg.CapQuantile)
+		}
+		return ""
+	}
+	switch m.Kind {
+	case metrics.KindRatio:
+		return fmt.Sprintf("per-unit %s%s over per-unit %s%s; %s", aggRule(mp.Num), capNote(mp.Num), aggRule(mp.Den), capNote(mp.Den), win)
+	case metrics.KindProportion:
+		return fmt.Sprintf("share of units whose %s is above %v; %s", aggRule(mp.Value), m.Above, win)
+	}
+	return fmt.Sprintf("mean per unit of %s%s; %s", aggRule(mp.Value), capNote(mp.Value), win)
+}
+
+// health prints the exposure and exclusion counts query.
+func (pr *printer) health() (string, error) {
+	pr.b.Reset()
+	p := pr.p
+	src := p.Spec.Exposure.Source
+	pr.header("health")
+	pr.cohort()
+	pr.line(0, "-- Exposure rows outside the analysis window, or without a unit or time.")
+	pr.line(0, "ignored_rows AS (")
+	pr.line(1, "SELECT")
+	pr.line(2, "count(CASE WHEN x.%s IS NULL THEN 1 END) AS null_unit,", pr.id(src.Unit))
+	pr.line(2, "count(CASE WHEN x.%s IS NULL THEN 1 END) AS null_time,", pr.id(src.Time))
+	t := pr.time(src, "x")
+	pr.line(2, "count(CASE WHEN %s < %s THEN 1 END) AS before_start,", t, us(p.StartUS))
+	pr.line(2, "count(CASE WHEN %s >= %s THEN 1 END) AS after_end", t, us(p.EndUS))
+	pr.line(1, "FROM %s AS x", pr.from(src))
+	pr.line(0, ")")
+	pr.line(0, "SELECT kind, reason, variant, day, %s AS rows, units FROM (", "row_count")
+	sel := func(kind, reason, variant, day, rows, units, from, where, group string) {
+		pr.line(1, "SELECT %s AS kind, %s AS reason, %s AS variant, %s AS day, %s AS row_count, %s AS units", kind, reason, variant, day, rows, units)
+		pr.line(1, "FROM %s", from)
+		if where != "" {
+			pr.line(1, "WHERE %s", where)
+		}
+		if group != "" {
+			pr.line(1, "GROUP BY %s", group)
+		}
+	}
+	q := pr.d.String
+	day := pr.d.Day("ts_us", p.TZ)
+	sel(q("exposures"), "NULL", "variant", day, "count(*)", "count(DISTINCT unit_id)", "exposure_rows", "", "variant, "+day)
+	pr.line(1, "UNION ALL")
+	sel(q("triggers"), "NULL", "variant", "trigger_day", "count(*)", "count(*)", "cohort", "", "variant, trigger_day")
+	pr.line(1, "UNION ALL")
+	sel(q("never_triggered"), "NULL", "NULL", "NULL", "count(*)", "count(*)", "exposed_units AS u", "NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)", "")
+	reasons := []struct{ name, col string }{{"crossover", "is_crossover"}, {"unknown_variant", "is_unknown_variant"}}
+	for _, r := range p.Rules {
+		reasons = append(reasons, struct{ name, col string }{"rule:" + r.Name, pr.id("fails_" + r.Name)})
+	}
+	for _, r := range reasons {
+		pr.line(1, "UNION ALL")
+		sel(q("excluded"), q(r.name), "variant", "NULL", "count(*)", "count(*)", "cohort", r.col, "variant")
+	}
+	var all []string
+	for _, r := range reasons {
+		all = append(all, r.col)
+	}
+	pr.line(1, "UNION ALL")
+	sel(q("excluded"), q("any"), "variant", "NULL", "count(*)", "count(*)", "cohort", strings.Join(all, " OR "), "variant")
+	for _, ig := range []string{"null_unit", "null_time", "before_start", "after_end"} {
+		pr.line(1, "UNION ALL")
+		sel(q("ignored_rows"), q(ig), "NULL", "NULL", ig, "NULL", "ignored_rows", "", "")
+	}
+	pr.line(0, ") AS h")
+	pr.line(0, "ORDER BY kind, reason, variant, day")
+	return pr.b.String(), pr.err
+}

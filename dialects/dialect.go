@@ -1,0 +1,76 @@
+// Package dialects holds one SQL dialect per engine. A dialect owns the
+// engine-specific spelling of the few things assay's queries need:
+// identifier quoting, string literals, timestamp arithmetic, casts, the
+// variance and covariance aggregates and the percentile function. The
+// compiler builds one plan and prints it through a Dialect, the way
+// go/printer prints a go/ast tree.
+package dialects
+
+import (
+	"fmt"
+	"sort"
+
+	"github.com/assay-dev/assay/metrics/expr"
+)
+
+// Dialect is the engine-specific part of SQL printing. Each method's
+// comment shows what DuckDB and PostgreSQL emit.
+type Dialect interface {
+	// Name is the dialect's flag value, e.g. "duckdb".
+	Name() string
+	// Ident quotes an identifier: DuckDB and PostgreSQL `"a""b"`.
+	Ident(name string) string
+	// String quotes a string literal: `'it''s'`.
+	String(s string) string
+	// Table renders a qualified table or view name from its dot-separated parts.
+	Table(parts []string) string
+	// File renders a table function reading a file, or an error when the
+	// engine cannot read local files: DuckDB `read_parquet('x.parquet')`.
+	File(path string) (string, error)
+	// Micros converts a timestamp column to integer microseconds since
+	// 1970-01-01 UTC. Timestamps without a zone are wall-clock times in tz:
+	// DuckDB `epoch_us(x)` (tz UTC), `epoch_us(timezone('Europe/Paris', x))`.
+	Micros(x, tz string) string
+	// Day converts integer microseconds since the epoch to the calendar date
+	// in tz: DuckDB `CAST(make_timestamp(x) AS DATE)` for UTC.
+	Day(us, tz string) string
+	// Double casts to a double-precision float: `CAST(x AS DOUBLE)`.
+	Double(x string) string
+	// VarSamp is the numerically stable sample variance (n-1): `var_samp(x)`.
+	VarSamp(x string) string
+	// CovarSamp is the numerically stable sample covariance: `covar_samp(x, y)`.
+	CovarSamp(x, y string) string
+	// Quantile is the continuous (interpolated) quantile aggregate:
+	// DuckDB `quantile_cont(x, 0.99)`, PostgreSQL
+	// `percentile_cont(0.99) WITHIN GROUP (ORDER BY x)`.
+	Quantile(x string, q float64) string
+	// Least is the smaller of two non-NULL values: `least(a, b)`.
+	Least(a, b string) string
+	// Expr renders a checked user expression; col renders a column
+	// reference (already qualified and quoted).
+	Expr(n expr.Node, col func(name string) string) string
+}
+
+var registry = map[string]Dialect{}
+
+// Register makes a dialect available by name; engine files call it from init.
+func Register(d Dialect) { registry[d.Name()] = d }
+
+// Lookup returns the dialect called name.
+func Lookup(name string) (Dialect, error) {
+	d, ok := registry[name]
+	if !ok {
+		return nil, fmt.Errorf("unknown dialect %q (known: %v)", name, Names())
+	}
+	return d, nil
+}
+
+// Names lists the registered dialects in sorted order.
+func Names() []string {
+	out := make([]string, 0, len(registry))
+	for n := range registry {
+		out = append(out, n)
+	}
+	sort.Strings(out)
+	return out
+}

@@ -1,0 +1,132 @@
+package dialects
+
+import (
+	"fmt"
+	"strconv"
+	"strings"
+
+	"github.com/assay-dev/assay/metrics/expr"
+)
+
+// DuckDB prints SQL for DuckDB 1.5 (embedded). Its aggregates var_samp and
+// covar_samp use numerically stable one-pass updates, and it reads Parquet,
+// CSV and JSON files directly.
+type DuckDB struct{}
+
+func init() { Register(DuckDB{}) }
+
+// Name implements Dialect.
+func (DuckDB) Name() string { return "duckdb" }
+
+// Ident implements Dialect: double quotes, embedded quotes doubled.
+func (DuckDB) Ident(name string) string { return `"` + strings.ReplaceAll(name, `"`, `""`) + `"` }
+
+// String implements Dialect: single quotes, embedded quotes doubled.
+// DuckDB does not treat backslashes in string literals as escapes.
+func (DuckDB) String(s string) string { return "'" + strings.ReplaceAll(s, "'", "''") + "'" }
+
+// Table implements Dialect.
+func (d DuckDB) Table(parts []string) string {
+	q := make([]string, len(parts))
+	for i, p := range parts {
+		q[i] = d.Ident(p)
+	}
+	return strings.Join(q, ".")
+}
+
+// File implements Dialect with DuckDB's file readers. Relative paths are
+// resolved by the engine against its file_search_path.
+func (d DuckDB) File(path string) (string, error) {
+	lower := strings.ToLower(path)
+	switch {
+	case strings.HasSuffix(lower, ".parquet"):
+		return "read_parquet(" + d.String(path) + ")", nil
+	case strings.HasSuffix(lower, ".csv"), strings.HasSuffix(lower, ".tsv"):
+		return "read_csv(" + d.String(path) + ")", nil
+	case strings.HasSuffix(lower, ".json"):
+		return "read_json(" + d.String(path) + ")", nil
+	}
+	return "", fmt.Errorf("cannot tell the format of file %q", path)
+}
+
+// Micros implements Dialect. epoch_us of a TIMESTAMP reads it as UTC and of
+// a TIMESTAMPTZ gives the instant, so the result never depends on the
+// session's TimeZone setting.
+func (d DuckDB) Micros(x, tz string) string {
+	if tz == "" || tz == "UTC" {
+		return "epoch_us(" + x + ")"
+	}
+	return "epoch_us(timezone(" + d.String(tz) + ", " + x + "))"
+}
+
+// Day implements Dialect.
+func (d DuckDB) Day(us, tz string) string {
+	if tz == "" || tz == "UTC" {
+		return "CAST(make_timestamp(" + us + ") AS DATE)"
+	}
+	return "CAST(timezone(" + d.String(tz) + ", timezone('UTC', make_timestamp(" + us + "))) AS DATE)"
+}
+
+// Double implements Dialect.
+func (DuckDB) Double(x string) string { return "CAST(" + x + " AS DOUBLE)" }
+
+// VarSamp implements Dialect.
+func (DuckDB) VarSamp(x string) string { return "var_samp(" + x + ")" }
+
+// CovarSamp implements Dialect.
+func (DuckDB) CovarSamp(x, y string) string { return "covar_samp(" + x + ", " + y + ")" }
+
+// Quantile implements Dialect.
+func (DuckDB) Quantile(x string, q float64) string {
+	return "quantile_cont(" + x + ", " + strconv.FormatFloat(q, 'g', -1, 64) + ")"
+}
+
+// Least implements Dialect.
+func (DuckDB) Least(a, b string) string { return "least(" + a + ", " + b + ")" }
+
+// Expr implements Dialect.
+func (d DuckDB) Expr(n expr.Node, col func(string) string) string {
+	return expr.Render(n, duckStyle{d: d, col: col})
+}
+
+type duckStyle struct {
+	d   DuckDB
+	col func(string) string
+}
+
+func (s duckStyle) Column(name string) string { return s.col(name) }
+func (s duckStyle) String(v string) string    { return s.d.String(v) }
+
+func (s duckStyle) Func(name string, args []string) string {
+	switch name {
+	case "ceil":
+		name = "ceil"
+	case "length":
+		name = "length" // character length in DuckDB
+	case "power":
+		name = "pow"
+	}
+	return name + "(" + strings.Join(args, ", ") + ")"
+}
+
+func (s duckStyle) Cast(x string, to expr.Type) string {
+	return "CAST(" + x + " AS " + duckType(to) + ")"
+}
+
+func duckType(t expr.Type) string {
+	switch t {
+	case expr.TypeDouble:
+		return "DOUBLE"
+	case expr.TypeBigInt:
+		return "BIGINT"
+	case expr.TypeVarchar:
+		return "VARCHAR"
+	case expr.TypeDate:
+		return "DATE"
+	case expr.TypeTimestamp:
+		return "TIMESTAMP"
+	case expr.TypeBoolean:
+		return "BOOLEAN"
+	}
+	return "VARCHAR"
+}

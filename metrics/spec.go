@@ -1,0 +1,179 @@
+package metrics
+
+import (
+	"time"
+
+	"github.com/assay-dev/assay/metrics/expr"
+)
+
+// Spec is a checked experiment definition. Every user-written part keeps
+// the Range it came from so later stages can point back at it.
+type Spec struct {
+	File        string
+	Fingerprint string // sha256 of the spec text, first 16 hex digits
+
+	ID         string
+	Hypothesis string
+	Unit       string // name of the randomisation unit, for reports
+	Start, End time.Time
+	Confidence float64
+	TimeZone   *time.Location
+	TZName     string
+
+	Variants []Variant // the first is the baseline
+
+	Sources  []*Source // in file order
+	Exposure Exposure
+	Rules    []*Rule   // eligibility rules, in file order
+	Metrics  []*Metric // in file order
+	Segments []*Segment
+
+	Ranges map[string]Range // key path ("metrics.orders.window") -> value range
+}
+
+// Variant is one arm with its planned allocation weight.
+type Variant struct {
+	Name   string
+	Weight float64
+	At     Range
+}
+
+// Source is a table, view or file the SQL reads from.
+type Source struct {
+	Name    string
+	Table   string // qualified name parts joined by '.', or ""
+	File    string // file path (DuckDB reads it directly), or ""
+	Unit    string // unit id column
+	Time    string // event time column, "" for a static attribute source
+	Static  bool   // attribute values do not change over time
+	Columns []string
+	At      Range
+}
+
+// IsEvent reports whether rows of the source carry their own timestamps.
+func (s *Source) IsEvent() bool { return s.Time != "" }
+
+// Expr is a parsed and checked user expression.
+type Expr struct {
+	Text string
+	Node expr.Node
+	At   Range
+}
+
+// Exposure says which rows are exposures and which of them qualify.
+type Exposure struct {
+	Source  *Source
+	Variant string // variant column
+	Filter  *Expr  // nil: every exposure row qualifies
+	At      Range
+}
+
+// RuleKind is the kind of an eligibility rule.
+type RuleKind string
+
+// Rule kinds.
+const (
+	RuleAttribute RuleKind = "attribute"
+	RuleHistory   RuleKind = "history"
+)
+
+// Rule is an eligibility rule, evaluated at each unit's trigger.
+type Rule struct {
+	Name   string
+	Kind   RuleKind
+	Source *Source
+	Filter *Expr
+	// History rules: the unit must (Absent=false) or must not (Absent=true)
+	// have a row satisfying Filter in [trigger+From, trigger+To).
+	From, To Duration
+	Absent   bool
+	At       Range
+}
+
+// Role is what a metric is for in the decision.
+type Role string
+
+// Roles.
+const (
+	Primary   Role = "primary"
+	Secondary Role = "secondary"
+	Guard     Role = "guard"
+	Mechanism Role = "mechanism"
+)
+
+// Kind is the statistical shape of a metric.
+type Kind string
+
+// Metric kinds.
+const (
+	KindMean       Kind = "mean"       // per-unit aggregate, averaged over units
+	KindProportion Kind = "proportion" // per-unit indicator, averaged over units
+	KindRatio      Kind = "ratio"      // mean of numerator over mean of denominator
+)
+
+// AggFunc is a per-unit aggregate over a source's rows in a window.
+type AggFunc string
+
+// Per-unit aggregates.
+const (
+	AggSum           AggFunc = "sum"
+	AggCount         AggFunc = "count"
+	AggCountDistinct AggFunc = "count_distinct"
+)
+
+// Agg is one per-unit aggregate: Func over Value for rows of Source that
+// satisfy Filter, with an optional winsorising cap.
+type Agg struct {
+	Source      *Source
+	Func        AggFunc
+	Value       *Expr // nil for count
+	Filter      *Expr // nil: every row
+	Cap         float64
+	HasCap      bool
+	CapQuantile float64 // 0 < q < 1 when set
+	At          Range
+}
+
+// Metric is one analysed metric.
+type Metric struct {
+	Name string
+	Role Role
+	Kind Kind
+	// Mean and proportion metrics use Value; ratio metrics use Num and Den.
+	Value    *Agg
+	Num, Den *Agg
+	// Proportion: the unit counts as 1 when Value's aggregate > Above.
+	Above float64
+	// Outcome window relative to the trigger: [From, To).
+	From, To Duration
+	// Guard metrics.
+	Harmful string  // "increase" or "decrease"
+	Margin  float64 // tolerated relative change, e.g. 0.02
+	Label   string
+	At      Range
+}
+
+// Aggs returns the metric's per-unit aggregates.
+func (m *Metric) Aggs() []*Agg {
+	if m.Kind == KindRatio {
+		return []*Agg{m.Num, m.Den}
+	}
+	return []*Agg{m.Value}
+}
+
+// Segment is a dimension results can be broken down by, read from the
+// qualifying exposure row or a unit attribute as of the trigger.
+type Segment struct {
+	Name   string
+	Source *Source
+	Column string
+	TopK   int
+	At     Range
+}
+
+// Duration is a signed offset with microsecond resolution, kept with the
+// text it was written as.
+type Duration struct {
+	Micros int64
+	Text   string
+}

@@ -1,0 +1,294 @@
+-- assay 0.1.0 per-variant statistics query for experiment reorder-shelf-2026-03 (spec fingerprint a5ea9e7e60c78b66)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
+-- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
+-- File paths are relative to the spec's directory.
+WITH
+-- Exposure rows of exposures inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x."customer_id" AS unit_id,
+    CAST(x."variant" AS VARCHAR) AS variant,
+    epoch_us(x."exposed_at") AS ts_us,
+    coalesce(x."surface" = 'home', FALSE) AS qualifies,
+    x."platform" AS "seg_platform"
+  FROM read_parquet('data/exposures.parquet') AS x
+  WHERE x."customer_id" IS NOT NULL AND x."exposed_at" IS NOT NULL
+    AND epoch_us(x."exposed_at") >= 1772409600000000 AND epoch_us(x."exposed_at") < 1776038400000000
+),
+-- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+exposed_units AS (
+  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure (a row qualifies when: surface = 'home').
+triggers AS (
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us, q."seg_platform"
+  FROM (
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant, r."seg_platform") AS rn
+    FROM exposure_rows AS r
+    WHERE r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Attributes from customers (declared static: values do not change over time).
+"attr_customers" AS (
+  SELECT t.unit_id, a."tenure_band" AS "seg_tenure"
+  FROM triggers AS t
+  JOIN read_parquet('data/customers.parquet') AS a ON a."customer_id" = t.unit_id
+  QUALIFY row_number() OVER (PARTITION BY t.unit_id ORDER BY a."customer_id", a."region", a."signup_at", a."tenure_band") = 1
+),
+-- Rule recent_order: eligible when the unit has row in orders in [trigger - 60d, trigger + 0d) where status <> 'cancelled'.
+rule_1 AS (
+  SELECT DISTINCT t.unit_id
+  FROM triggers AS t
+  JOIN read_parquet('data/orders.parquet') AS s ON s."customer_id" = t.unit_id
+  WHERE epoch_us(s."ordered_at") >= t.trigger_us - 5184000000000
+    AND epoch_us(s."ordered_at") < t.trigger_us + 0
+    AND coalesce(s."status" <> 'cancelled', FALSE)
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
+    t."seg_platform" AS "seg_platform",
+    a1."seg_tenure" AS "seg_tenure",
+    (u.variants_seen > 1) AS is_crossover,
+    (t.variant NOT IN ('control', 'shelf')) AS is_unknown_variant,
+    (r1.unit_id IS NULL) AS "fails_recent_order"
+  FROM triggers AS t
+  JOIN exposed_units AS u ON u.unit_id = t.unit_id
+  LEFT JOIN "attr_customers" AS a1 ON a1.unit_id = t.unit_id
+  LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day, c."seg_platform", c."seg_tenure"
+  FROM cohort AS c
+  WHERE NOT c.is_crossover
+    AND NOT c.is_unknown_variant
+    AND NOT c."fails_recent_order"
+),
+-- One pass over orders for: m_orders_14d, m_basket_value__num, m_basket_value__den, m_converted, m_cancelled.
+"pass_orders" AS (
+  SELECT
+    e.unit_id,
+    -- m_orders_14d: count of rows where status = 'delivered' in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN 1 END) AS "m_orders_14d",
+    -- m_basket_value__num: sum of amount where status = 'delivered' in [trigger + 0d, trigger + 14d)
+    sum(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN CAST(s."amount" AS DOUBLE) END) AS "m_basket_value__num",
+    -- m_basket_value__den: count of rows where status = 'delivered' in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN 1 END) AS "m_basket_value__den",
+    -- m_converted: count of rows where status = 'delivered' in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN 1 END) AS "m_converted",
+    -- m_cancelled: count of rows where status = 'cancelled' in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'cancelled') THEN 1 END) AS "m_cancelled"
+  FROM eligible AS e
+  JOIN read_parquet('data/orders.parquet') AS s ON s."customer_id" = e.unit_id
+  WHERE epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000
+  GROUP BY e.unit_id
+),
+-- One pass over taps for: m_shelf_taps.
+"pass_taps" AS (
+  SELECT
+    e.unit_id,
+    -- m_shelf_taps: count of rows in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN epoch_us(s."tapped_at") >= e.trigger_us + 0 AND epoch_us(s."tapped_at") < e.trigger_us + 1209600000000 THEN 1 END) AS "m_shelf_taps"
+  FROM eligible AS e
+  JOIN read_parquet('data/taps.parquet') AS s ON s."customer_id" = e.unit_id
+  WHERE epoch_us(s."tapped_at") >= e.trigger_us + 0 AND epoch_us(s."tapped_at") < e.trigger_us + 1209600000000
+  GROUP BY e.unit_id
+),
+-- One pass over support for: m_support_contacts.
+"pass_support" AS (
+  SELECT
+    e.unit_id,
+    -- m_support_contacts: count of rows in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN epoch_us(s."contacted_at") >= e.trigger_us + 0 AND epoch_us(s."contacted_at") < e.trigger_us + 1209600000000 THEN 1 END) AS "m_support_contacts"
+  FROM eligible AS e
+  JOIN read_parquet('data/support.parquet') AS s ON s."customer_id" = e.unit_id
+  WHERE epoch_us(s."contacted_at") >= e.trigger_us + 0 AND epoch_us(s."contacted_at") < e.trigger_us + 1209600000000
+  GROUP BY e.unit_id
+),
+-- One row per eligible unit; a unit without outcome rows counts as zero.
+unit_values AS (
+  SELECT
+    e.unit_id,
+    e.variant,
+    e.trigger_day,
+    e."seg_platform",
+    e."seg_tenure",
+    (e.trigger_us + 1209600000000 <= 1776038400000000) AS mature_14d,
+    coalesce(p1."m_orders_14d", 0) AS "m_orders_14d",
+    coalesce(p1."m_basket_value__num", 0) AS "m_basket_value__num",
+    coalesce(p1."m_basket_value__den", 0) AS "m_basket_value__den",
+    coalesce(p1."m_converted", 0) AS "m_converted",
+    coalesce(p1."m_cancelled", 0) AS "m_cancelled",
+    coalesce(p2."m_shelf_taps", 0) AS "m_shelf_taps",
+    coalesce(p3."m_support_contacts", 0) AS "m_support_contacts"
+  FROM eligible AS e
+  LEFT JOIN "pass_orders" AS p1 ON p1.unit_id = e.unit_id
+  LEFT JOIN "pass_taps" AS p2 ON p2.unit_id = e.unit_id
+  LEFT JOIN "pass_support" AS p3 ON p3.unit_id = e.unit_id
+)
+SELECT
+  'a5ea9e7e60c78b66' AS spec_fingerprint,
+  u.variant AS variant,
+  count(*) AS units,
+  -- orders_14d (primary, mean): mean per unit of count of rows where status = 'delivered'; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS "orders_14d__n",
+  avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) AS "orders_14d__mean",
+  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) AS "orders_14d__var",
+  -- shelf_taps (mechanism, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS "shelf_taps__n",
+  avg(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) AS "shelf_taps__mean",
+  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) AS "shelf_taps__var",
+  -- basket_value (secondary, ratio): per-unit sum of amount where status = 'delivered' over per-unit count of rows where status = 'delivered'; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS "basket_value__n",
+  avg(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) AS "basket_value__num_mean",
+  avg(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) AS "basket_value__den_mean",
+  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) AS "basket_value__num_var",
+  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) AS "basket_value__den_var",
+  covar_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END, CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) AS "basket_value__cov",
+  -- converted (secondary, proportion): share of units whose count of rows where status = 'delivered' is above 0; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS "converted__n",
+  avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_converted" > 0 THEN 1.0 ELSE 0.0 END END) AS "converted__mean",
+  var_samp(CASE WHEN u.mature_14d THEN CASE WHEN u."m_converted" > 0 THEN 1.0 ELSE 0.0 END END) AS "converted__var",
+  -- cancelled (guard, mean): mean per unit of count of rows where status = 'cancelled'; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS "cancelled__n",
+  avg(CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END) AS "cancelled__mean",
+  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END) AS "cancelled__var",
+  -- support_contacts (guard, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS "support_contacts__n",
+  avg(CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END) AS "support_contacts__mean",
+  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END) AS "support_contacts__var"
+FROM unit_values AS u
+GROUP BY u.variant
+ORDER BY u.variant
+;
+
+-- assay 0.1.0 health query for experiment reorder-shelf-2026-03 (spec fingerprint a5ea9e7e60c78b66)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
+-- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
+-- File paths are relative to the spec's directory.
+WITH
+-- Exposure rows of exposures inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x."customer_id" AS unit_id,
+    CAST(x."variant" AS VARCHAR) AS variant,
+    epoch_us(x."exposed_at") AS ts_us,
+    coalesce(x."surface" = 'home', FALSE) AS qualifies,
+    x."platform" AS "seg_platform"
+  FROM read_parquet('data/exposures.parquet') AS x
+  WHERE x."customer_id" IS NOT NULL AND x."exposed_at" IS NOT NULL
+    AND epoch_us(x."exposed_at") >= 1772409600000000 AND epoch_us(x."exposed_at") < 1776038400000000
+),
+-- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+exposed_units AS (
+  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure (a row qualifies when: surface = 'home').
+triggers AS (
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us, q."seg_platform"
+  FROM (
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant, r."seg_platform") AS rn
+    FROM exposure_rows AS r
+    WHERE r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Attributes from customers (declared static: values do not change over time).
+"attr_customers" AS (
+  SELECT t.unit_id, a."tenure_band" AS "seg_tenure"
+  FROM triggers AS t
+  JOIN read_parquet('data/customers.parquet') AS a ON a."customer_id" = t.unit_id
+  QUALIFY row_number() OVER (PARTITION BY t.unit_id ORDER BY a."customer_id", a."region", a."signup_at", a."tenure_band") = 1
+),
+-- Rule recent_order: eligible when the unit has row in orders in [trigger - 60d, trigger + 0d) where status <> 'cancelled'.
+rule_1 AS (
+  SELECT DISTINCT t.unit_id
+  FROM triggers AS t
+  JOIN read_parquet('data/orders.parquet') AS s ON s."customer_id" = t.unit_id
+  WHERE epoch_us(s."ordered_at") >= t.trigger_us - 5184000000000
+    AND epoch_us(s."ordered_at") < t.trigger_us + 0
+    AND coalesce(s."status" <> 'cancelled', FALSE)
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
+    t."seg_platform" AS "seg_platform",
+    a1."seg_tenure" AS "seg_tenure",
+    (u.variants_seen > 1) AS is_crossover,
+    (t.variant NOT IN ('control', 'shelf')) AS is_unknown_variant,
+    (r1.unit_id IS NULL) AS "fails_recent_order"
+  FROM triggers AS t
+  JOIN exposed_units AS u ON u.unit_id = t.unit_id
+  LEFT JOIN "attr_customers" AS a1 ON a1.unit_id = t.unit_id
+  LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
+),
+-- Exposure rows outside the analysis window, or without a unit or time.
+ignored_rows AS (
+  SELECT
+    count(CASE WHEN x."customer_id" IS NULL THEN 1 END) AS null_unit,
+    count(CASE WHEN x."exposed_at" IS NULL THEN 1 END) AS null_time,
+    count(CASE WHEN epoch_us(x."exposed_at") < 1772409600000000 THEN 1 END) AS before_start,
+    count(CASE WHEN epoch_us(x."exposed_at") >= 1776038400000000 THEN 1 END) AS after_end
+  FROM read_parquet('data/exposures.parquet') AS x
+)
+SELECT kind, reason, variant, day, row_count AS rows, units FROM (
+  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(make_timestamp(ts_us) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS units
+  FROM exposure_rows
+  GROUP BY variant, CAST(make_timestamp(ts_us) AS DATE)
+  UNION ALL
+  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS units
+  FROM cohort
+  GROUP BY variant, trigger_day
+  UNION ALL
+  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  FROM exposed_units AS u
+  WHERE NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)
+  UNION ALL
+  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  FROM cohort
+  WHERE is_crossover
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  FROM cohort
+  WHERE is_unknown_variant
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'rule:recent_order' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  FROM cohort
+  WHERE "fails_recent_order"
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  FROM cohort
+  WHERE is_crossover OR is_unknown_variant OR "fails_recent_order"
+  GROUP BY variant
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS units
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS units
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS units
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS units
+  FROM ignored_rows
+) AS h
+ORDER BY kind, reason, variant, day
+;

@@ -1,0 +1,338 @@
+-- assay 0.1.0 per-variant statistics query for experiment rules (spec fingerprint 063af84941e2ba0d)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
+-- Exposures are read in [2026-02-01T00:00:00Z, 2026-03-01T00:00:00Z); outcome windows must have ended by 2026-03-01T00:00:00Z.
+-- File paths are relative to the spec's directory.
+WITH
+-- Exposure rows of flags inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x."account" AS unit_id,
+    CAST(x."variant" AS VARCHAR) AS variant,
+    epoch_us(x."seen_at") AS ts_us,
+    coalesce(x."screen" = 'billing' AND x."platform" <> 'test', FALSE) AS qualifies,
+    x."platform" AS "seg_platform"
+  FROM read_csv('flags.csv') AS x
+  WHERE x."account" IS NOT NULL AND x."seen_at" IS NOT NULL
+    AND epoch_us(x."seen_at") >= 1769904000000000 AND epoch_us(x."seen_at") < 1772323200000000
+),
+-- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+exposed_units AS (
+  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure (a row qualifies when: screen = 'billing' AND platform <> 'test').
+triggers AS (
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us, q."seg_platform"
+  FROM (
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant, r."seg_platform") AS rn
+    FROM exposure_rows AS r
+    WHERE r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Attributes from accounts (declared static: values do not change over time).
+"attr_accounts" AS (
+  SELECT t.unit_id, a."tier" AS "seg_tier"
+  FROM triggers AS t
+  JOIN read_parquet('accounts.parquet') AS a ON a."account" = t.unit_id
+  QUALIFY row_number() OVER (PARTITION BY t.unit_id ORDER BY a."account", a."country", a."tier") = 1
+),
+-- Rule active: eligible when the unit has row in logins in [trigger - 30d, trigger + 0d).
+rule_1 AS (
+  SELECT DISTINCT t.unit_id
+  FROM triggers AS t
+  JOIN read_parquet('logins.parquet') AS s ON s."account" = t.unit_id
+  WHERE epoch_us(s."at") >= t.trigger_us - 2592000000000
+    AND epoch_us(s."at") < t.trigger_us + 0
+    AND coalesce(TRUE, FALSE)
+),
+-- Rule no_open_ticket: eligible when the unit has no row in tickets in [trigger - 7d, trigger - 1h) where severity >= 3.
+rule_2 AS (
+  SELECT DISTINCT t.unit_id
+  FROM triggers AS t
+  JOIN read_parquet('tickets.parquet') AS s ON s."account" = t.unit_id
+  WHERE epoch_us(s."opened_at") >= t.trigger_us - 604800000000
+    AND epoch_us(s."opened_at") < t.trigger_us - 3600000000
+    AND coalesce(s."severity" >= 3, FALSE)
+),
+-- Rule not_internal: eligible when the unit's attributes in accounts at the trigger satisfy: country <> 'XX' AND tier IS NOT NULL.
+rule_3 AS (
+  SELECT DISTINCT t.unit_id
+  FROM triggers AS t
+  JOIN read_parquet('accounts.parquet') AS s ON s."account" = t.unit_id
+  WHERE coalesce(s."country" <> 'XX' AND s."tier" IS NOT NULL, FALSE)
+),
+-- Rule paying: eligible when the unit's attributes in plans at the trigger satisfy: plan <> 'free' AND seats > 0.
+rule_4 AS (
+  SELECT DISTINCT t.unit_id
+  FROM triggers AS t
+  JOIN (
+    SELECT t2.unit_id, a.*
+    FROM triggers AS t2
+    JOIN read_parquet('plans.parquet') AS a ON a."account" = t2.unit_id
+    WHERE epoch_us(a."valid_from") <= t2.trigger_us
+    QUALIFY row_number() OVER (PARTITION BY t2.unit_id ORDER BY epoch_us(a."valid_from") DESC) = 1
+  ) AS s ON s.unit_id = t.unit_id
+  WHERE coalesce(s."plan" <> 'free' AND s."seats" > 0, FALSE)
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
+    t."seg_platform" AS "seg_platform",
+    a1."seg_tier" AS "seg_tier",
+    (u.variants_seen > 1) AS is_crossover,
+    (t.variant NOT IN ('control', 'reminder')) AS is_unknown_variant,
+    (r1.unit_id IS NULL) AS "fails_active",
+    (r2.unit_id IS NOT NULL) AS "fails_no_open_ticket",
+    (r3.unit_id IS NULL) AS "fails_not_internal",
+    (r4.unit_id IS NULL) AS "fails_paying"
+  FROM triggers AS t
+  JOIN exposed_units AS u ON u.unit_id = t.unit_id
+  LEFT JOIN "attr_accounts" AS a1 ON a1.unit_id = t.unit_id
+  LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
+  LEFT JOIN rule_2 AS r2 ON r2.unit_id = t.unit_id
+  LEFT JOIN rule_3 AS r3 ON r3.unit_id = t.unit_id
+  LEFT JOIN rule_4 AS r4 ON r4.unit_id = t.unit_id
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day, c."seg_platform", c."seg_tier"
+  FROM cohort AS c
+  WHERE NOT c.is_crossover
+    AND NOT c.is_unknown_variant
+    AND NOT c."fails_active"
+    AND NOT c."fails_no_open_ticket"
+    AND NOT c."fails_not_internal"
+    AND NOT c."fails_paying"
+),
+-- One pass over logins for: m_logins_30d.
+"pass_logins" AS (
+  SELECT
+    e.unit_id,
+    -- m_logins_30d: count of rows in [trigger + 0d, trigger + 30d)
+    count(CASE WHEN epoch_us(s."at") >= e.trigger_us + 0 AND epoch_us(s."at") < e.trigger_us + 2592000000000 THEN 1 END) AS "m_logins_30d"
+  FROM eligible AS e
+  JOIN read_parquet('logins.parquet') AS s ON s."account" = e.unit_id
+  WHERE epoch_us(s."at") >= e.trigger_us + 0 AND epoch_us(s."at") < e.trigger_us + 2592000000000
+  GROUP BY e.unit_id
+),
+-- One pass over tickets for: m_tickets_30d.
+"pass_tickets" AS (
+  SELECT
+    e.unit_id,
+    -- m_tickets_30d: count of rows in [trigger + 0d, trigger + 30d)
+    count(CASE WHEN epoch_us(s."opened_at") >= e.trigger_us + 0 AND epoch_us(s."opened_at") < e.trigger_us + 2592000000000 THEN 1 END) AS "m_tickets_30d"
+  FROM eligible AS e
+  JOIN read_parquet('tickets.parquet') AS s ON s."account" = e.unit_id
+  WHERE epoch_us(s."opened_at") >= e.trigger_us + 0 AND epoch_us(s."opened_at") < e.trigger_us + 2592000000000
+  GROUP BY e.unit_id
+),
+-- One row per eligible unit; a unit without outcome rows counts as zero.
+unit_values AS (
+  SELECT
+    e.unit_id,
+    e.variant,
+    e.trigger_day,
+    e."seg_platform",
+    e."seg_tier",
+    (e.trigger_us + 2592000000000 <= 1772323200000000) AS mature_30d,
+    coalesce(p1."m_logins_30d", 0) AS "m_logins_30d",
+    coalesce(p2."m_tickets_30d", 0) AS "m_tickets_30d"
+  FROM eligible AS e
+  LEFT JOIN "pass_logins" AS p1 ON p1.unit_id = e.unit_id
+  LEFT JOIN "pass_tickets" AS p2 ON p2.unit_id = e.unit_id
+)
+SELECT
+  '063af84941e2ba0d' AS spec_fingerprint,
+  u.variant AS variant,
+  count(*) AS units,
+  -- logins_30d (primary, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 30d), mature units only
+  count(CASE WHEN u.mature_30d THEN 1 END) AS "logins_30d__n",
+  avg(CASE WHEN u.mature_30d THEN CAST(u."m_logins_30d" AS DOUBLE) END) AS "logins_30d__mean",
+  var_samp(CASE WHEN u.mature_30d THEN CAST(u."m_logins_30d" AS DOUBLE) END) AS "logins_30d__var",
+  -- tickets_30d (guard, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 30d), mature units only
+  count(CASE WHEN u.mature_30d THEN 1 END) AS "tickets_30d__n",
+  avg(CASE WHEN u.mature_30d THEN CAST(u."m_tickets_30d" AS DOUBLE) END) AS "tickets_30d__mean",
+  var_samp(CASE WHEN u.mature_30d THEN CAST(u."m_tickets_30d" AS DOUBLE) END) AS "tickets_30d__var"
+FROM unit_values AS u
+GROUP BY u.variant
+ORDER BY u.variant
+;
+
+-- assay 0.1.0 health query for experiment rules (spec fingerprint 063af84941e2ba0d)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
+-- Exposures are read in [2026-02-01T00:00:00Z, 2026-03-01T00:00:00Z); outcome windows must have ended by 2026-03-01T00:00:00Z.
+-- File paths are relative to the spec's directory.
+WITH
+-- Exposure rows of flags inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x."account" AS unit_id,
+    CAST(x."variant" AS VARCHAR) AS variant,
+    epoch_us(x."seen_at") AS ts_us,
+    coalesce(x."screen" = 'billing' AND x."platform" <> 'test', FALSE) AS qualifies,
+    x."platform" AS "seg_platform"
+  FROM read_csv('flags.csv') AS x
+  WHERE x."account" IS NOT NULL AND x."seen_at" IS NOT NULL
+    AND epoch_us(x."seen_at") >= 1769904000000000 AND epoch_us(x."seen_at") < 1772323200000000
+),
+-- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+exposed_units AS (
+  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure (a row qualifies when: screen = 'billing' AND platform <> 'test').
+triggers AS (
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us, q."seg_platform"
+  FROM (
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant, r."seg_platform") AS rn
+    FROM exposure_rows AS r
+    WHERE r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Attributes from accounts (declared static: values do not change over time).
+"attr_accounts" AS (
+  SELECT t.unit_id, a."tier" AS "seg_tier"
+  FROM triggers AS t
+  JOIN read_parquet('accounts.parquet') AS a ON a."account" = t.unit_id
+  QUALIFY row_number() OVER (PARTITION BY t.unit_id ORDER BY a."account", a."country", a."tier") = 1
+),
+-- Rule active: eligible when the unit has row in logins in [trigger - 30d, trigger + 0d).
+rule_1 AS (
+  SELECT DISTINCT t.unit_id
+  FROM triggers AS t
+  JOIN read_parquet('logins.parquet') AS s ON s."account" = t.unit_id
+  WHERE epoch_us(s."at") >= t.trigger_us - 2592000000000
+    AND epoch_us(s."at") < t.trigger_us + 0
+    AND coalesce(TRUE, FALSE)
+),
+-- Rule no_open_ticket: eligible when the unit has no row in tickets in [trigger - 7d, trigger - 1h) where severity >= 3.
+rule_2 AS (
+  SELECT DISTINCT t.unit_id
+  FROM triggers AS t
+  JOIN read_parquet('tickets.parquet') AS s ON s."account" = t.unit_id
+  WHERE epoch_us(s."opened_at") >= t.trigger_us - 604800000000
+    AND epoch_us(s."opened_at") < t.trigger_us - 3600000000
+    AND coalesce(s."severity" >= 3, FALSE)
+),
+-- Rule not_internal: eligible when the unit's attributes in accounts at the trigger satisfy: country <> 'XX' AND tier IS NOT NULL.
+rule_3 AS (
+  SELECT DISTINCT t.unit_id
+  FROM triggers AS t
+  JOIN read_parquet('accounts.parquet') AS s ON s."account" = t.unit_id
+  WHERE coalesce(s."country" <> 'XX' AND s."tier" IS NOT NULL, FALSE)
+),
+-- Rule paying: eligible when the unit's attributes in plans at the trigger satisfy: plan <> 'free' AND seats > 0.
+rule_4 AS (
+  SELECT DISTINCT t.unit_id
+  FROM triggers AS t
+  JOIN (
+    SELECT t2.unit_id, a.*
+    FROM triggers AS t2
+    JOIN read_parquet('plans.parquet') AS a ON a."account" = t2.unit_id
+    WHERE epoch_us(a."valid_from") <= t2.trigger_us
+    QUALIFY row_number() OVER (PARTITION BY t2.unit_id ORDER BY epoch_us(a."valid_from") DESC) = 1
+  ) AS s ON s.unit_id = t.unit_id
+  WHERE coalesce(s."plan" <> 'free' AND s."seats" > 0, FALSE)
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
+    t."seg_platform" AS "seg_platform",
+    a1."seg_tier" AS "seg_tier",
+    (u.variants_seen > 1) AS is_crossover,
+    (t.variant NOT IN ('control', 'reminder')) AS is_unknown_variant,
+    (r1.unit_id IS NULL) AS "fails_active",
+    (r2.unit_id IS NOT NULL) AS "fails_no_open_ticket",
+    (r3.unit_id IS NULL) AS "fails_not_internal",
+    (r4.unit_id IS NULL) AS "fails_paying"
+  FROM triggers AS t
+  JOIN exposed_units AS u ON u.unit_id = t.unit_id
+  LEFT JOIN "attr_accounts" AS a1 ON a1.unit_id = t.unit_id
+  LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
+  LEFT JOIN rule_2 AS r2 ON r2.unit_id = t.unit_id
+  LEFT JOIN rule_3 AS r3 ON r3.unit_id = t.unit_id
+  LEFT JOIN rule_4 AS r4 ON r4.unit_id = t.unit_id
+),
+-- Exposure rows outside the analysis window, or without a unit or time.
+ignored_rows AS (
+  SELECT
+    count(CASE WHEN x."account" IS NULL THEN 1 END) AS null_unit,
+    count(CASE WHEN x."seen_at" IS NULL THEN 1 END) AS null_time,
+    count(CASE WHEN epoch_us(x."seen_at") < 1769904000000000 THEN 1 END) AS before_start,
+    count(CASE WHEN epoch_us(x."seen_at") >= 1772323200000000 THEN 1 END) AS after_end
+  FROM read_csv('flags.csv') AS x
+)
+SELECT kind, reason, variant, day, row_count AS rows, units FROM (
+  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(make_timestamp(ts_us) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS units
+  FROM exposure_rows
+  GROUP BY variant, CAST(make_timestamp(ts_us) AS DATE)
+  UNION ALL
+  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS units
+  FROM cohort
+  GROUP BY variant, trigger_day
+  UNION ALL
+  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  FROM exposed_units AS u
+  WHERE NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)
+  UNION ALL
+  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  FROM cohort
+  WHERE is_crossover
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  FROM cohort
+  WHERE is_unknown_variant
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'rule:active' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  FROM cohort
+  WHERE "fails_active"
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'rule:no_open_ticket' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  FROM cohort
+  WHERE "fails_no_open_ticket"
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'rule:not_internal' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  FROM cohort
+  WHERE "fails_not_internal"
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'rule:paying' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  FROM cohort
+  WHERE "fails_paying"
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  FROM cohort
+  WHERE is_crossover OR is_unknown_variant OR "fails_active" OR "fails_no_open_ticket" OR "fails_not_internal" OR "fails_paying"
+  GROUP BY variant
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS units
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS units
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS units
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS units
+  FROM ignored_rows
+) AS h
+ORDER BY kind, reason, variant, day
+;
