@@ -132,4 +132,3 @@ func lineDiff(want, got string) string {
 	}
 	return b.String()
 }
-

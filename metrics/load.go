@@ -199,7 +199,7 @@ func (t *table) keys() []string {
 }
 
 func (t *table) p(key string) []string { return append(append([]string{}, t.path...), key) }
-func (t *table) has(key string) bool  { _, ok := t.m[key]; return ok }
+func (t *table) has(key string) bool   { _, ok := t.m[key]; return ok }
 
 func (t *table) at(key string) Range {
 	r := t.l.rng(t.p(key), false)
