@@ -141,7 +141,7 @@ func (pr *printer) cohort() {
 	pr.line(0, "exposure_rows AS (")
 	pr.line(1, "SELECT")
 	pr.line(2, "x.%s AS unit_id,", pr.id(src.Unit))
-	pr.line(2, "CAST(x.%s AS VARCHAR) AS variant,", pr.id(ex.Variant))
+	pr.line(2, "%s AS variant,", pr.d.Text("x."+pr.id(ex.Variant)))
 	pr.line(2, "%s AS ts_us,", pr.time(src, "x"))
 	if ex.Filter != nil {
 		pr.line(2, "coalesce(%s, FALSE) AS qualifies%s", pr.expr(ex.Filter, "x"), commaIf(len(segsOn(segs, src)) > 0))
@@ -303,18 +303,24 @@ func (pr *printer) attribute(src *metrics.Source) {
 		pr.line(0, "-- Attributes from %s as of each trigger: the latest row at or before it.", src.Name)
 	}
 	pr.line(0, "%s AS (", pr.id("attr_"+src.Name))
-	if src.Static {
-		pr.line(1, "SELECT t.unit_id%s", listPrefix(cols))
-		pr.line(1, "FROM triggers AS t")
-		pr.line(1, "JOIN %s AS a ON a.%s = t.unit_id", pr.from(src), pr.id(src.Unit))
-		pr.line(1, "QUALIFY row_number() OVER (PARTITION BY t.unit_id ORDER BY %s) = 1", orderAll(pr, src, "a"))
-	} else {
-		pr.line(1, "SELECT t.unit_id%s", listPrefix(cols))
-		pr.line(1, "FROM triggers AS t")
-		pr.line(1, "JOIN %s AS a ON a.%s = t.unit_id", pr.from(src), pr.id(src.Unit))
-		pr.line(1, "WHERE %s <= t.trigger_us", pr.time(src, "a"))
-		pr.line(1, "QUALIFY row_number() OVER (PARTITION BY t.unit_id ORDER BY %s DESC) = 1", pr.time(src, "a"))
+	var segNames []string
+	for _, seg := range segs {
+		segNames = append(segNames, "v."+pr.id("seg_"+seg.Name))
 	}
+	order := orderAll(pr, src, "a")
+	if !src.Static {
+		order = pr.time(src, "a") + " DESC, " + order
+	}
+	pr.line(1, "SELECT v.unit_id%s", listPrefix(segNames))
+	pr.line(1, "FROM (")
+	pr.line(2, "SELECT t.unit_id%s, row_number() OVER (PARTITION BY t.unit_id ORDER BY %s) AS rn", listPrefix(cols), order)
+	pr.line(2, "FROM triggers AS t")
+	pr.line(2, "JOIN %s AS a ON a.%s = t.unit_id", pr.from(src), pr.id(src.Unit))
+	if !src.Static {
+		pr.line(2, "WHERE %s <= t.trigger_us", pr.time(src, "a"))
+	}
+	pr.line(1, ") AS v")
+	pr.line(1, "WHERE v.rn = 1")
 	pr.line(0, "),")
 }
 
@@ -363,13 +369,13 @@ func (pr *printer) rule(i int, r *metrics.Rule) {
 			pr.line(1, "JOIN %s AS s ON s.%s = t.unit_id", pr.from(src), pr.id(src.Unit))
 			pr.line(1, "WHERE coalesce(%s, FALSE)", filter)
 		} else {
+			// The latest attribute row at or before the trigger must pass.
 			pr.line(1, "JOIN (")
-			pr.line(2, "SELECT t2.unit_id, a.*")
+			pr.line(2, "SELECT a.*, row_number() OVER (PARTITION BY a.%s ORDER BY %s DESC, %s) AS assay_rn, t2.unit_id AS assay_unit", pr.id(src.Unit), pr.time(src, "a"), orderAll(pr, src, "a"))
 			pr.line(2, "FROM triggers AS t2")
 			pr.line(2, "JOIN %s AS a ON a.%s = t2.unit_id", pr.from(src), pr.id(src.Unit))
 			pr.line(2, "WHERE %s <= t2.trigger_us", pr.time(src, "a"))
-			pr.line(2, "QUALIFY row_number() OVER (PARTITION BY t2.unit_id ORDER BY %s DESC) = 1", pr.time(src, "a"))
-			pr.line(1, ") AS s ON s.unit_id = t.unit_id")
+			pr.line(1, ") AS s ON s.assay_unit = t.unit_id AND s.assay_rn = 1")
 			pr.line(1, "WHERE coalesce(%s, FALSE)", filter)
 		}
 	}
@@ -633,9 +639,9 @@ func (pr *printer) health() (string, error) {
 	pr.line(2, "count(CASE WHEN %s >= %s THEN 1 END) AS after_end", t, us(p.EndUS))
 	pr.line(1, "FROM %s AS x", pr.from(src))
 	pr.line(0, ")")
-	pr.line(0, "SELECT kind, reason, variant, day, %s AS rows, units FROM (", "row_count")
+	pr.line(0, "SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (")
 	sel := func(kind, reason, variant, day, rows, units, from, where, group string) {
-		pr.line(1, "SELECT %s AS kind, %s AS reason, %s AS variant, %s AS day, %s AS row_count, %s AS units", kind, reason, variant, day, rows, units)
+		pr.line(1, "SELECT %s AS kind, %s AS reason, %s AS variant, %s AS day, %s AS row_count, %s AS unit_count", kind, reason, variant, day, rows, units)
 		pr.line(1, "FROM %s", from)
 		if where != "" {
 			pr.line(1, "WHERE %s", where)
@@ -670,6 +676,6 @@ func (pr *printer) health() (string, error) {
 		sel(q("ignored_rows"), q(ig), "NULL", "NULL", ig, "NULL", "ignored_rows", "", "")
 	}
 	pr.line(0, ") AS h")
-	pr.line(0, "ORDER BY kind, reason, variant, day")
+	pr.line(0, "ORDER BY h.kind, h.reason, h.variant, h.day")
 	return pr.b.String(), pr.err
 }

@@ -34,6 +34,9 @@ type Dialect interface {
 	// Day converts integer microseconds since the epoch to the calendar date
 	// in tz: DuckDB `CAST(make_timestamp(x) AS DATE)` for UTC.
 	Day(us, tz string) string
+	// Text casts to a character string: DuckDB `CAST(x AS VARCHAR)`,
+	// MySQL `CAST(x AS CHAR)`.
+	Text(x string) string
 	// Double casts to a double-precision float: `CAST(x AS DOUBLE)`.
 	Double(x string) string
 	// VarSamp is the numerically stable sample variance (n-1): `var_samp(x)`.

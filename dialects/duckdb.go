@@ -67,6 +67,9 @@ func (d DuckDB) Day(us, tz string) string {
 	return "CAST(timezone(" + d.String(tz) + ", timezone('UTC', make_timestamp(" + us + "))) AS DATE)"
 }
 
+// Text implements Dialect.
+func (DuckDB) Text(x string) string { return "CAST(" + x + " AS VARCHAR)" }
+
 // Double implements Dialect.
 func (DuckDB) Double(x string) string { return "CAST(" + x + " AS DOUBLE)" }
 

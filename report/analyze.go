@@ -235,6 +235,14 @@ func health(p *compiler.Plan, rows []engine.HealthRow, byVariant map[string]*eng
 	h := Health{IgnoredRows: map[string]int64{}, Exclusions: []Exclusion{}, Daily: []Daily{}}
 	exc := map[string]*Exclusion{}
 	var excOrder []string
+	reasons := []string{"any", "crossover", "unknown_variant"}
+	for _, r := range p.Rules {
+		reasons = append(reasons, "rule:"+r.Name)
+	}
+	for _, r := range reasons {
+		exc[r] = &Exclusion{Reason: r, ByVariant: map[string]int64{}}
+		excOrder = append(excOrder, r)
+	}
 	daily := map[[2]string]*Daily{}
 	for _, row := range rows {
 		switch row.Kind {

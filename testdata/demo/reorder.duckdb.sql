@@ -33,10 +33,13 @@ triggers AS (
 ),
 -- Attributes from customers (declared static: values do not change over time).
 "attr_customers" AS (
-  SELECT t.unit_id, a."tenure_band" AS "seg_tenure"
-  FROM triggers AS t
-  JOIN read_parquet('data/customers.parquet') AS a ON a."customer_id" = t.unit_id
-  QUALIFY row_number() OVER (PARTITION BY t.unit_id ORDER BY a."customer_id", a."region", a."signup_at", a."tenure_band") = 1
+  SELECT v.unit_id, v."seg_tenure"
+  FROM (
+    SELECT t.unit_id, a."tenure_band" AS "seg_tenure", row_number() OVER (PARTITION BY t.unit_id ORDER BY a."customer_id", a."region", a."signup_at", a."tenure_band") AS rn
+    FROM triggers AS t
+    JOIN read_parquet('data/customers.parquet') AS a ON a."customer_id" = t.unit_id
+  ) AS v
+  WHERE v.rn = 1
 ),
 -- Rule recent_order: eligible when the unit has row in orders in [trigger - 60d, trigger + 0d) where status <> 'cancelled'.
 rule_1 AS (
@@ -205,10 +208,13 @@ triggers AS (
 ),
 -- Attributes from customers (declared static: values do not change over time).
 "attr_customers" AS (
-  SELECT t.unit_id, a."tenure_band" AS "seg_tenure"
-  FROM triggers AS t
-  JOIN read_parquet('data/customers.parquet') AS a ON a."customer_id" = t.unit_id
-  QUALIFY row_number() OVER (PARTITION BY t.unit_id ORDER BY a."customer_id", a."region", a."signup_at", a."tenure_band") = 1
+  SELECT v.unit_id, v."seg_tenure"
+  FROM (
+    SELECT t.unit_id, a."tenure_band" AS "seg_tenure", row_number() OVER (PARTITION BY t.unit_id ORDER BY a."customer_id", a."region", a."signup_at", a."tenure_band") AS rn
+    FROM triggers AS t
+    JOIN read_parquet('data/customers.parquet') AS a ON a."customer_id" = t.unit_id
+  ) AS v
+  WHERE v.rn = 1
 ),
 -- Rule recent_order: eligible when the unit has row in orders in [trigger - 60d, trigger + 0d) where status <> 'cancelled'.
 rule_1 AS (
@@ -245,50 +251,50 @@ ignored_rows AS (
     count(CASE WHEN epoch_us(x."exposed_at") >= 1776038400000000 THEN 1 END) AS after_end
   FROM read_parquet('data/exposures.parquet') AS x
 )
-SELECT kind, reason, variant, day, row_count AS rows, units FROM (
-  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(make_timestamp(ts_us) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS units
+SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
+  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(make_timestamp(ts_us) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
   FROM exposure_rows
   GROUP BY variant, CAST(make_timestamp(ts_us) AS DATE)
   UNION ALL
-  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   GROUP BY variant, trigger_day
   UNION ALL
-  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM exposed_units AS u
   WHERE NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)
   UNION ALL
-  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE is_crossover
   GROUP BY variant
   UNION ALL
-  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE is_unknown_variant
   GROUP BY variant
   UNION ALL
-  SELECT 'excluded' AS kind, 'rule:recent_order' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'rule:recent_order' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE "fails_recent_order"
   GROUP BY variant
   UNION ALL
-  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE is_crossover OR is_unknown_variant OR "fails_recent_order"
   GROUP BY variant
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS units
+  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
   FROM ignored_rows
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS units
+  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
   FROM ignored_rows
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS units
+  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS unit_count
   FROM ignored_rows
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS units
+  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
   FROM ignored_rows
 ) AS h
-ORDER BY kind, reason, variant, day
+ORDER BY h.kind, h.reason, h.variant, h.day
 ;

@@ -33,10 +33,13 @@ triggers AS (
 ),
 -- Attributes from accounts (declared static: values do not change over time).
 "attr_accounts" AS (
-  SELECT t.unit_id, a."tier" AS "seg_tier"
-  FROM triggers AS t
-  JOIN read_parquet('accounts.parquet') AS a ON a."account" = t.unit_id
-  QUALIFY row_number() OVER (PARTITION BY t.unit_id ORDER BY a."account", a."country", a."tier") = 1
+  SELECT v.unit_id, v."seg_tier"
+  FROM (
+    SELECT t.unit_id, a."tier" AS "seg_tier", row_number() OVER (PARTITION BY t.unit_id ORDER BY a."account", a."country", a."tier") AS rn
+    FROM triggers AS t
+    JOIN read_parquet('accounts.parquet') AS a ON a."account" = t.unit_id
+  ) AS v
+  WHERE v.rn = 1
 ),
 -- Rule active: eligible when the unit has row in logins in [trigger - 30d, trigger + 0d).
 rule_1 AS (
@@ -68,12 +71,11 @@ rule_4 AS (
   SELECT DISTINCT t.unit_id
   FROM triggers AS t
   JOIN (
-    SELECT t2.unit_id, a.*
+    SELECT a.*, row_number() OVER (PARTITION BY a."account" ORDER BY epoch_us(a."valid_from") DESC, a."account", a."valid_from", a."plan", a."seats") AS assay_rn, t2.unit_id AS assay_unit
     FROM triggers AS t2
     JOIN read_parquet('plans.parquet') AS a ON a."account" = t2.unit_id
     WHERE epoch_us(a."valid_from") <= t2.trigger_us
-    QUALIFY row_number() OVER (PARTITION BY t2.unit_id ORDER BY epoch_us(a."valid_from") DESC) = 1
-  ) AS s ON s.unit_id = t.unit_id
+  ) AS s ON s.assay_unit = t.unit_id AND s.assay_rn = 1
   WHERE coalesce(s."plan" <> 'free' AND s."seats" > 0, FALSE)
 ),
 -- Every triggered unit with the reasons it may be excluded.
@@ -199,10 +201,13 @@ triggers AS (
 ),
 -- Attributes from accounts (declared static: values do not change over time).
 "attr_accounts" AS (
-  SELECT t.unit_id, a."tier" AS "seg_tier"
-  FROM triggers AS t
-  JOIN read_parquet('accounts.parquet') AS a ON a."account" = t.unit_id
-  QUALIFY row_number() OVER (PARTITION BY t.unit_id ORDER BY a."account", a."country", a."tier") = 1
+  SELECT v.unit_id, v."seg_tier"
+  FROM (
+    SELECT t.unit_id, a."tier" AS "seg_tier", row_number() OVER (PARTITION BY t.unit_id ORDER BY a."account", a."country", a."tier") AS rn
+    FROM triggers AS t
+    JOIN read_parquet('accounts.parquet') AS a ON a."account" = t.unit_id
+  ) AS v
+  WHERE v.rn = 1
 ),
 -- Rule active: eligible when the unit has row in logins in [trigger - 30d, trigger + 0d).
 rule_1 AS (
@@ -234,12 +239,11 @@ rule_4 AS (
   SELECT DISTINCT t.unit_id
   FROM triggers AS t
   JOIN (
-    SELECT t2.unit_id, a.*
+    SELECT a.*, row_number() OVER (PARTITION BY a."account" ORDER BY epoch_us(a."valid_from") DESC, a."account", a."valid_from", a."plan", a."seats") AS assay_rn, t2.unit_id AS assay_unit
     FROM triggers AS t2
     JOIN read_parquet('plans.parquet') AS a ON a."account" = t2.unit_id
     WHERE epoch_us(a."valid_from") <= t2.trigger_us
-    QUALIFY row_number() OVER (PARTITION BY t2.unit_id ORDER BY epoch_us(a."valid_from") DESC) = 1
-  ) AS s ON s.unit_id = t.unit_id
+  ) AS s ON s.assay_unit = t.unit_id AND s.assay_rn = 1
   WHERE coalesce(s."plan" <> 'free' AND s."seats" > 0, FALSE)
 ),
 -- Every triggered unit with the reasons it may be excluded.
@@ -274,65 +278,65 @@ ignored_rows AS (
     count(CASE WHEN epoch_us(x."seen_at") >= 1772323200000000 THEN 1 END) AS after_end
   FROM read_csv('flags.csv') AS x
 )
-SELECT kind, reason, variant, day, row_count AS rows, units FROM (
-  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(make_timestamp(ts_us) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS units
+SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
+  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(make_timestamp(ts_us) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
   FROM exposure_rows
   GROUP BY variant, CAST(make_timestamp(ts_us) AS DATE)
   UNION ALL
-  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   GROUP BY variant, trigger_day
   UNION ALL
-  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM exposed_units AS u
   WHERE NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)
   UNION ALL
-  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE is_crossover
   GROUP BY variant
   UNION ALL
-  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE is_unknown_variant
   GROUP BY variant
   UNION ALL
-  SELECT 'excluded' AS kind, 'rule:active' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'rule:active' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE "fails_active"
   GROUP BY variant
   UNION ALL
-  SELECT 'excluded' AS kind, 'rule:no_open_ticket' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'rule:no_open_ticket' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE "fails_no_open_ticket"
   GROUP BY variant
   UNION ALL
-  SELECT 'excluded' AS kind, 'rule:not_internal' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'rule:not_internal' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE "fails_not_internal"
   GROUP BY variant
   UNION ALL
-  SELECT 'excluded' AS kind, 'rule:paying' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'rule:paying' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE "fails_paying"
   GROUP BY variant
   UNION ALL
-  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE is_crossover OR is_unknown_variant OR "fails_active" OR "fails_no_open_ticket" OR "fails_not_internal" OR "fails_paying"
   GROUP BY variant
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS units
+  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
   FROM ignored_rows
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS units
+  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
   FROM ignored_rows
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS units
+  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS unit_count
   FROM ignored_rows
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS units
+  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
   FROM ignored_rows
 ) AS h
-ORDER BY kind, reason, variant, day
+ORDER BY h.kind, h.reason, h.variant, h.day
 ;

@@ -135,45 +135,45 @@ ignored_rows AS (
     count(CASE WHEN epoch_us(timezone('Europe/Amsterdam', x."sent at")) >= 1774994400000000 THEN 1 END) AS after_end
   FROM "mail"."""digest sends""" AS x
 )
-SELECT kind, reason, variant, day, row_count AS rows, units FROM (
-  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(timezone('Europe/Amsterdam', timezone('UTC', make_timestamp(ts_us))) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS units
+SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
+  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(timezone('Europe/Amsterdam', timezone('UTC', make_timestamp(ts_us))) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
   FROM exposure_rows
   GROUP BY variant, CAST(timezone('Europe/Amsterdam', timezone('UTC', make_timestamp(ts_us))) AS DATE)
   UNION ALL
-  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   GROUP BY variant, trigger_day
   UNION ALL
-  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM exposed_units AS u
   WHERE NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)
   UNION ALL
-  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE is_crossover
   GROUP BY variant
   UNION ALL
-  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE is_unknown_variant
   GROUP BY variant
   UNION ALL
-  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS units
+  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   WHERE is_crossover OR is_unknown_variant
   GROUP BY variant
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS units
+  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
   FROM ignored_rows
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS units
+  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
   FROM ignored_rows
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS units
+  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS unit_count
   FROM ignored_rows
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS units
+  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
   FROM ignored_rows
 ) AS h
-ORDER BY kind, reason, variant, day
+ORDER BY h.kind, h.reason, h.variant, h.day
 ;
