@@ -24,12 +24,25 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	threads := fs.Int("threads", 0, "DuckDB worker threads (default: all cores)")
 	mem := fs.String("memory-limit", "", "DuckDB memory limit, e.g. 8GB (default: DuckDB's)")
 	failHarm := fs.Bool("fail-on-harm", false, "exit with code 5 when a guard metric shows harm")
+	srmAlpha := fs.Float64("srm-alpha", report.SRMAlpha, "sample-ratio mismatch alarm threshold (p-value)")
+	segments := fs.Bool("segments", true, "also break every metric down by each declared segment")
+	adjust := fs.String("adjust", "holm", "multiple-testing adjustment for secondary metrics, variants and segments: holm, bh, bonferroni or none")
 	path, code, ok := parse(fs, args)
 	if !ok {
 		return code
 	}
 	if cf.groupBy != "" {
 		fmt.Fprintf(stderr, "assay run: --by is not supported yet; use assay compile --by to see grouped SQL\n")
+		return ExitInput
+	}
+	if *srmAlpha <= 0 || *srmAlpha >= 1 {
+		fmt.Fprintf(stderr, "assay run: --srm-alpha must be between 0 and 1\n")
+		return ExitInput
+	}
+	switch *adjust {
+	case "holm", "bh", "bonferroni", "none":
+	default:
+		fmt.Fprintf(stderr, "assay run: --adjust must be holm, bh, bonferroni or none\n")
 		return ExitInput
 	}
 	if *format != "text" && *format != "json" && *format != "markdown" {
@@ -71,10 +84,33 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		return ExitEngine
 	}
 	fmt.Fprintf(stderr, "assay: queries ran in %s\n", time.Since(start).Round(time.Millisecond))
-	rep, err := report.Analyze(plan, res)
+	ropt := report.Options{SRMAlpha: *srmAlpha, Adjust: *adjust}
+	rep, err := report.Analyze(plan, res, ropt)
 	if err != nil {
 		fmt.Fprintf(stderr, "assay: %v\n", err)
 		return ExitEngine
+	}
+	if *segments {
+		for _, seg := range spec.Segments {
+			sp, ds := compiler.Compile(spec, compiler.Options{AsOf: asOfTime(plan), GroupBy: []string{seg.Name}})
+			if ds.HasErrors() {
+				printDiags(stderr, ds, nil)
+				return ExitInput
+			}
+			sq, err := compiler.Print(sp, d)
+			if err != nil {
+				fmt.Fprintf(stderr, "assay: %v\n", err)
+				return ExitInput
+			}
+			key := sp.GroupBy[0].Name
+			rows, err := engine.QueryMain(ctx, conn, sq.Main, []string{key})
+			if err != nil {
+				fmt.Fprintf(stderr, "assay: segment %s query failed: %v\n", seg.Name, engine.CleanError(err))
+				return ExitEngine
+			}
+			rep.AddSegment(sp, seg.Name, key, rows, ropt)
+		}
+		fmt.Fprintf(stderr, "assay: %d segment breakdown(s) in %s\n", len(spec.Segments), time.Since(start).Round(time.Millisecond))
 	}
 	switch *format {
 	case "json":
@@ -101,3 +137,6 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	}
 	return ExitOK
 }
+
+// asOfTime returns the plan's as-of time.
+func asOfTime(p *compiler.Plan) time.Time { return time.UnixMicro(p.AsOfUS).UTC() }

@@ -69,7 +69,7 @@ type AggPlan struct {
 	Agg      *metrics.Agg
 	From, To metrics.Duration
 	Metric   *metrics.Metric
-	Part     string // "", "num" or "den"
+	Part     string // "", "num", "den" or "x" (covariate)
 }
 
 // MetricPlan is one metric's statistics columns.
@@ -77,6 +77,7 @@ type MetricPlan struct {
 	M        *metrics.Metric
 	Value    *AggPlan // mean and proportion
 	Num, Den *AggPlan // ratio
+	Cov      *AggPlan // CUPED covariate, nil when not adjusted
 	Mature   string   // maturity flag column
 }
 
@@ -143,7 +144,7 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 	ends := map[int64]bool{}
 	for _, m := range s.Metrics {
 		mp := &MetricPlan{M: m}
-		add := func(a *metrics.Agg, part string) *AggPlan {
+		add := func(a *metrics.Agg, part string, from, to metrics.Duration) *AggPlan {
 			if a == nil || a.Source == nil {
 				return nil
 			}
@@ -151,15 +152,15 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 			if part != "" {
 				col += "__" + part
 			}
-			ap := &AggPlan{Col: col, Agg: a, From: m.From, To: m.To, Metric: m, Part: part}
+			ap := &AggPlan{Col: col, Agg: a, From: from, To: to, Metric: m, Part: part}
 			sp := passes[a.Source]
 			if sp == nil {
-				sp = &SourcePass{Source: a.Source, From: m.From.Micros, To: m.To.Micros}
+				sp = &SourcePass{Source: a.Source, From: from.Micros, To: to.Micros}
 				passes[a.Source] = sp
 				p.Sources = append(p.Sources, sp)
 			}
-			sp.From = min(sp.From, m.From.Micros)
-			sp.To = max(sp.To, m.To.Micros)
+			sp.From = min(sp.From, from.Micros)
+			sp.To = max(sp.To, to.Micros)
 			sp.Aggs = append(sp.Aggs, ap)
 			if a.CapQuantile > 0 {
 				p.HasCapQuant = true
@@ -167,9 +168,12 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 			return ap
 		}
 		if m.Kind == metrics.KindRatio {
-			mp.Num, mp.Den = add(m.Num, "num"), add(m.Den, "den")
+			mp.Num, mp.Den = add(m.Num, "num", m.From, m.To), add(m.Den, "den", m.From, m.To)
 		} else {
-			mp.Value = add(m.Value, "")
+			mp.Value = add(m.Value, "", m.From, m.To)
+		}
+		if c := m.Covariate; c != nil {
+			mp.Cov = add(c.Agg, "x", c.From, c.To)
 		}
 		mp.Mature = matureCol(m.To.Micros)
 		ends[m.To.Micros] = true

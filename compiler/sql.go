@@ -27,6 +27,12 @@ const (
 	StatNumVar  = "num_var"
 	StatDenVar  = "den_var"
 	StatCov     = "cov"
+	// CUPED covariate statistics.
+	StatXMean   = "x_mean"
+	StatXVar    = "x_var"
+	StatYXCov   = "yx_cov"    // mean and proportion metrics
+	StatNumXCov = "num_x_cov" // ratio metrics
+	StatDenXCov = "den_x_cov"
 )
 
 // StatColumn is the result column holding statistic stat of metric name.
@@ -519,6 +525,26 @@ func (pr *printer) value(mp *MetricPlan, a *AggPlan) string {
 	return "CASE WHEN u." + mp.Mature + " THEN " + pr.d.Double(v) + " END"
 }
 
+// covValue renders a unit's covariate, NULL when the unit is not mature for
+// the metric (so Y and X are aggregated over the same units).
+func (pr *printer) covValue(mp *MetricPlan) string {
+	c := mp.M.Covariate
+	v := "u." + pr.id(mp.Cov.Col)
+	if c.Indicator {
+		return fmt.Sprintf("CASE WHEN u.%s THEN CASE WHEN %s > %s THEN 1.0 ELSE 0.0 END END", mp.Mature, v, strconv.FormatFloat(c.Above, 'g', -1, 64))
+	}
+	return "CASE WHEN u." + mp.Mature + " THEN " + pr.d.Double(v) + " END"
+}
+
+func covRule(mp *MetricPlan) string {
+	c := mp.M.Covariate
+	what := aggRule(mp.Cov)
+	if c.Indicator {
+		what = fmt.Sprintf("whether %s is above %v", what, c.Above)
+	}
+	return fmt.Sprintf("%s (definition of %s) in [trigger %s, trigger %s), before the trigger", what, c.Of.Name, signed(c.From), signed(c.To))
+}
+
 func (pr *printer) indicator(mp *MetricPlan) string {
 	return fmt.Sprintf("CASE WHEN u.%s THEN CASE WHEN u.%s > %s THEN 1.0 ELSE 0.0 END END", mp.Mature, pr.id(mp.Value.Col), strconv.FormatFloat(mp.M.Above, 'g', -1, 64))
 }
@@ -529,7 +555,13 @@ func (pr *printer) main() (string, error) {
 	pr.cohort()
 	pr.eligible()
 	pr.passes()
-	pr.units(p.HasCapQuant)
+	var segKeys []GroupKey
+	for _, g := range p.GroupBy {
+		if !g.Day {
+			segKeys = append(segKeys, g)
+		}
+	}
+	pr.units(p.HasCapQuant || len(segKeys) > 0)
 	if p.HasCapQuant {
 		pr.line(0, "-- Winsorising caps: pooled quantiles over mature units of all variants.")
 		pr.line(0, "caps AS (")
@@ -546,7 +578,24 @@ func (pr *printer) main() (string, error) {
 			pr.line(2, "%s%s", c, commaIf(i < len(cs)-1))
 		}
 		pr.line(1, "FROM unit_values AS u")
-		pr.line(0, ")")
+		pr.line(0, ")%s", commaIf(len(segKeys) > 0))
+	}
+	keyExpr := map[string]string{}
+	for i, g := range segKeys {
+		col := "u." + pr.id(g.Name)
+		txt := pr.d.Text(col)
+		pr.line(0, "-- Segment %s: the %d values with the most eligible units; the rest are grouped as '(other)'.", oneLine(g.Segment.Name), g.Segment.TopK)
+		pr.line(0, "%s AS (", pr.id("top_"+g.Segment.Name))
+		pr.line(1, "SELECT g.value, row_number() OVER (ORDER BY g.units DESC, g.value) AS value_rank")
+		pr.line(1, "FROM (")
+		pr.line(2, "SELECT %s AS value, count(*) AS units", txt)
+		pr.line(2, "FROM unit_values AS u")
+		pr.line(2, "WHERE %s IS NOT NULL", col)
+		pr.line(2, "GROUP BY %s", txt)
+		pr.line(1, ") AS g")
+		pr.line(0, ")%s", commaIf(i < len(segKeys)-1))
+		alias := fmt.Sprintf("k%d", i+1)
+		keyExpr[g.Name] = fmt.Sprintf("CASE WHEN %s IS NULL THEN %s WHEN %s.value_rank <= %d THEN %s.value ELSE %s END", col, pr.d.String("(null)"), alias, g.Segment.TopK, alias, pr.d.String("(other)"))
 	}
 
 	keys := []string{"u.variant"}
@@ -554,7 +603,7 @@ func (pr *printer) main() (string, error) {
 		if g.Day {
 			keys = append(keys, "u.trigger_day")
 		} else {
-			keys = append(keys, "u."+pr.id(g.Name))
+			keys = append(keys, keyExpr[g.Name])
 		}
 	}
 	pr.line(0, "SELECT")
@@ -564,37 +613,65 @@ func (pr *printer) main() (string, error) {
 		if g.Day {
 			pr.line(1, "u.trigger_day AS %s,", KeyTriggerDay)
 		} else {
-			pr.line(1, "u.%s AS %s,", pr.id(g.Name), pr.id(g.Name))
+			pr.line(1, "%s AS %s,", keyExpr[g.Name], pr.id(g.Name))
 		}
 	}
 	pr.line(1, "count(*) AS %s%s", ColUnits, commaIf(len(p.Metrics) > 0))
 	for i, mp := range p.Metrics {
 		m := mp.M
-		last := i == len(p.Metrics)-1
 		st := func(stat string) string { return pr.id(StatColumn(m.Name, stat)) }
+		var cols []string
+		col := func(expr, stat string) { cols = append(cols, expr+" AS "+st(stat)) }
 		pr.line(1, "-- %s (%s, %s): %s", oneLine(m.Name), m.Role, m.Kind, metricRule(mp))
-		pr.line(1, "count(CASE WHEN u.%s THEN 1 END) AS %s,", mp.Mature, st(StatN))
+		col("count(CASE WHEN u."+mp.Mature+" THEN 1 END)", StatN)
+		var y string
 		switch m.Kind {
 		case metrics.KindRatio:
 			num, den := pr.value(mp, mp.Num), pr.value(mp, mp.Den)
-			pr.line(1, "avg(%s) AS %s,", num, st(StatNumMean))
-			pr.line(1, "avg(%s) AS %s,", den, st(StatDenMean))
-			pr.line(1, "%s AS %s,", pr.d.VarSamp(num), st(StatNumVar))
-			pr.line(1, "%s AS %s,", pr.d.VarSamp(den), st(StatDenVar))
-			pr.line(1, "%s AS %s%s", pr.d.CovarSamp(num, den), st(StatCov), commaIf(!last))
+			col("avg("+num+")", StatNumMean)
+			col("avg("+den+")", StatDenMean)
+			col(pr.d.VarSamp(num), StatNumVar)
+			col(pr.d.VarSamp(den), StatDenVar)
+			col(pr.d.CovarSamp(num, den), StatCov)
+			if mp.Cov != nil {
+				x := pr.covValue(mp)
+				cols = append(cols, "-- "+oneLine(m.Name)+" covariate: "+covRule(mp))
+				col("avg("+x+")", StatXMean)
+				col(pr.d.VarSamp(x), StatXVar)
+				col(pr.d.CovarSamp(num, x), StatNumXCov)
+				col(pr.d.CovarSamp(den, x), StatDenXCov)
+			}
 		case metrics.KindProportion:
-			v := pr.indicator(mp)
-			pr.line(1, "avg(%s) AS %s,", v, st(StatMean))
-			pr.line(1, "%s AS %s%s", pr.d.VarSamp(v), st(StatVar), commaIf(!last))
+			y = pr.indicator(mp)
 		default:
-			v := pr.value(mp, mp.Value)
-			pr.line(1, "avg(%s) AS %s,", v, st(StatMean))
-			pr.line(1, "%s AS %s%s", pr.d.VarSamp(v), st(StatVar), commaIf(!last))
+			y = pr.value(mp, mp.Value)
+		}
+		if y != "" {
+			col("avg("+y+")", StatMean)
+			col(pr.d.VarSamp(y), StatVar)
+			if mp.Cov != nil {
+				x := pr.covValue(mp)
+				cols = append(cols, "-- "+oneLine(m.Name)+" covariate: "+covRule(mp))
+				col("avg("+x+")", StatXMean)
+				col(pr.d.VarSamp(x), StatXVar)
+				col(pr.d.CovarSamp(y, x), StatYXCov)
+			}
+		}
+		for j, c := range cols {
+			if strings.HasPrefix(c, "-- ") {
+				pr.line(1, "%s", c)
+				continue
+			}
+			pr.line(1, "%s%s", c, commaIf(j < len(cols)-1 || i < len(p.Metrics)-1))
 		}
 	}
 	pr.line(0, "FROM unit_values AS u")
 	if p.HasCapQuant {
 		pr.line(0, "CROSS JOIN caps AS k")
+	}
+	for i, g := range segKeys {
+		alias := fmt.Sprintf("k%d", i+1)
+		pr.line(0, "LEFT JOIN %s AS %s ON %s.value = %s", pr.id("top_"+g.Segment.Name), alias, alias, pr.d.Text("u."+pr.id(g.Name)))
 	}
 	pr.line(0, "GROUP BY %s", strings.Join(keys, ", "))
 	pr.line(0, "ORDER BY %s", strings.Join(keys, ", "))

@@ -52,6 +52,12 @@ func Query(ctx context.Context, db *sql.DB, main, health string, keys []string) 
 	return &Result{Rows: rows, Health: h}, nil
 }
 
+// QueryMain runs only a main query, e.g. one grouped by a segment, and
+// reads its rows; keys are its grouping key columns.
+func QueryMain(ctx context.Context, db *sql.DB, main string, keys []string) ([]Row, error) {
+	return readMain(ctx, db, main, keys)
+}
+
 func readMain(ctx context.Context, db *sql.DB, q string, keys []string) ([]Row, error) {
 	rs, err := db.QueryContext(ctx, q)
 	if err != nil {

@@ -321,7 +321,13 @@ func (t *table) sub(key string, required bool, allowed ...string) *table {
 		}
 		return nil
 	}
-	return t.l.table(t.p(key), v, allowed...)
+	sub := t.l.table(t.p(key), v, allowed...)
+	if _, isTable := v.(map[string]any); !isTable {
+		// The wrong type is reported; reading an empty table in its place
+		// would only add "needs `...`" noise for every required key.
+		return nil
+	}
+	return sub
 }
 
 func tomlType(v any) string {
@@ -374,6 +380,7 @@ func (l *loader) load(raw map[string]any) {
 		if len(st.m) == 0 {
 			l.errAt(st.path, CodeMissingKey, "declare the exposure source and at least one outcome source", "[sources] is empty")
 		}
+		l.caseClash(st, "source")
 	}
 	ref := func(t *table, key string) *Source {
 		name, ok := t.str(key, true, "the name of a table under [sources]")
@@ -387,6 +394,9 @@ func (l *loader) load(raw map[string]any) {
 				names = append(names, x.Name)
 			}
 			hint := "declared sources: " + strings.Join(names, ", ")
+			if len(names) == 0 {
+				hint = "declare it as a [sources." + name + "] table"
+			}
 			if sg := suggest(name, names); sg != "" {
 				l.errAt(t.p(key), CodeUndefined, hint, "source `%s` is not declared; did you mean `%s`?", name, sg)
 			} else {
@@ -405,6 +415,7 @@ func (l *loader) load(raw map[string]any) {
 				s.Rules = append(s.Rules, r)
 			}
 		}
+		l.caseClash(el, "rule")
 	}
 	if mt := root.sub("metrics", true); mt != nil {
 		for _, name := range mt.keys() {
@@ -412,6 +423,8 @@ func (l *loader) load(raw map[string]any) {
 				s.Metrics = append(s.Metrics, m)
 			}
 		}
+		l.covariates(mt)
+		l.caseClash(mt, "metric")
 		primaries := 0
 		for _, m := range s.Metrics {
 			if m.Role == Primary {
@@ -421,7 +434,7 @@ func (l *loader) load(raw map[string]any) {
 				}
 			}
 		}
-		if primaries == 0 && len(mt.m) > 0 && !l.diags.HasErrors() {
+		if primaries == 0 && len(mt.m) > 0 && !rolesUnclear(mt) {
 			l.errAt(mt.path, CodePrimary, "set role = \"primary\" on the metric the hypothesis is about", "no primary metric: an experiment has exactly one")
 		}
 		if len(mt.m) == 0 {
@@ -434,7 +447,41 @@ func (l *loader) load(raw map[string]any) {
 				s.Segments = append(s.Segments, seg)
 			}
 		}
+		l.caseClash(sg, "segment")
 	}
+}
+
+// caseClash reports names under t that differ only in letter case. assay
+// derives SQL identifiers from them, and DuckDB and MySQL match identifiers
+// without regard to case, so two such names would silently share a column.
+func (l *loader) caseClash(t *table, what string) {
+	first := map[string]string{}
+	for _, k := range t.keys() {
+		low := strings.ToLower(k)
+		if prev, ok := first[low]; ok {
+			l.errKey(t.p(k), CodeDuplicate, "rename one of them: SQL engines compare these names without regard to case",
+				"%s `%s` differs from %s `%s` only in letter case", what, k, what, prev)
+			continue
+		}
+		first[low] = k
+	}
+}
+
+// rolesUnclear reports whether some metric's role could not be read, so
+// that a misspelt role = "primry" does not also claim the spec has no
+// primary metric.
+func rolesUnclear(mt *table) bool {
+	for _, v := range mt.m {
+		m, ok := v.(map[string]any)
+		if !ok {
+			return true
+		}
+		r, _ := m["role"].(string)
+		if !contains([]string{string(Primary), string(Secondary), string(Guard), string(Mechanism)}, r) {
+			return true
+		}
+	}
+	return false
 }
 
 func (l *loader) experiment(t *table) {
@@ -563,6 +610,8 @@ func (l *loader) ident(path []string, name, what string, keyOnly bool) bool {
 		bad = "contains a NUL byte"
 	case strings.ContainsAny(name, "\n\r\t"):
 		bad = "contains a line break or tab"
+	case strings.IndexFunc(name, isControl) >= 0:
+		bad = fmt.Sprintf("contains the control character %U", []rune(name)[indexRune(name, isControl)])
 	case utf8.RuneCountInString(name) > 128:
 		bad = "is longer than 128 characters"
 	}
@@ -575,6 +624,26 @@ func (l *loader) ident(path []string, name, what string, keyOnly bool) bool {
 		l.errAt(path, CodeIdent, "", "%s %q %s", what, name, bad)
 	}
 	return false
+}
+
+// isControl reports whether r is a control, line-separator or
+// bidirectional-formatting character: such characters can end a SQL comment
+// line in some engines or make a name display differently from its value.
+func isControl(r rune) bool {
+	return r < 0x20 || r >= 0x7f && r < 0xa0 || r == 0x2028 || r == 0x2029 ||
+		r >= 0x202a && r <= 0x202e || r >= 0x2066 && r <= 0x2069 || r == 0xfeff
+}
+
+// indexRune returns the rune index of the first rune of s satisfying f, or -1.
+func indexRune(s string, f func(rune) bool) int {
+	i := 0
+	for _, r := range s {
+		if f(r) {
+			return i
+		}
+		i++
+	}
+	return -1
 }
 
 func (l *loader) source(name string, t *table) *Source {
@@ -609,6 +678,7 @@ func (l *loader) source(name string, t *table) *Source {
 	}
 	cols, _ := t.strList("columns", true)
 	seen := map[string]bool{}
+	lower := map[string]string{}
 	for i, c := range cols {
 		if !l.ident(append(t.p("columns"), "#"+itoa(i)), c, "column name", false) {
 			continue
@@ -617,7 +687,13 @@ func (l *loader) source(name string, t *table) *Source {
 			l.errAt(append(t.p("columns"), "#"+itoa(i)), CodeDuplicate, "", "column `%s` is listed twice in source `%s`", c, name)
 			continue
 		}
+		if prev, ok := lower[strings.ToLower(c)]; ok {
+			l.errAt(append(t.p("columns"), "#"+itoa(i)), CodeDuplicate, "DuckDB and MySQL match column names without regard to case",
+				"column `%s` differs from column `%s` of source `%s` only in letter case", c, prev, name)
+			continue
+		}
 		seen[c] = true
+		lower[strings.ToLower(c)] = c
 		src.Columns = append(src.Columns, c)
 	}
 	col := func(key string, required bool) string {
@@ -836,7 +912,7 @@ func firstPresent(t *table, keys ...string) string {
 	return keys[0]
 }
 
-var metricKeys = []string{"role", "kind", "label", "source", "value", "filter", "window", "above", "cap", "cap_quantile", "numerator", "denominator", "harmful", "margin"}
+var metricKeys = []string{"role", "kind", "label", "source", "value", "filter", "window", "above", "cap", "cap_quantile", "numerator", "denominator", "harmful", "margin", "covariate"}
 
 var aggKeys = []string{"source", "kind", "value", "filter", "cap", "cap_quantile"}
 
@@ -913,6 +989,69 @@ func (l *loader) metric(name string, t *table, ref refFunc) *Metric {
 	return m
 }
 
+// covariates reads each metric's optional covariate table once every metric
+// is known, since a covariate may name another metric.
+func (l *loader) covariates(mt *table) {
+	byName := map[string]*Metric{}
+	var names []string
+	for _, m := range l.spec.Metrics {
+		byName[m.Name] = m
+		names = append(names, m.Name)
+	}
+	for _, m := range l.spec.Metrics {
+		mtab, ok := mt.m[m.Name].(map[string]any)
+		if !ok {
+			continue
+		}
+		if _, ok := mtab["covariate"]; !ok {
+			continue
+		}
+		t := l.table(mt.p(m.Name), mtab).sub("covariate", false, "window", "metric")
+		if t == nil {
+			continue
+		}
+		c := &Covariate{Of: m, At: l.rng(t.path, true)}
+		if name, ok := t.str("metric", false, "the name of a metric under [metrics]"); ok {
+			of, found := byName[name]
+			switch {
+			case !found:
+				hint := "metrics: " + strings.Join(names, ", ")
+				if sg := suggest(name, names); sg != "" {
+					l.errAt(t.p("metric"), CodeUndefined, hint, "covariate metric `%s` is not declared; did you mean `%s`?", name, sg)
+				} else {
+					l.errAt(t.p("metric"), CodeUndefined, hint, "covariate metric `%s` is not declared", name)
+				}
+				continue
+			case of.Kind == KindRatio && of != m:
+				l.errAt(t.p("metric"), CodeValue, "name a count, sum, count_distinct or proportion metric; its per-unit value before the trigger is the covariate", "covariate metric `%s` is a ratio; a covariate must be one per-unit value", name)
+				continue
+			}
+			c.Of = of
+		}
+		from, to, ok := l.window(t, true)
+		if !ok {
+			continue
+		}
+		if to.Micros > 0 {
+			l.errAt(t.p("window"), CodeAfterTrigger, "a covariate must be measured before the trigger: end its window at \"0d\" or earlier", "covariate of metric `%s` reads data after the trigger (window ends at %s)", m.Name, to.Text)
+			continue
+		}
+		c.From, c.To = from, to
+		switch c.Of.Kind {
+		case KindRatio:
+			c.Agg = c.Of.Num
+		case KindProportion:
+			c.Agg, c.Indicator, c.Above = c.Of.Value, true, c.Of.Above
+		default:
+			c.Agg = c.Of.Value
+		}
+		if c.Agg == nil || c.Agg.Source == nil {
+			continue
+		}
+		m.Covariate = c
+	}
+}
+
 // agg reads a numerator or denominator table.
 func (l *loader) agg(t *table, ref refFunc, _ bool) *Agg {
 	if t == nil {
@@ -971,7 +1110,7 @@ func (l *loader) segment(name string, t *table, ref refFunc) *Segment {
 		if seg.Source != l.spec.Exposure.Source && seg.Source.IsEvent() {
 			l.errAt(t.p("source"), CodeSource, "segments come from the qualifying exposure row or from an attribute source", "segment `%s` reads event source `%s`", name, seg.Source.Name)
 		} else if seg.Source != l.spec.Exposure.Source && !seg.Source.Static {
-			l.errAt(t.p("source"), CodeAfterTrigger, "mark the attribute source static = true or give it a time column", "segment `%s` reads attribute source `%s`, whose values may be from after the trigger", name, seg.Source.Name)
+			l.errAt(t.p("source"), CodeAfterTrigger, "mark the attribute source static = true if its values never change; segments cannot read time-versioned sources yet", "segment `%s` reads attribute source `%s`, whose values may be from after the trigger", name, seg.Source.Name)
 		}
 	}
 	seg.Column = c

@@ -146,6 +146,8 @@ type Metric struct {
 	Above float64
 	// Outcome window relative to the trigger: [From, To).
 	From, To Duration
+	// Covariate for CUPED, nil when the metric is not adjusted.
+	Covariate *Covariate
 	// Guard metrics.
 	Harmful string  // "increase" or "decrease"
 	Margin  float64 // tolerated relative change, e.g. 0.02
@@ -159,6 +161,23 @@ func (m *Metric) Aggs() []*Agg {
 		return []*Agg{m.Num, m.Den}
 	}
 	return []*Agg{m.Value}
+}
+
+// Covariate is a pre-trigger covariate for regression adjustment (CUPED):
+// the per-unit aggregate Agg measured in [trigger+From, trigger+To), with
+// To <= 0 so it never reads data after the trigger.
+type Covariate struct {
+	From, To Duration
+	// Of is the metric whose definition is measured before the trigger: the
+	// metric itself unless the spec names another.
+	Of *Metric
+	// Agg is the per-unit aggregate measured; for a ratio metric measured on
+	// itself, its numerator.
+	Agg *Agg
+	// Indicator says the covariate is Of's 0/1 indicator (Of is a proportion).
+	Indicator bool
+	Above     float64
+	At        Range
 }
 
 // Segment is a dimension results can be broken down by, read from the

@@ -10,6 +10,7 @@ import (
 	"math"
 	"sort"
 	"strconv"
+	"strings"
 	"time"
 
 	"github.com/assay-dev/assay/compiler"
@@ -49,7 +50,10 @@ type Report struct {
 	Alarms        []string     `json:"alarms"`
 	Health        Health       `json:"health"`
 	Metrics       []MetricInfo `json:"metrics"`
-	Cautions      []string     `json:"cautions"`
+	Segments      []Segment    `json:"segments"`
+	// Adjustment is the multiple-testing method applied to p_value_adjusted.
+	Adjustment string   `json:"adjustment"`
+	Cautions   []string `json:"cautions"`
 }
 
 // Experiment describes what was analysed.
@@ -77,15 +81,36 @@ type Variant struct {
 
 // Health holds the checks a reader needs before trusting any effect.
 type Health struct {
-	ExposedUnits   int64              `json:"exposed_units"`
-	NeverTriggered int64              `json:"never_triggered_units"`
-	Triggered      int64              `json:"triggered_units"`
-	Eligible       int64              `json:"eligible_units"`
-	Exclusions     []Exclusion        `json:"exclusions"`
-	IgnoredRows    map[string]int64   `json:"ignored_exposure_rows"`
-	SampleRatio    SampleRatio        `json:"sample_ratio"`
-	Daily          []Daily            `json:"daily"`
-	Extra          map[string]float64 `json:"-"`
+	ExposedUnits   int64            `json:"exposed_units"`
+	NeverTriggered int64            `json:"never_triggered_units"`
+	Triggered      int64            `json:"triggered_units"`
+	Eligible       int64            `json:"eligible_units"`
+	Exclusions     []Exclusion      `json:"exclusions"`
+	IgnoredRows    map[string]int64 `json:"ignored_exposure_rows"`
+	SampleRatio    SampleRatio      `json:"sample_ratio"`
+	// SampleRatioTriggered tests triggered units (before exclusions).
+	SampleRatioTriggered SampleRatio `json:"sample_ratio_triggered"`
+	// SampleRatioDaily tests each day's newly triggered units.
+	SampleRatioDaily DailySRM `json:"sample_ratio_daily"`
+	// CrossoverRateExposed is crossovers over all exposed units.
+	CrossoverRateExposed Num     `json:"crossover_rate_of_exposed"`
+	Daily                []Daily `json:"daily"`
+}
+
+// DailySRM is the per-day sample-ratio check on triggered units.
+type DailySRM struct {
+	Days      []DaySRM `json:"days"`
+	AlarmDays []string `json:"alarm_days"`
+}
+
+// DaySRM is one day's chi-square goodness of fit.
+type DaySRM struct {
+	Day       string `json:"day"`
+	Units     int64  `json:"units"`
+	Statistic Num    `json:"statistic"`
+	PValue    Num    `json:"p_value"`
+	Alarm     bool   `json:"alarm"`
+	Reason    string `json:"reason,omitempty"`
 }
 
 // Exclusion counts triggered units excluded for one reason. A unit can be
@@ -127,8 +152,24 @@ type MetricInfo struct {
 	Rule        string       `json:"rule"`
 	Harmful     string       `json:"harmful,omitempty"`
 	Margin      *float64     `json:"margin,omitempty"`
+	Covariate   *CovInfo     `json:"covariate,omitempty"`
 	Variants    []VariantVal `json:"variants"`
 	Comparisons []Compare    `json:"comparisons"`
+}
+
+// CovInfo describes a metric's CUPED covariate.
+type CovInfo struct {
+	Metric string    `json:"metric"`
+	Window [2]string `json:"window"`
+	Rule   string    `json:"rule"`
+}
+
+// CUPEDInfo is the regression adjustment behind an adjusted comparison.
+type CUPEDInfo struct {
+	Theta             Num     `json:"theta"`
+	CovariateMean     Num     `json:"covariate_mean"`
+	VarianceReduction Num     `json:"variance_reduction"`
+	Unadjusted        Compare `json:"unadjusted"`
 }
 
 // VariantVal is a metric's value in one variant.
@@ -139,6 +180,9 @@ type VariantVal struct {
 	Value    Num    `json:"value"`
 	StdError Num    `json:"std_error"`
 	Reason   string `json:"reason,omitempty"`
+	// Adjusted values are set for metrics with a CUPED covariate.
+	AdjustedValue    *Num `json:"adjusted_value,omitempty"`
+	AdjustedStdError *Num `json:"adjusted_std_error,omitempty"`
 }
 
 // Compare is a treatment variant against the baseline.
@@ -156,9 +200,13 @@ type Compare struct {
 	Statistic      Num    `json:"statistic"`
 	DF             Num    `json:"df"`
 	PValue         Num    `json:"p_value"`
-	Reason         string `json:"reason,omitempty"`
-	RelReason      string `json:"relative_reason,omitempty"`
-	Guard          *Guard `json:"guard,omitempty"`
+	// PValueAdjusted is PValue adjusted for multiple testing within Family.
+	PValueAdjusted Num        `json:"p_value_adjusted"`
+	Family         string     `json:"family"`
+	Reason         string     `json:"reason,omitempty"`
+	RelReason      string     `json:"relative_reason,omitempty"`
+	Guard          *Guard     `json:"guard,omitempty"`
+	CUPED          *CUPEDInfo `json:"cuped,omitempty"`
 }
 
 // Guard is a guard metric's verdict for one comparison.
@@ -169,11 +217,45 @@ type Guard struct {
 	Reason  string `json:"reason,omitempty"`
 }
 
+// Options change how the report is computed.
+type Options struct {
+	// SRMAlpha is the sample-ratio alarm threshold; 0 means SRMAlpha.
+	SRMAlpha float64
+	// Adjust is the multiple-testing adjustment for secondary metrics,
+	// mechanism metrics, several treatment variants and segment results:
+	// "holm" (default), "bh" (Benjamini–Hochberg), "bonferroni" or "none".
+	Adjust string
+}
+
+func (o Options) withDefaults() Options {
+	if o.SRMAlpha == 0 {
+		o.SRMAlpha = SRMAlpha
+	}
+	if o.Adjust == "" {
+		o.Adjust = "holm"
+	}
+	return o
+}
+
+// adjust applies the chosen multiple-testing adjustment.
+func adjust(method string, p []float64) []float64 {
+	switch method {
+	case "bh":
+		return stats.BenjaminiHochberg(p)
+	case "bonferroni":
+		return stats.Bonferroni(p)
+	case "none":
+		return append([]float64(nil), p...)
+	}
+	return stats.Holm(p)
+}
+
 // Analyze builds the report from the plan and the engine's rows. The rows
 // must be ungrouped (one per variant).
-func Analyze(p *compiler.Plan, res *engine.Result) (*Report, error) {
+func Analyze(p *compiler.Plan, res *engine.Result, opt Options) (*Report, error) {
+	opt = opt.withDefaults()
 	s := p.Spec
-	r := &Report{SchemaVersion: SchemaVersion, ToolVersion: compiler.Version, Alarms: []string{}}
+	r := &Report{SchemaVersion: SchemaVersion, ToolVersion: compiler.Version, Alarms: []string{}, Segments: []Segment{}}
 	r.Experiment = Experiment{
 		ID: s.ID, Hypothesis: s.Hypothesis, Unit: s.Unit,
 		Start: stamp(p.StartUS), End: stamp(p.EndUS), AsOf: stamp(p.AsOfUS),
@@ -190,7 +272,7 @@ func Analyze(p *compiler.Plan, res *engine.Result) (*Report, error) {
 		}
 		byVariant[row.Variant] = row
 	}
-	r.Health = health(p, res.Health, byVariant)
+	r.Health = health(p, res.Health, byVariant, opt.SRMAlpha)
 	for i, v := range s.Variants {
 		vv := Variant{Name: v.Name, Baseline: i == 0, PlannedWeight: v.Weight}
 		if row := byVariant[v.Name]; row != nil {
@@ -204,12 +286,17 @@ func Analyze(p *compiler.Plan, res *engine.Result) (*Report, error) {
 		r.Experiment.Variants = append(r.Experiment.Variants, vv)
 	}
 	if r.Health.SampleRatio.Alarm {
-		r.Alarms = append(r.Alarms, fmt.Sprintf("SAMPLE RATIO MISMATCH: eligible units per variant do not match the planned weights (chi-square p = %s < %g). Assignment or logging is likely broken; effects below are not trustworthy until the cause is found.", fmtP(float64(r.Health.SampleRatio.PValue)), SRMAlpha))
+		r.Alarms = append(r.Alarms, fmt.Sprintf("SAMPLE RATIO MISMATCH: eligible units per variant do not match the planned weights (chi-square p = %s < %g). Assignment or logging is likely broken; effects below are not trustworthy until the cause is found.", fmtP(float64(r.Health.SampleRatio.PValue)), opt.SRMAlpha))
+	}
+	if n := len(r.Health.SampleRatioDaily.AlarmDays); n > 0 {
+		r.Alarms = append(r.Alarms, fmt.Sprintf("SAMPLE RATIO MISMATCH on %d day(s) (%s): triggered units that day do not match the planned weights (p < %g).", n, strings.Join(r.Health.SampleRatioDaily.AlarmDays, ", "), opt.SRMAlpha))
 	}
 	level := s.Confidence
 	for _, mp := range p.Metrics {
 		r.Metrics = append(r.Metrics, metricInfo(p, mp, byVariant, level))
 	}
+	r.Adjustment = opt.Adjust
+	adjustFamilies(r.Metrics, opt.Adjust)
 	for _, m := range r.Metrics {
 		for _, c := range m.Comparisons {
 			if c.Guard != nil && c.Guard.Verdict == stats.HarmShown {
@@ -231,7 +318,14 @@ func pastTense(harm string) string {
 
 func stamp(us int64) string { return time.UnixMicro(us).UTC().Format(time.RFC3339) }
 
-func health(p *compiler.Plan, rows []engine.HealthRow, byVariant map[string]*engine.Row) Health {
+func srm(obs, w []float64, alpha float64) SampleRatio {
+	sr := stats.SampleRatio(obs, w)
+	out := SampleRatio{Statistic: Num(sr.Statistic), DF: Num(sr.DF), PValue: Num(sr.PValue), Alpha: alpha, Reason: sr.Reason}
+	out.Alarm = sr.Reason == "" && sr.PValue < alpha
+	return out
+}
+
+func health(p *compiler.Plan, rows []engine.HealthRow, byVariant map[string]*engine.Row, alpha float64) Health {
 	h := Health{IgnoredRows: map[string]int64{}, Exclusions: []Exclusion{}, Daily: []Daily{}}
 	exc := map[string]*Exclusion{}
 	var excOrder []string
@@ -289,19 +383,55 @@ func health(p *compiler.Plan, rows []engine.HealthRow, byVariant map[string]*eng
 	for _, k := range keys {
 		h.Daily = append(h.Daily, *daily[k])
 	}
-	var obs, w []float64
+	var obs, trig, w []float64
 	for _, v := range p.Spec.Variants {
 		n := 0.0
 		if row := byVariant[v.Name]; row != nil {
 			n = float64(row.Units)
 			h.Eligible += row.Units
 		}
+		t := 0.0
+		for _, d := range h.Daily {
+			if d.Variant == v.Name {
+				t += float64(d.TriggeredUnit)
+			}
+		}
 		obs = append(obs, n)
+		trig = append(trig, t)
 		w = append(w, v.Weight)
 	}
-	sr := stats.SampleRatio(obs, w)
-	h.SampleRatio = SampleRatio{Statistic: Num(sr.Statistic), DF: Num(sr.DF), PValue: Num(sr.PValue), Alpha: SRMAlpha, Reason: sr.Reason}
-	h.SampleRatio.Alarm = sr.Reason == "" && sr.PValue < SRMAlpha
+	h.SampleRatio = srm(obs, w, alpha)
+	h.SampleRatioTriggered = srm(trig, w, alpha)
+	h.SampleRatioDaily = DailySRM{Days: []DaySRM{}, AlarmDays: []string{}}
+	byDay := map[string]map[string]float64{}
+	var days []string
+	for _, d := range h.Daily {
+		if d.TriggeredUnit == 0 {
+			continue
+		}
+		if byDay[d.Day] == nil {
+			byDay[d.Day] = map[string]float64{}
+			days = append(days, d.Day)
+		}
+		byDay[d.Day][d.Variant] += float64(d.TriggeredUnit)
+	}
+	sort.Strings(days)
+	for _, day := range days {
+		var o []float64
+		var total int64
+		for _, v := range p.Spec.Variants {
+			o = append(o, byDay[day][v.Name])
+			total += int64(byDay[day][v.Name])
+		}
+		sr := srm(o, w, alpha)
+		h.SampleRatioDaily.Days = append(h.SampleRatioDaily.Days, DaySRM{Day: day, Units: total, Statistic: sr.Statistic, PValue: sr.PValue, Alarm: sr.Alarm, Reason: sr.Reason})
+		if sr.Alarm {
+			h.SampleRatioDaily.AlarmDays = append(h.SampleRatioDaily.AlarmDays, day)
+		}
+	}
+	if e := exc["crossover"]; e != nil {
+		h.CrossoverRateExposed = Num(ratio(float64(e.Units), float64(h.ExposedUnits)))
+	}
 	return h
 }
 
@@ -354,6 +484,37 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 		return stats.RatioMoments{N: nOf(row), MeanNum: stat(row, compiler.StatNumMean), MeanDen: stat(row, compiler.StatDenMean),
 			VarNum: stat(row, compiler.StatNumVar), VarDen: stat(row, compiler.StatDenVar), Cov: stat(row, compiler.StatCov)}
 	}
+	cmoments := func(row *engine.Row) stats.CovariateMoments {
+		return stats.CovariateMoments{N: nOf(row), MeanY: stat(row, compiler.StatMean), MeanX: stat(row, compiler.StatXMean),
+			VarY: stat(row, compiler.StatVar), VarX: stat(row, compiler.StatXVar), CovYX: stat(row, compiler.StatYXCov)}
+	}
+	rcmoments := func(row *engine.Row) stats.RatioCovariateMoments {
+		return stats.RatioCovariateMoments{N: nOf(row), MeanNum: stat(row, compiler.StatNumMean), MeanDen: stat(row, compiler.StatDenMean), MeanX: stat(row, compiler.StatXMean),
+			VarNum: stat(row, compiler.StatNumVar), VarDen: stat(row, compiler.StatDenVar), VarX: stat(row, compiler.StatXVar),
+			CovNumDen: stat(row, compiler.StatCov), CovNumX: stat(row, compiler.StatNumXCov), CovDenX: stat(row, compiler.StatDenXCov)}
+	}
+	// theta and the covariate centre are pooled over every variant.
+	type covPool struct {
+		theta, meanX float64
+		reason       string
+	}
+	var cov *covPool
+	if mp.Cov != nil {
+		c := m.Covariate
+		mi.Covariate = &CovInfo{Metric: c.Of.Name, Window: [2]string{c.From.Text, c.To.Text}, Rule: fmt.Sprintf("per-unit value of %s's definition in [trigger %s, trigger %s)", c.Of.Name, c.From.Text, c.To.Text)}
+		var groups []stats.CovariateMoments
+		for _, v := range p.Variants {
+			row := byVariant[v]
+			if m.Kind == metrics.KindRatio {
+				lin, _ := stats.LinearizeCovariate(rcmoments(row))
+				groups = append(groups, lin)
+			} else {
+				groups = append(groups, cmoments(row))
+			}
+		}
+		theta, reason := stats.CUPEDTheta(groups...)
+		cov = &covPool{theta: theta, meanX: stats.CovariateMean(groups...), reason: reason}
+	}
 	var base *engine.Row
 	for i, v := range p.Variants {
 		row := byVariant[v]
@@ -384,10 +545,24 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 		default:
 			c = stats.Welch(moments(base), moments(row), level)
 		}
-		cmp := Compare{Variant: v, Baseline: p.Variants[0], Method: c.Method,
-			Difference: Num(c.Difference), StdError: Num(c.StdError), CILow: Num(c.CILow), CIHigh: Num(c.CIHigh),
-			Relative: Num(c.Relative), RelativeCILow: Num(c.RelCILow), RelativeCIHigh: Num(c.RelCIHigh),
-			Statistic: Num(c.Statistic), DF: Num(c.DF), PValue: Num(c.PValue), Reason: c.Reason, RelReason: c.RelReason}
+		cmp := compareOf(c, v, p.Variants[0])
+		if cov != nil {
+			var cc stats.CUPEDComparison
+			if m.Kind == metrics.KindRatio {
+				cc = stats.CUPEDRatioWith(rcmoments(base), rcmoments(row), cov.theta, cov.meanX, level)
+			} else {
+				cc = stats.CUPEDWelchWith(cmoments(base), cmoments(row), cov.theta, cov.meanX, level)
+			}
+			if cov.reason != "" && cc.Reason == "" {
+				cc.Reason = cov.reason
+			}
+			unadj := cmp
+			c = cc.Comparison
+			cmp = compareOf(c, v, p.Variants[0])
+			cmp.CUPED = &CUPEDInfo{Theta: Num(cc.Theta), CovariateMean: Num(cc.MeanX), VarianceReduction: Num(cc.VarianceReduction), Unadjusted: unadj}
+			setAdjusted(&mi.Variants[0], cc.Base.Estimate)
+			setAdjusted(&mi.Variants[i], cc.Treat.Estimate)
+		}
 		if m.Role == metrics.Guard {
 			g := stats.GuardComparison(c, m.Harmful, m.Margin, level)
 			cmp.Guard = &Guard{Verdict: g.Verdict, PValue: Num(g.PValue), Bound: Num(g.Bound), Reason: g.Reason}
@@ -395,6 +570,60 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 		mi.Comparisons = append(mi.Comparisons, cmp)
 	}
 	return mi
+}
+
+func compareOf(c stats.Comparison, variant, baseline string) Compare {
+	return Compare{Variant: variant, Baseline: baseline, Method: c.Method,
+		Difference: Num(c.Difference), StdError: Num(c.StdError), CILow: Num(c.CILow), CIHigh: Num(c.CIHigh),
+		Relative: Num(c.Relative), RelativeCILow: Num(c.RelCILow), RelativeCIHigh: Num(c.RelCIHigh),
+		Statistic: Num(c.Statistic), DF: Num(c.DF), PValue: Num(c.PValue), PValueAdjusted: Num(c.PValue),
+		Reason: c.Reason, RelReason: c.RelReason}
+}
+
+func setAdjusted(v *VariantVal, e stats.Estimate) {
+	val, se := Num(e.Value), Num(e.StdError)
+	v.AdjustedValue, v.AdjustedStdError = &val, &se
+}
+
+// Families of comparisons for multiple testing.
+const (
+	FamilyPrimary   = "primary"   // the primary metric: adjusted only across treatment variants
+	FamilySecondary = "secondary" // secondary and mechanism metrics, all variants together
+	FamilyGuard     = "guard"     // guard metrics: not adjusted, judged by their verdicts
+)
+
+// adjustFamilies fills PValueAdjusted. The primary metric is tested at the
+// stated level (adjusted only when there are several treatment variants);
+// secondary and mechanism metrics form one family; guards are not adjusted,
+// since adjusting would make harm harder to see.
+func adjustFamilies(ms []MetricInfo, method string) {
+	fam := map[string][]*Compare{}
+	for i := range ms {
+		f := FamilySecondary
+		switch ms[i].Role {
+		case string(metrics.Primary):
+			f = FamilyPrimary
+		case string(metrics.Guard):
+			f = FamilyGuard
+		}
+		for j := range ms[i].Comparisons {
+			c := &ms[i].Comparisons[j]
+			c.Family = f
+			fam[f] = append(fam[f], c)
+		}
+	}
+	for f, cs := range fam {
+		if f == FamilyGuard {
+			continue
+		}
+		ps := make([]float64, len(cs))
+		for i, c := range cs {
+			ps[i] = float64(c.PValue)
+		}
+		for i, q := range adjust(method, ps) {
+			cs[i].PValueAdjusted = Num(q)
+		}
+	}
 }
 
 func kindName(m *metrics.Metric) string {

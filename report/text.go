@@ -92,6 +92,9 @@ func (r *Report) Text() string {
 			metricText(&b, m)
 		}
 	}
+	for _, seg := range r.Segments {
+		segmentText(&b, seg)
+	}
 	b.WriteString("\nCautions\n")
 	for _, c := range r.Cautions {
 		fmt.Fprintf(&b, "  - %s\n", c)
@@ -142,7 +145,7 @@ func metricText(b *strings.Builder, m MetricInfo) {
 	}
 	fmt.Fprintf(b, "  %s [%s, window %s to %s]\n", title, m.Kind, m.Window[0], m.Window[1])
 	tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprintln(tw, "    variant\tn\tvalue\tstd.err\tdifference\tinterval\trelative\tinterval\tp-value\t")
+	fmt.Fprintln(tw, "    variant\tn\tvalue\tstd.err\tdifference\tinterval\trelative\tinterval\tp-value\tadj. p\t")
 	cmp := map[string]Compare{}
 	for _, c := range m.Comparisons {
 		cmp[c.Variant] = c
@@ -155,12 +158,16 @@ func metricText(b *strings.Builder, m MetricInfo) {
 			notes = append(notes, fmt.Sprintf("%s: %s", v.Variant, v.Reason))
 		}
 		if i == 0 {
-			fmt.Fprintf(tw, "    %s\t%d\t%s\t%s\t\t\t\t\t\t\n", v.Variant, v.N, fmtNum(v.Value), fmtNum(v.StdError))
+			fmt.Fprintf(tw, "    %s\t%d\t%s\t%s\t\t\t\t\t\t\t\n", v.Variant, v.N, shownValue(v), shownSE(v))
 			continue
 		}
 		c := cmp[v.Variant]
-		fmt.Fprintf(tw, "    %s\t%d\t%s\t%s\t%s\t[%s, %s]\t%s\t[%s, %s]\t%s\t\n", v.Variant, v.N, fmtNum(v.Value), fmtNum(v.StdError),
-			signed(c.Difference), signed(c.CILow), signed(c.CIHigh), pct(float64(c.Relative)), pct(float64(c.RelativeCILow)), pct(float64(c.RelativeCIHigh)), fmtP(float64(c.PValue)))
+		adj := fmtP(float64(c.PValueAdjusted))
+		if c.Family == "guard" || (c.Family == "primary" && len(m.Comparisons) == 1) {
+			adj = "-"
+		}
+		fmt.Fprintf(tw, "    %s\t%d\t%s\t%s\t%s\t[%s, %s]\t%s\t[%s, %s]\t%s\t%s\t\n", v.Variant, v.N, shownValue(v), shownSE(v),
+			signed(c.Difference), signed(c.CILow), signed(c.CIHigh), pct(float64(c.Relative)), pct(float64(c.RelativeCILow)), pct(float64(c.RelativeCIHigh)), fmtP(float64(c.PValue)), adj)
 		if c.Reason != "" {
 			notes = append(notes, fmt.Sprintf("%s vs %s: %s", v.Variant, c.Baseline, c.Reason))
 		} else if c.RelReason != "" {
@@ -170,6 +177,17 @@ func metricText(b *strings.Builder, m MetricInfo) {
 	tw.Flush()
 	if len(m.Comparisons) > 0 {
 		fmt.Fprintf(b, "    method: %s\n", m.Comparisons[0].Method)
+	}
+	if m.Covariate != nil {
+		fmt.Fprintf(b, "    CUPED: values are adjusted for %s before the trigger (window %s to %s)\n", m.Covariate.Metric, m.Covariate.Window[0], m.Covariate.Window[1])
+		for _, c := range m.Comparisons {
+			if c.CUPED == nil {
+				continue
+			}
+			u := c.CUPED.Unadjusted
+			fmt.Fprintf(b, "      %s: theta %s, variance reduction %s; unadjusted difference %s [%s, %s], p = %s\n", c.Variant, fmtNum(c.CUPED.Theta),
+				strings.TrimPrefix(pct(float64(c.CUPED.VarianceReduction)), "+"), signed(u.Difference), signed(u.CILow), signed(u.CIHigh), fmtP(float64(u.PValue)))
+		}
 	}
 	for _, c := range m.Comparisons {
 		if c.Guard != nil {
@@ -188,6 +206,21 @@ func metricText(b *strings.Builder, m MetricInfo) {
 	for _, n := range notes {
 		fmt.Fprintf(b, "    note: %s\n", n)
 	}
+}
+
+// shownValue is the adjusted value when CUPED applies, else the plain one.
+func shownValue(v VariantVal) string {
+	if v.AdjustedValue != nil {
+		return fmtNum(*v.AdjustedValue) + "*"
+	}
+	return fmtNum(v.Value)
+}
+
+func shownSE(v VariantVal) string {
+	if v.AdjustedStdError != nil {
+		return fmtNum(*v.AdjustedStdError)
+	}
+	return fmtNum(v.StdError)
 }
 
 // Markdown renders the report for a pull request or a wiki page.
@@ -253,4 +286,42 @@ func (r *Report) Markdown() string {
 func mdEscape(s string) string {
 	r := strings.NewReplacer("|", `\|`, "\n", " ", "<", "&lt;", ">", "&gt;")
 	return r.Replace(s)
+}
+
+func segmentText(b *strings.Builder, seg Segment) {
+	fmt.Fprintf(b, "\nSegments by %s\n", seg.Name)
+	mix := seg.VariantMix
+	if mix.Reason != "" {
+		fmt.Fprintf(b, "  variant mix across values: not tested (%s)\n", mix.Reason)
+	} else {
+		verdict := "ok"
+		if mix.Alarm {
+			verdict = "IMBALANCED"
+		}
+		fmt.Fprintf(b, "  variant mix across values: chi-square %s, df %g, p = %s: %s\n", fmtNum(mix.Statistic), float64(mix.DF), fmtP(float64(mix.PValue)), verdict)
+	}
+	for _, sm := range seg.Metrics {
+		fmt.Fprintf(b, "  %s\n", sm.Metric)
+		tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', tabwriter.AlignRight)
+		fmt.Fprintln(tw, "    value\tvariant\tn\tdifference\tinterval\trelative\tp-value\tadj. p\t")
+		for _, row := range sm.Rows {
+			n := map[string]int64{}
+			for _, v := range row.Variants {
+				n[v.Variant] = v.N
+			}
+			for _, c := range row.Comparisons {
+				fmt.Fprintf(tw, "    %s\t%s\t%d/%d\t%s\t[%s, %s]\t%s\t%s\t%s\t\n", row.Value, c.Variant, n[c.Baseline], n[c.Variant],
+					signed(c.Difference), signed(c.CILow), signed(c.CIHigh), pct(float64(c.Relative)), fmtP(float64(c.PValue)), fmtP(float64(c.PValueAdjusted)))
+			}
+		}
+		tw.Flush()
+		for _, chk := range sm.Checks {
+			if chk.Reason == "" {
+				fmt.Fprintf(b, "    heterogeneity (%s): Cochran's Q %s, df %g, p = %s, I² %s\n", chk.Variant, fmtNum(chk.Q), float64(chk.DF), fmtP(float64(chk.PValue)), strings.TrimPrefix(pct(float64(chk.I2)), "+"))
+			}
+		}
+		for _, f := range sm.Flags {
+			fmt.Fprintf(b, "    !! %s\n", f)
+		}
+	}
 }

@@ -61,9 +61,9 @@ func Check(n Node, columns []string) Diagnostics {
 const maxListedColumns = 20
 
 func unknownColumn(c *Column, columns []string) Diagnostic {
-	d := Diagnostic{Code: CodeColumn, Msg: fmt.Sprintf("unknown column %s", quoteIdent(c.Name)), Span: c.Sp}
+	d := Diagnostic{Code: CodeColumn, Msg: "unknown column `" + c.Name + "`", Span: c.Sp}
 	if s := suggest(c.Name, columns); s != "" {
-		d.Msg += fmt.Sprintf("; did you mean %s?", quoteIdent(s))
+		d.Msg += "; did you mean `" + s + "`?"
 	}
 	switch {
 	case len(columns) == 0:
@@ -80,7 +80,7 @@ func unknownColumn(c *Column, columns []string) Diagnostic {
 func quoteAll(names []string) []string {
 	out := make([]string, len(names))
 	for i, n := range names {
-		out[i] = quoteIdent(n)
+		out[i] = "`" + n + "`"
 	}
 	return out
 }

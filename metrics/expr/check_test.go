@@ -25,13 +25,13 @@ func TestCheckColumns(t *testing.T) {
 	}{
 		{"amount - discount", nil, nil},
 		{"status = 'delivered' AND NOT is_test", nil, nil},
-		{"amout > 0", []string{CodeColumn}, []string{"unknown column \"amout\"; did you mean \"amount\"?"}},
-		{"Amount > 0", []string{CodeColumn}, []string{"unknown column \"Amount\"; did you mean \"amount\"?"}},
-		{"email LIKE '%x'", []string{CodeColumn}, []string{"unknown column \"email\"; did you mean \"Email\"?"}},
-		{"revenue > 0", []string{CodeColumn}, []string{"unknown column \"revenue\""}},
+		{"amout > 0", []string{CodeColumn}, []string{"unknown column `amout`; did you mean `amount`?"}},
+		{"Amount > 0", []string{CodeColumn}, []string{"unknown column `Amount`; did you mean `amount`?"}},
+		{"email LIKE '%x'", []string{CodeColumn}, []string{"unknown column `email`; did you mean `Email`?"}},
+		{"revenue > 0", []string{CodeColumn}, []string{"unknown column `revenue`"}},
 		{"stats = 'x' OR cuntry = 'y'", []string{CodeColumn, CodeColumn},
-			[]string{"unknown column \"stats\"; did you mean \"status\"?", "unknown column \"cuntry\"; did you mean \"country\"?"}},
-		{"x + x", []string{CodeColumn, CodeColumn}, []string{"unknown column \"x\"", "unknown column \"x\""}},
+			[]string{"unknown column `stats`; did you mean `status`?", "unknown column `cuntry`; did you mean `country`?"}},
+		{"x + x", []string{CodeColumn, CodeColumn}, []string{"unknown column `x`", "unknown column `x`"}},
 	}
 	for _, tc := range tests {
 		t.Run(tc.in, func(t *testing.T) {
@@ -43,7 +43,7 @@ func TestCheckColumns(t *testing.T) {
 				if d.Msg != tc.msgs[i] {
 					t.Errorf("message %d: got %v, want %v", i, d.Msg, tc.msgs[i])
 				}
-				want := `available columns: "amount", "discount", "status", "country", "created_at", "is_test", "Email"`
+				want := "available columns: `amount`, `discount`, `status`, `country`, `created_at`, `is_test`, `Email`"
 				if d.Hint != want {
 					t.Errorf("hint %d: got %v, want %v", i, d.Hint, want)
 				}
@@ -63,7 +63,7 @@ func TestCheckColumnHintLimits(t *testing.T) {
 		want    string
 	}{
 		{"none", nil, "the source has no columns"},
-		{"many", many, `available columns: "c", "cx", "cxx"`},
+		{"many", many, "available columns: `c`, `cx`, `cxx`"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -225,7 +225,7 @@ func TestColumnsAndWalk(t *testing.T) {
 		{"1 + 2", nil},
 		{"b + a * b", []string{"b", "a"}},
 		{"CASE x WHEN y THEN z ELSE w END", []string{"x", "y", "z", "w"}},
-		{"\"a b\" IN (c, d) AND e BETWEEN f AND g", []string{"a b", "c", "d", "e", "f", "g"}},
+		{`"a b" IN (c, d) AND e BETWEEN f AND g`, []string{"a b", "c", "d", "e", "f", "g"}},
 		{"coalesce(CAST(p AS DATE), q) IS NULL OR r LIKE s", []string{"p", "q", "r", "s"}},
 	}
 	for _, tc := range tests {

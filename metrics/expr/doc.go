@@ -9,7 +9,7 @@
 // filter), and reports the Diagnostics with the spec's file and key. Dialect
 // printers call Render with their Style to turn the tree into SQL for their
 // engine. The tree (Node and its types) is assay's own and does not depend
-// on the SQL parser, so printers never import it.
+// on the SQL parser, so printers need not import the parser.
 //
 // User text is never spliced into generated SQL: it is parsed into a tree
 // whose identifiers and strings are re-quoted by the Style, and whose

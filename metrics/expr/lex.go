@@ -1,6 +1,7 @@
 package expr
 
 import (
+	"fmt"
 	"strconv"
 	"strings"
 	"unicode"
@@ -78,7 +79,9 @@ func lex(src string) ([]token, string, Diagnostics) {
 	if len(lx.diags) > 0 {
 		return nil, "", lx.diags
 	}
-	lx.checkDepth()
+	if !lx.checkDepth() {
+		return nil, "", lx.diags
+	}
 	psrc := lx.casts()
 	return lx.toks, psrc, lx.diags
 }
@@ -512,21 +515,23 @@ func (lx *lexer) scanPunct(i int, r rune, size int) int {
 	return bad(CodeChar, size, "", msg)
 }
 
-// checkDepth bounds parenthesis nesting.
-func (lx *lexer) checkDepth() {
+// checkDepth bounds parenthesis nesting; it reports false if the bound is
+// exceeded.
+func (lx *lexer) checkDepth() bool {
 	depth := 0
 	for _, t := range lx.toks {
 		switch {
 		case t.isOp("("):
 			depth++
 			if depth > maxParens {
-				lx.report(CodeLimit, t.start, t.end, "", "parentheses are nested too deeply")
-				return
+				lx.report(CodeLimit, t.start, t.end, "", fmt.Sprintf("parentheses are nested more than %d deep", maxParens))
+				return false
 			}
 		case t.isOp(")"):
 			depth--
 		}
 	}
+	return true
 }
 
 // castTypes maps the accepted spellings of CAST targets (upper case, single

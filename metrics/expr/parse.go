@@ -69,6 +69,12 @@ func Parse(src string) (Node, Diagnostics) {
 	return n, nil
 }
 
+// parseOne is the SQL parser call; tests replace it to exercise the panic
+// guard in parseSQL.
+var parseOne = func(p *parser.Parser, sql string) (ast.StmtNode, error) {
+	return p.ParseOneStmt(sql, "", "")
+}
+
 // parseSQL runs the SQL parser on "SELECT "+src, turning errors and panics
 // into a diagnostic whose Span.Start is the byte offset in src.
 func parseSQL(src string) (stmt ast.StmtNode, diag *Diagnostic) {
@@ -81,7 +87,7 @@ func parseSQL(src string) (stmt ast.StmtNode, diag *Diagnostic) {
 				Span: Span{0, len(src)}}
 		}
 	}()
-	stmt, err := p.ParseOneStmt(full, "", "")
+	stmt, err := parseOne(p, full)
 	parsers.Put(p)
 	if err != nil {
 		off := errorOffset(err.Error(), full) - len(selectPrefix)
@@ -295,7 +301,8 @@ func (b *builder) expr(e ast.ExprNode) Node {
 	b.depth++
 	defer func() { b.depth-- }()
 	if b.depth > maxDepth {
-		b.errorf(CodeLimit, Span{start, len(b.src)}, "", "expression is nested too deeply")
+		b.errorf(CodeLimit, Span{start, len(b.src)}, "split the expression or simplify it",
+			"expression is too complex (nested more than %d levels)", maxDepth)
 		b.failed = true
 		return nil
 	}

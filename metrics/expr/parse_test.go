@@ -6,6 +6,9 @@ import (
 	"strings"
 	"sync"
 	"testing"
+
+	"github.com/pingcap/tidb/pkg/parser"
+	"github.com/pingcap/tidb/pkg/parser/ast"
 )
 
 // TestParseRejects lists hostile and unsupported inputs with the expected
@@ -442,6 +445,30 @@ func TestDiagnosticsErr(t *testing.T) {
 				t.Errorf("Err(): got %v, want %v", got, tc.want)
 			}
 		})
+	}
+}
+
+// TestParsePanicGuard checks that a panic inside the SQL parser becomes an
+// E-EXPR-INTERNAL diagnostic instead of crashing the caller.
+func TestParsePanicGuard(t *testing.T) {
+	saved := parseOne
+	defer func() { parseOne = saved }()
+	parseOne = func(*parser.Parser, string) (ast.StmtNode, error) { panic("boom") }
+	tests := []struct{ in string }{{"a + 1"}, {"x = 'y'"}}
+	for _, tc := range tests {
+		t.Run(tc.in, func(t *testing.T) {
+			n, ds := Parse(tc.in)
+			if n != nil || len(ds) != 1 || ds[0].Code != CodeInternal {
+				t.Fatalf("Parse(%q): got %v %v, want nil and one %v", tc.in, n, ds, CodeInternal)
+			}
+			if want := "SQL parser failed: boom"; ds[0].Msg != want {
+				t.Errorf("message: got %v, want %v", ds[0].Msg, want)
+			}
+		})
+	}
+	parseOne = saved
+	if _, ds := Parse("a + 1"); len(ds) != 0 {
+		t.Errorf("Parse after a panic: got %v, want no diagnostics", ds)
 	}
 }
 

@@ -81,6 +81,8 @@ var roundTrips = []struct{ in, want string }{
 	{`a <> b`, `"a" <> "b"`},
 	{`a <= b`, `"a" <= "b"`},
 	{`a >= b`, `"a" >= "b"`},
+	// Comparisons are left-associative in TiDB's grammar (parser.y, rule
+	// BoolPri); standard SQL has no chained comparisons, hence the parens.
 	{`a = b = c`, `("a" = "b") = "c"`},
 	{`a < b < c`, `("a" < "b") < "c"`},
 	{`a = (b = c)`, `"a" = ("b" = "c")`},
@@ -93,8 +95,12 @@ var roundTrips = []struct{ in, want string }{
 	{`x BETWEEN 1 AND 10`, `"x" BETWEEN 1 AND 10`},
 	{`x NOT BETWEEN a - 1 AND a + 1`, `"x" NOT BETWEEN "a" - 1 AND "a" + 1`},
 	{`x BETWEEN 1 AND 2 AND y`, `"x" BETWEEN 1 AND 2 AND "y"`},
+	// The upper bound of BETWEEN is a predicate in TiDB's grammar
+	// (parser.y, rule PredicateExpr), so this nests to the right.
 	{`x BETWEEN a AND b BETWEEN c AND d`, `"x" BETWEEN "a" AND ("b" BETWEEN "c" AND "d")`},
 	{`x IS NULL`, `"x" IS NULL`},
+	// IS UNKNOWN is IS NULL (TiDB parser.y, rule `BoolPri IsOrNotOp
+	// "UNKNOWN"`, after the MySQL manual's comparison operators page).
 	{`x IS UNKNOWN`, `"x" IS NULL`},
 	{`a = b IS NULL`, `("a" = "b") IS NULL`},
 	{`a IS NULL IS NULL`, `("a" IS NULL) IS NULL`},

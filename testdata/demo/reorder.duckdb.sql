@@ -1,4 +1,4 @@
--- assay 0.1.0 per-variant statistics query for experiment reorder-shelf-2026-03 (spec fingerprint a5ea9e7e60c78b66)
+-- assay 0.1.0 per-variant statistics query for experiment reorder-shelf-2026-03 (spec fingerprint 29a70e58dcc0a2ef)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
@@ -75,23 +75,27 @@ eligible AS (
     AND NOT c.is_unknown_variant
     AND NOT c."fails_recent_order"
 ),
--- One pass over orders for: m_orders_14d, m_basket_value__num, m_basket_value__den, m_converted, m_cancelled.
+-- One pass over orders for: m_orders_14d, m_orders_14d__x, m_basket_value__num, m_basket_value__den, m_basket_value__x, m_converted, m_cancelled.
 "pass_orders" AS (
   SELECT
     e.unit_id,
     -- m_orders_14d: count of rows where status = 'delivered' in [trigger + 0d, trigger + 14d)
     count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN 1 END) AS "m_orders_14d",
+    -- m_orders_14d__x: count of rows where status = 'delivered' in [trigger - 28d, trigger + 0d)
+    count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us - 2419200000000 AND epoch_us(s."ordered_at") < e.trigger_us + 0 AND (s."status" = 'delivered') THEN 1 END) AS "m_orders_14d__x",
     -- m_basket_value__num: sum of amount where status = 'delivered' in [trigger + 0d, trigger + 14d)
     sum(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN CAST(s."amount" AS DOUBLE) END) AS "m_basket_value__num",
     -- m_basket_value__den: count of rows where status = 'delivered' in [trigger + 0d, trigger + 14d)
     count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN 1 END) AS "m_basket_value__den",
+    -- m_basket_value__x: sum of amount where status = 'delivered' in [trigger - 28d, trigger + 0d)
+    sum(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us - 2419200000000 AND epoch_us(s."ordered_at") < e.trigger_us + 0 AND (s."status" = 'delivered') THEN CAST(s."amount" AS DOUBLE) END) AS "m_basket_value__x",
     -- m_converted: count of rows where status = 'delivered' in [trigger + 0d, trigger + 14d)
     count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN 1 END) AS "m_converted",
     -- m_cancelled: count of rows where status = 'cancelled' in [trigger + 0d, trigger + 14d)
     count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'cancelled') THEN 1 END) AS "m_cancelled"
   FROM eligible AS e
   JOIN read_parquet('data/orders.parquet') AS s ON s."customer_id" = e.unit_id
-  WHERE epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000
+  WHERE epoch_us(s."ordered_at") >= e.trigger_us - 2419200000000 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000
   GROUP BY e.unit_id
 ),
 -- One pass over taps for: m_shelf_taps.
@@ -126,8 +130,10 @@ unit_values AS (
     e."seg_tenure",
     (e.trigger_us + 1209600000000 <= 1776038400000000) AS mature_14d,
     coalesce(p1."m_orders_14d", 0) AS "m_orders_14d",
+    coalesce(p1."m_orders_14d__x", 0) AS "m_orders_14d__x",
     coalesce(p1."m_basket_value__num", 0) AS "m_basket_value__num",
     coalesce(p1."m_basket_value__den", 0) AS "m_basket_value__den",
+    coalesce(p1."m_basket_value__x", 0) AS "m_basket_value__x",
     coalesce(p1."m_converted", 0) AS "m_converted",
     coalesce(p1."m_cancelled", 0) AS "m_cancelled",
     coalesce(p2."m_shelf_taps", 0) AS "m_shelf_taps",
@@ -138,13 +144,17 @@ unit_values AS (
   LEFT JOIN "pass_support" AS p3 ON p3.unit_id = e.unit_id
 )
 SELECT
-  'a5ea9e7e60c78b66' AS spec_fingerprint,
+  '29a70e58dcc0a2ef' AS spec_fingerprint,
   u.variant AS variant,
   count(*) AS units,
   -- orders_14d (primary, mean): mean per unit of count of rows where status = 'delivered'; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "orders_14d__n",
   avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) AS "orders_14d__mean",
   var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) AS "orders_14d__var",
+  -- orders_14d covariate: count of rows where status = 'delivered' (definition of orders_14d) in [trigger - 28d, trigger + 0d), before the trigger
+  avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) AS "orders_14d__x_mean",
+  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) AS "orders_14d__x_var",
+  covar_samp(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END, CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) AS "orders_14d__yx_cov",
   -- shelf_taps (mechanism, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "shelf_taps__n",
   avg(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) AS "shelf_taps__mean",
@@ -156,6 +166,11 @@ SELECT
   var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) AS "basket_value__num_var",
   var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) AS "basket_value__den_var",
   covar_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END, CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) AS "basket_value__cov",
+  -- basket_value covariate: sum of amount where status = 'delivered' (definition of basket_value) in [trigger - 28d, trigger + 0d), before the trigger
+  avg(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) AS "basket_value__x_mean",
+  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) AS "basket_value__x_var",
+  covar_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END, CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) AS "basket_value__num_x_cov",
+  covar_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END, CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) AS "basket_value__den_x_cov",
   -- converted (secondary, proportion): share of units whose count of rows where status = 'delivered' is above 0; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "converted__n",
   avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_converted" > 0 THEN 1.0 ELSE 0.0 END END) AS "converted__mean",
@@ -173,7 +188,7 @@ GROUP BY u.variant
 ORDER BY u.variant
 ;
 
--- assay 0.1.0 health query for experiment reorder-shelf-2026-03 (spec fingerprint a5ea9e7e60c78b66)
+-- assay 0.1.0 health query for experiment reorder-shelf-2026-03 (spec fingerprint 29a70e58dcc0a2ef)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.

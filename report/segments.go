@@ -1,0 +1,188 @@
+package report
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+
+	"github.com/assay-dev/assay/compiler"
+	"github.com/assay-dev/assay/engine"
+	"github.com/assay-dev/assay/stats"
+)
+
+// Segment is the breakdown of every metric by one dimension.
+type Segment struct {
+	Name string `json:"name"`
+	// Values are the segment values (top K by eligible units, then
+	// "(other)" and "(null)"), ordered by units, largest first.
+	Values []SegmentValue `json:"values"`
+	// VariantMix tests independence of segment and variant among eligible
+	// units; a small p-value means the variants hold different mixes of
+	// the segment, which can make pooled and per-segment effects disagree.
+	VariantMix SampleRatio      `json:"variant_mix"`
+	Metrics    []SegmentMetrics `json:"metrics"`
+}
+
+// SegmentValue is one value of a segment with its eligible units per variant.
+type SegmentValue struct {
+	Value     string           `json:"value"`
+	Units     int64            `json:"units"`
+	ByVariant map[string]int64 `json:"by_variant"`
+}
+
+// SegmentMetrics is one metric broken down by a segment.
+type SegmentMetrics struct {
+	Metric string            `json:"metric"`
+	Rows   []SegmentRow      `json:"rows"`
+	Checks []SegmentCheck    `json:"checks"` // one per treatment variant
+	Flags  []string          `json:"flags"`  // plain sentences
+	byVal  map[string]string `json:"-"`
+}
+
+// SegmentRow is a metric's values and comparisons within one segment value.
+type SegmentRow struct {
+	Value       string       `json:"value"`
+	Variants    []VariantVal `json:"variants"`
+	Comparisons []Compare    `json:"comparisons"`
+}
+
+// SegmentCheck holds the heterogeneity and reversal checks of one
+// treatment variant's effect across a segment's values.
+type SegmentCheck struct {
+	Variant string `json:"variant"`
+	// Reversal is set when the pooled difference has one sign and the
+	// segments holding most units have the other.
+	Reversal      bool   `json:"reversal"`
+	OppositeShare Num    `json:"opposite_share"` // share of units in segments whose effect has the other sign
+	Q             Num    `json:"cochran_q"`
+	DF            Num    `json:"df"`
+	PValue        Num    `json:"p_value"`
+	I2            Num    `json:"i2"`
+	Reason        string `json:"reason,omitempty"`
+}
+
+// AddSegment analyses rows of the main query grouped by one segment (the
+// grouping key column key) and appends the breakdown to the report. The
+// comparisons of each metric across the segment's values and variants
+// form one multiple-testing family.
+func (r *Report) AddSegment(p *compiler.Plan, name, key string, rows []engine.Row, opt Options) {
+	opt = opt.withDefaults()
+	seg := Segment{Name: name}
+	groups := map[string]map[string]*engine.Row{}
+	units := map[string]int64{}
+	for i := range rows {
+		row := &rows[i]
+		v := row.Keys[key]
+		if groups[v] == nil {
+			groups[v] = map[string]*engine.Row{}
+		}
+		groups[v][row.Variant] = row
+		units[v] += row.Units
+	}
+	values := make([]string, 0, len(groups))
+	for v := range groups {
+		values = append(values, v)
+	}
+	sort.Slice(values, func(i, j int) bool {
+		if units[values[i]] != units[values[j]] {
+			return units[values[i]] > units[values[j]]
+		}
+		return values[i] < values[j]
+	})
+	var table [][]float64
+	for _, v := range values {
+		sv := SegmentValue{Value: v, Units: units[v], ByVariant: map[string]int64{}}
+		var rowCounts []float64
+		for _, vn := range p.Variants {
+			var n int64
+			if row := groups[v][vn]; row != nil {
+				n = row.Units
+			}
+			sv.ByVariant[vn] = n
+			rowCounts = append(rowCounts, float64(n))
+		}
+		table = append(table, rowCounts)
+		seg.Values = append(seg.Values, sv)
+	}
+	mix := stats.ChiSquareIndependence(table)
+	seg.VariantMix = SampleRatio{Statistic: Num(mix.Statistic), DF: Num(mix.DF), PValue: Num(mix.PValue), Alpha: opt.SRMAlpha, Reason: mix.Reason}
+	seg.VariantMix.Alarm = mix.Reason == "" && mix.PValue < opt.SRMAlpha
+
+	for mi, mp := range p.Metrics {
+		pooled := r.Metrics[mi]
+		sm := SegmentMetrics{Metric: mp.M.Name, Rows: []SegmentRow{}, Checks: []SegmentCheck{}, Flags: []string{}}
+		var fam []*Compare
+		for _, v := range values {
+			info := metricInfo(p, mp, groups[v], p.Spec.Confidence)
+			sm.Rows = append(sm.Rows, SegmentRow{Value: v, Variants: info.Variants, Comparisons: info.Comparisons})
+		}
+		for i := range sm.Rows {
+			for j := range sm.Rows[i].Comparisons {
+				c := &sm.Rows[i].Comparisons[j]
+				c.Family = "segment:" + name + ":" + mp.M.Name
+				fam = append(fam, c)
+			}
+		}
+		ps := make([]float64, len(fam))
+		for i, c := range fam {
+			ps[i] = float64(c.PValue)
+		}
+		for i, q := range adjust(opt.Adjust, ps) {
+			fam[i].PValueAdjusted = Num(q)
+		}
+		for ci, pc := range pooled.Comparisons {
+			chk := segmentCheck(pc, sm.Rows, ci, units)
+			sm.Checks = append(sm.Checks, chk)
+			if chk.Reversal {
+				sign := "positive"
+				if float64(pc.Difference) < 0 {
+					sign = "negative"
+				}
+				sm.Flags = append(sm.Flags, fmt.Sprintf("Possible reversal (Simpson's paradox): the pooled effect of %s on %s is %s, but it has the opposite sign in segments of %s holding %s of units; check the variant mix across segments before reading the pooled number.",
+					pc.Variant, mp.M.Name, sign, name, strings.TrimPrefix(pct(float64(chk.OppositeShare)), "+")))
+			}
+			if chk.Reason == "" && chk.PValue.OK() && float64(chk.PValue) < 0.05 {
+				sm.Flags = append(sm.Flags, fmt.Sprintf("The effect of %s on %s differs across %s segments (Cochran's Q p = %s, I² = %s); the pooled effect averages unlike effects.",
+					pc.Variant, mp.M.Name, name, fmtP(float64(chk.PValue)), strings.TrimPrefix(pct(float64(chk.I2)), "+")))
+			}
+		}
+		seg.Metrics = append(seg.Metrics, sm)
+	}
+	if seg.VariantMix.Alarm {
+		r.Alarms = append(r.Alarms, fmt.Sprintf("VARIANT MIX differs across %s segments (chi-square p = %s): the variants received different shares of each segment, so pooled effects can mislead.", name, fmtP(float64(seg.VariantMix.PValue))))
+	}
+	r.Segments = append(r.Segments, seg)
+}
+
+// segmentCheck computes Cochran's Q over the per-segment differences of
+// comparison ci, and whether segments holding most units disagree in sign
+// with the pooled difference pc.
+func segmentCheck(pc Compare, rows []SegmentRow, ci int, units map[string]int64) SegmentCheck {
+	chk := SegmentCheck{Variant: pc.Variant}
+	var effects, ses []float64
+	var total, opposite float64
+	pooled := float64(pc.Difference)
+	for _, row := range rows {
+		if ci >= len(row.Comparisons) {
+			continue
+		}
+		c := row.Comparisons[ci]
+		d, se := float64(c.Difference), float64(c.StdError)
+		effects = append(effects, d)
+		ses = append(ses, se)
+		n := float64(units[row.Value])
+		if math.IsNaN(d) {
+			continue
+		}
+		total += n
+		if pooled != 0 && d != 0 && math.Signbit(d) != math.Signbit(pooled) {
+			opposite += n
+		}
+	}
+	h := stats.CochranQ(effects, ses)
+	chk.Q, chk.DF, chk.PValue, chk.I2, chk.Reason = Num(h.Q), Num(h.DF), Num(h.PValue), Num(h.I2), h.Reason
+	chk.OppositeShare = Num(ratio(opposite, total))
+	chk.Reversal = total > 0 && opposite/total > 0.5 && !math.IsNaN(pooled) && pooled != 0
+	return chk
+}
