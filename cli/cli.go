@@ -28,6 +28,8 @@ Usage:
   assay check SPEC.toml              validate a spec; print every problem
   assay compile [flags] SPEC.toml    print the SQL for a spec
   assay run [flags] SPEC.toml        run the SQL on DuckDB and print the analysis
+  assay calibrate [flags] SPEC.toml  re-split units at random many times (A/A) and
+                                     report each metric's false-positive rate
   assay version                      print the version
 
 Run 'assay COMMAND --help' for a command's flags.
@@ -61,6 +63,8 @@ func Run(args []string, stdin io.Reader, stdout, stderr io.Writer) (code int) {
 		return cmdCompile(args[1:], stdout, stderr)
 	case "run":
 		return cmdRun(args[1:], stdout, stderr)
+	case "calibrate":
+		return cmdCalibrate(args[1:], stdout, stderr)
 	}
 	fmt.Fprintf(stderr, "assay: unknown command %q\n\n%s", args[0], usage)
 	return ExitInput

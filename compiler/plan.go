@@ -24,6 +24,12 @@ type Options struct {
 	// GroupBy adds grouping keys next to the variant: segment names from
 	// the spec, or KeyTriggerDay.
 	GroupBy []string
+	// Splits > 0 compiles a calibration query: every eligible unit is
+	// re-assigned at random to the declared variants (by a hash of its id,
+	// the split number and Salt, with the planned weights) Splits times, and
+	// the result is grouped by split and re-assigned variant.
+	Splits int
+	Salt   int64
 }
 
 // KeyTriggerDay groups results by the calendar day of each unit's trigger
@@ -46,6 +52,9 @@ type Plan struct {
 	Metrics     []*MetricPlan
 	MatureEnds  []int64 // distinct window ends, for maturity flags
 	HasCapQuant bool
+	Splits      int
+	Salt        int64
+	Weights     []float64
 }
 
 // GroupKey is an extra grouping column of the result.
@@ -100,6 +109,11 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 	}
 	for _, v := range s.Variants {
 		p.Variants = append(p.Variants, v.Name)
+		p.Weights = append(p.Weights, v.Weight)
+	}
+	p.Splits, p.Salt = opt.Splits, opt.Salt
+	if opt.Splits < 0 || opt.Splits > 10000 {
+		ds = append(ds, metrics.Diagnostic{Code: metrics.CodeValue, Summary: fmt.Sprintf("number of splits must be between 1 and 10000, got %d", opt.Splits), Subject: metrics.Range{File: s.File}})
 	}
 	p.Rules = s.Rules
 	seen := map[*metrics.Source]bool{}

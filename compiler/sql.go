@@ -12,6 +12,7 @@ import (
 
 // Result column names shared by the printer and the engine reader.
 const (
+	ColSplit       = "split"
 	ColVariant     = "variant"
 	ColUnits       = "units"
 	ColFingerprint = "spec_fingerprint"
@@ -598,7 +599,28 @@ func (pr *printer) main() (string, error) {
 		keyExpr[g.Name] = fmt.Sprintf("CASE WHEN %s IS NULL THEN %s WHEN %s.value_rank <= %d THEN %s.value ELSE %s END", col, pr.d.String("(null)"), alias, g.Segment.TopK, alias, pr.d.String("(other)"))
 	}
 
+	variantExpr := "u.variant"
 	keys := []string{"u.variant"}
+	if p.Splits > 0 {
+		rs, ok := pr.d.(dialects.Resplitter)
+		if !ok {
+			return "", fmt.Errorf("dialect %s cannot re-split units for calibration", pr.d.Name())
+		}
+		h := rs.Uniform("u.unit_id", "z.split", p.Salt)
+		var b strings.Builder
+		b.WriteString("CASE")
+		cum := 0.0
+		for i, v := range p.Variants {
+			cum += p.Weights[i]
+			if i == len(p.Variants)-1 {
+				fmt.Fprintf(&b, " ELSE %s END", pr.d.String(v))
+				break
+			}
+			fmt.Fprintf(&b, " WHEN %s < %s THEN %s", h, strconv.FormatFloat(cum, 'g', -1, 64), pr.d.String(v))
+		}
+		variantExpr = b.String()
+		keys = []string{"z.split", variantExpr}
+	}
 	for _, g := range p.GroupBy {
 		if g.Day {
 			keys = append(keys, "u.trigger_day")
@@ -608,7 +630,11 @@ func (pr *printer) main() (string, error) {
 	}
 	pr.line(0, "SELECT")
 	pr.line(1, "%s AS %s,", pr.d.String(p.Spec.Fingerprint), ColFingerprint)
-	pr.line(1, "u.variant AS %s,", ColVariant)
+	if p.Splits > 0 {
+		pr.line(1, "-- Calibration: each eligible unit is re-assigned at random in each of %d splits (salt %d), with the planned weights.", p.Splits, p.Salt)
+		pr.line(1, "z.split AS %s,", ColSplit)
+	}
+	pr.line(1, "%s AS %s,", variantExpr, ColVariant)
 	for _, g := range p.GroupBy {
 		if g.Day {
 			pr.line(1, "u.trigger_day AS %s,", KeyTriggerDay)
@@ -668,6 +694,9 @@ func (pr *printer) main() (string, error) {
 	pr.line(0, "FROM unit_values AS u")
 	if p.HasCapQuant {
 		pr.line(0, "CROSS JOIN caps AS k")
+	}
+	if p.Splits > 0 {
+		pr.line(0, "CROSS JOIN %s", pr.d.(dialects.Resplitter).Splits(p.Splits))
 	}
 	for i, g := range segKeys {
 		alias := fmt.Sprintf("k%d", i+1)

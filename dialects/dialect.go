@@ -54,6 +54,18 @@ type Dialect interface {
 	Expr(n expr.Node, col func(name string) string) string
 }
 
+// Resplitter is implemented by dialects that can re-split units at random
+// for calibration runs (assay calibrate).
+type Resplitter interface {
+	// Splits renders a relation with one integer column named split
+	// holding 0 … n-1: DuckDB `range(200) AS z(split)`.
+	Splits(n int) string
+	// Uniform renders a pseudo-random number in [0, 1) that depends only on
+	// the unit id, the split number and the salt: DuckDB
+	// `CAST(hash(CAST(u AS VARCHAR), s, 7) % 1000000 AS DOUBLE) / 1000000`.
+	Uniform(unit, split string, salt int64) string
+}
+
 var registry = map[string]Dialect{}
 
 // Register makes a dialect available by name; engine files call it from init.

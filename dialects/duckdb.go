@@ -84,6 +84,15 @@ func (DuckDB) Quantile(x string, q float64) string {
 	return "quantile_cont(" + x + ", " + strconv.FormatFloat(q, 'g', -1, 64) + ")"
 }
 
+// Splits implements Resplitter.
+func (DuckDB) Splits(n int) string { return fmt.Sprintf("range(%d) AS z(split)", n) }
+
+// Uniform implements Resplitter with DuckDB's 64-bit hash of the unit id
+// (as text, so integer and string ids behave alike), the split and the salt.
+func (DuckDB) Uniform(unit, split string, salt int64) string {
+	return fmt.Sprintf("CAST(hash(CAST(%s AS VARCHAR), %s, %d) %% 1000000 AS DOUBLE) / 1000000", unit, split, salt)
+}
+
 // Least implements Dialect.
 func (DuckDB) Least(a, b string) string { return "least(" + a + ", " + b + ")" }
 

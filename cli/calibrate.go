@@ -1,0 +1,107 @@
+package cli
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"os"
+	"os/signal"
+	"path/filepath"
+
+	"github.com/assay-dev/assay/compiler"
+	"github.com/assay-dev/assay/dialects"
+	"github.com/assay-dev/assay/engine"
+	"github.com/assay-dev/assay/report"
+)
+
+// cmdCalibrate re-splits the spec's eligible units at random many times and
+// reports each metric's false-positive rate: an A/A test on real data.
+func cmdCalibrate(args []string, stdout, stderr io.Writer) int {
+	fs := flagSet("calibrate", "calibrate [flags] SPEC.toml", stderr)
+	db := fs.String("db", "", "DuckDB database file, opened read-only (default: in-memory; file sources are read directly)")
+	splits := fs.Int("splits", 200, "number of random re-splits")
+	salt := fs.Int64("salt", 1, "salt of the re-split hash; change it for a fresh set of splits")
+	alpha := fs.Float64("alpha", 0.05, "significance level whose false-positive rate is checked")
+	start := fs.String("start", "", "override the analysis start (use a period before the experiment, RFC 3339)")
+	end := fs.String("end", "", "override the analysis end (RFC 3339)")
+	format := fs.String("format", "text", "output format: text or json")
+	path, code, ok := parse(fs, args)
+	if !ok {
+		return code
+	}
+	if *splits < 1 || *splits > 10000 {
+		fmt.Fprintln(stderr, "assay calibrate: --splits must be between 1 and 10000")
+		return ExitInput
+	}
+	if *alpha <= 0 || *alpha >= 1 {
+		fmt.Fprintln(stderr, "assay calibrate: --alpha must be between 0 and 1")
+		return ExitInput
+	}
+	if *format != "text" && *format != "json" {
+		fmt.Fprintln(stderr, "assay calibrate: --format must be text or json")
+		return ExitInput
+	}
+	spec, ok := load(path, stderr)
+	if !ok {
+		return ExitInput
+	}
+	for _, o := range []struct {
+		flag string
+		dst  *string
+	}{{"--start", start}, {"--end", end}} {
+		if *o.dst == "" {
+			continue
+		}
+		t, err := parseTime(*o.dst)
+		if err != nil {
+			fmt.Fprintf(stderr, "assay calibrate: %s: %v\n", o.flag, err)
+			return ExitInput
+		}
+		if o.flag == "--start" {
+			spec.Start = t
+		} else {
+			spec.End = t
+		}
+	}
+	if !spec.End.After(spec.Start) {
+		fmt.Fprintln(stderr, "assay calibrate: the analysis end must be after its start")
+		return ExitInput
+	}
+	plan, ds := compiler.Compile(spec, compiler.Options{Splits: *splits, Salt: *salt})
+	printDiags(stderr, ds, nil)
+	if ds.HasErrors() {
+		return ExitInput
+	}
+	d, _ := dialects.Lookup("duckdb")
+	q, err := compiler.Print(plan, d)
+	if err != nil {
+		fmt.Fprintf(stderr, "assay: %v\n", err)
+		return ExitInput
+	}
+	dir, _ := filepath.Abs(filepath.Dir(path))
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
+	defer stop()
+	conn, err := engine.OpenDuckDB(engine.DuckDBOptions{Path: *db, FileDir: dir})
+	if err != nil {
+		fmt.Fprintf(stderr, "assay: cannot open DuckDB: %v\n", err)
+		return ExitEngine
+	}
+	defer conn.Close()
+	rows, err := engine.QueryMain(ctx, conn, q.Main, []string{compiler.ColSplit})
+	if err != nil {
+		fmt.Fprintf(stderr, "assay: query failed: %v\n", engine.CleanError(err))
+		return ExitEngine
+	}
+	cal := report.Calibrate(plan, rows, *alpha)
+	if *format == "json" {
+		b, err := cal.JSON()
+		if err != nil {
+			fmt.Fprintf(stderr, "assay: %v\n", err)
+			return ExitEngine
+		}
+		stdout.Write(b)
+	} else {
+		fmt.Fprint(stdout, cal.Text())
+	}
+	return ExitOK
+}
