@@ -51,12 +51,15 @@ func (d DuckDB) File(path string) (string, error) {
 
 // Micros implements Dialect. epoch_us of a TIMESTAMP reads it as UTC and of
 // a TIMESTAMPTZ gives the instant, so the result never depends on the
-// session's TimeZone setting.
+// session's TimeZone setting. With another time zone, a naive TIMESTAMP is
+// read as wall-clock time there (timezone(tz, ts) gives the instant), while
+// a TIMESTAMPTZ already is an instant: timezone(tz, tstz) would turn it back
+// into wall-clock time, so the column's type picks the branch.
 func (d DuckDB) Micros(x, tz string) string {
 	if tz == "" || tz == "UTC" {
 		return "epoch_us(" + x + ")"
 	}
-	return "epoch_us(timezone(" + d.String(tz) + ", " + x + "))"
+	return "CASE WHEN typeof(" + x + ") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(" + x + ") ELSE epoch_us(timezone(" + d.String(tz) + ", " + x + ")) END"
 }
 
 // Day implements Dialect.

@@ -7,11 +7,11 @@ exposure_rows AS (
   SELECT
     x."user id" AS unit_id,
     CAST(x."arm ""v""" AS VARCHAR) AS variant,
-    epoch_us(timezone('Europe/Amsterdam', x."sent at")) AS ts_us,
+    CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END AS ts_us,
     coalesce(x."länd" = 'NL' OR x."länd" = 'BE', FALSE) AS qualifies
   FROM "mail"."""digest sends""" AS x
   WHERE x."user id" IS NOT NULL AND x."sent at" IS NOT NULL
-    AND epoch_us(timezone('Europe/Amsterdam', x."sent at")) >= 1772319600000000 AND epoch_us(timezone('Europe/Amsterdam', x."sent at")) < 1774994400000000
+    AND CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END >= 1772319600000000 AND CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END < 1774994400000000
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (
@@ -53,10 +53,10 @@ eligible AS (
   SELECT
     e.unit_id,
     -- m_opens_3d: count of rows where client <> 'proxy''s' in [trigger + 0d, trigger + 3d)
-    count(CASE WHEN epoch_us(timezone('Europe/Amsterdam', s."opened at")) >= e.trigger_us + 0 AND epoch_us(timezone('Europe/Amsterdam', s."opened at")) < e.trigger_us + 259200000000 AND (s."client" <> 'proxy''s') THEN 1 END) AS "m_opens_3d"
+    count(CASE WHEN CASE WHEN typeof(s."opened at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(s."opened at") ELSE epoch_us(timezone('Europe/Amsterdam', s."opened at")) END >= e.trigger_us + 0 AND CASE WHEN typeof(s."opened at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(s."opened at") ELSE epoch_us(timezone('Europe/Amsterdam', s."opened at")) END < e.trigger_us + 259200000000 AND (s."client" <> 'proxy''s') THEN 1 END) AS "m_opens_3d"
   FROM eligible AS e
   JOIN "mail"."opens" AS s ON s."user id" = e.unit_id
-  WHERE epoch_us(timezone('Europe/Amsterdam', s."opened at")) >= e.trigger_us + 0 AND epoch_us(timezone('Europe/Amsterdam', s."opened at")) < e.trigger_us + 259200000000
+  WHERE CASE WHEN typeof(s."opened at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(s."opened at") ELSE epoch_us(timezone('Europe/Amsterdam', s."opened at")) END >= e.trigger_us + 0 AND CASE WHEN typeof(s."opened at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(s."opened at") ELSE epoch_us(timezone('Europe/Amsterdam', s."opened at")) END < e.trigger_us + 259200000000
   GROUP BY e.unit_id
 ),
 -- One row per eligible unit; a unit without outcome rows counts as zero.
@@ -92,11 +92,11 @@ exposure_rows AS (
   SELECT
     x."user id" AS unit_id,
     CAST(x."arm ""v""" AS VARCHAR) AS variant,
-    epoch_us(timezone('Europe/Amsterdam', x."sent at")) AS ts_us,
+    CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END AS ts_us,
     coalesce(x."länd" = 'NL' OR x."länd" = 'BE', FALSE) AS qualifies
   FROM "mail"."""digest sends""" AS x
   WHERE x."user id" IS NOT NULL AND x."sent at" IS NOT NULL
-    AND epoch_us(timezone('Europe/Amsterdam', x."sent at")) >= 1772319600000000 AND epoch_us(timezone('Europe/Amsterdam', x."sent at")) < 1774994400000000
+    AND CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END >= 1772319600000000 AND CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END < 1774994400000000
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (
@@ -131,8 +131,8 @@ ignored_rows AS (
   SELECT
     count(CASE WHEN x."user id" IS NULL THEN 1 END) AS null_unit,
     count(CASE WHEN x."sent at" IS NULL THEN 1 END) AS null_time,
-    count(CASE WHEN epoch_us(timezone('Europe/Amsterdam', x."sent at")) < 1772319600000000 THEN 1 END) AS before_start,
-    count(CASE WHEN epoch_us(timezone('Europe/Amsterdam', x."sent at")) >= 1774994400000000 THEN 1 END) AS after_end
+    count(CASE WHEN CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END < 1772319600000000 THEN 1 END) AS before_start,
+    count(CASE WHEN CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END >= 1774994400000000 THEN 1 END) AS after_end
   FROM "mail"."""digest sends""" AS x
 )
 SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
