@@ -312,6 +312,18 @@ func Analyze(p *compiler.Plan, res *engine.Result, opt Options) (*Report, error)
 	return r, nil
 }
 
+func adjustName(m string) string {
+	switch m {
+	case "bh":
+		return "Benjamini–Hochberg"
+	case "bonferroni":
+		return "Bonferroni"
+	case "none":
+		return "no adjustment requested"
+	}
+	return "Holm"
+}
+
 func pastTense(harm string) string {
 	if harm == "decrease" {
 		return "decreased"
@@ -645,7 +657,7 @@ func cautions(p *compiler.Plan, r *Report) []string {
 	c = append(c,
 		fmt.Sprintf("Intervals are %g%% confidence intervals; an interval that includes zero (not significant) is not evidence of no effect: effects inside the interval remain plausible.", level*100),
 		"Results describe eligible units only: those whose first qualifying exposure fell in the analysis window, seen in one variant, and meeting every eligibility rule at their trigger. They do not describe the whole population.",
-		"Only the primary metric is tested at the stated level; secondary, mechanism and guard metrics and several treatment variants are separate comparisons, and some will look significant by chance.",
+		fmt.Sprintf("Only the primary metric is tested at the stated level; secondary and mechanism metrics, several treatment variants and segment results are many comparisons, so read their adjusted p-values (%s); guard metrics are judged by their verdicts, unadjusted.", adjustName(r.Adjustment)),
 		"Ratio, proportion and relative-lift intervals use large-sample normal approximations (delta method); they can be poor for small or very skewed samples.",
 	)
 	var immature int64
@@ -660,6 +672,12 @@ func cautions(p *compiler.Plan, r *Report) []string {
 	for _, e := range r.Health.Exclusions {
 		if e.Reason == "crossover" && e.Rate.OK() && float64(e.Rate) > 0.01 {
 			c = append(c, fmt.Sprintf("%s of triggered units were seen in more than one variant and were excluded; check the assignment code.", pct(float64(e.Rate))))
+		}
+	}
+	for _, m := range r.Metrics {
+		if m.Covariate != nil {
+			c = append(c, "CUPED-adjusted estimates (marked *) remove variance that pre-trigger behaviour predicts; they target the same effect as the unadjusted comparison shown beside them, and rely on the covariate being unaffected by the change (it is measured before each unit's trigger).")
+			break
 		}
 	}
 	c = append(c, "This report states evidence under these assumptions; whether to ship is a decision for the people who own the product.")

@@ -55,11 +55,13 @@ func signed(f Num) string {
 	return s
 }
 
+// roleOrder is the reading order: health checks (guards among them) before
+// any effect, then the primary metric, the mechanism, the secondaries.
 var roleOrder = []struct{ role, title string }{
+	{"guard", "Guard metrics (is anything harmed?)"},
 	{"primary", "Primary metric"},
 	{"mechanism", "Mechanism metrics (should move first, if the hypothesis holds)"},
 	{"secondary", "Secondary metrics"},
-	{"guard", "Guard metrics"},
 }
 
 // Text renders the report for a terminal.
