@@ -358,7 +358,7 @@ func (l *loader) load(raw map[string]any) {
 	root := l.table(nil, raw, topKeys...)
 	s := l.spec
 
-	exp := root.sub("experiment", true, "id", "hypothesis", "unit", "start", "end", "confidence", "time_zone")
+	exp := root.sub("experiment", true, "id", "hypothesis", "unit", "start", "end", "confidence", "time_zone", "monitoring", "planned_units")
 	if exp != nil {
 		l.experiment(exp)
 	} else {
@@ -518,6 +518,16 @@ func (l *loader) experiment(t *table) {
 	s.End, okE = l.timestamp(t, "end", true)
 	if okS && okE && !s.End.After(s.Start) {
 		t.l.errAt(t.p("end"), CodeTime, "", "analysis end %s is not after start %s", s.End.UTC().Format(time.RFC3339), s.Start.UTC().Format(time.RFC3339))
+	}
+	s.Monitoring = t.enum("monitoring", false, "fixed", "fixed", "sequential")
+	if n, ok := t.num("planned_units"); ok {
+		if n < 2 || n != math.Trunc(n) {
+			t.l.errAt(t.p("planned_units"), CodeValue, "the number of units you expect at the planned end, e.g. 20000", "planned_units must be a whole number of at least 2")
+		} else if s.Monitoring != "sequential" {
+			t.l.errAt(t.p("planned_units"), CodeValue, "set monitoring = \"sequential\" to tune the always-valid intervals", "planned_units only applies to monitoring = \"sequential\"")
+		} else {
+			s.PlannedUnits = n
+		}
 	}
 	s.Confidence = 0.95
 	if c, ok := t.num("confidence"); ok {

@@ -17,7 +17,11 @@ type Spec struct {
 	Unit       string // name of the randomisation unit, for reports
 	Start, End time.Time
 	Confidence float64
-	TimeZone   *time.Location
+	// Monitoring is "fixed" (read once, at the planned end) or "sequential"
+	// (always-valid intervals that allow looking at any time).
+	Monitoring   string
+	PlannedUnits float64 // sequential: units the boundary is tuned for; 0 means the units analysed
+	TimeZone     *time.Location
 	TZName     string
 
 	Variants []Variant // the first is the baseline

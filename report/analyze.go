@@ -210,6 +210,17 @@ type Compare struct {
 	RelReason      string     `json:"relative_reason,omitempty"`
 	Guard          *Guard     `json:"guard,omitempty"`
 	CUPED          *CUPEDInfo `json:"cuped,omitempty"`
+	// Sequential is the always-valid interval and p-value (monitoring =
+	// "sequential"), valid whenever the data are looked at.
+	Sequential *SeqInfo `json:"sequential,omitempty"`
+}
+
+// SeqInfo is a peeking-safe comparison.
+type SeqInfo struct {
+	CILow  Num    `json:"ci_low"`
+	CIHigh Num    `json:"ci_high"`
+	PValue Num    `json:"p_value"`
+	Reason string `json:"reason,omitempty"`
 }
 
 // Guard is a guard metric's verdict for one comparison.
@@ -578,6 +589,15 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 			setAdjusted(&mi.Variants[0], cc.Base.Estimate)
 			setAdjusted(&mi.Variants[i], cc.Treat.Estimate)
 		}
+		if p.Spec.Monitoring == "sequential" {
+			n := nOf(base) + nOf(row)
+			target := p.Spec.PlannedUnits
+			if target == 0 {
+				target = n
+			}
+			sq := stats.SequentialDiff(c.Difference, c.StdError, n, stats.SequentialRho(1-level, target), 1-level)
+			cmp.Sequential = &SeqInfo{CILow: Num(sq.CILow), CIHigh: Num(sq.CIHigh), PValue: Num(sq.PValue), Reason: sq.Reason}
+		}
 		if m.Role == metrics.Guard {
 			g := stats.GuardComparison(c, m.Harmful, m.Margin, level)
 			cmp.Guard = &Guard{Verdict: g.Verdict, PValue: Num(g.PValue), Bound: Num(g.Bound), Reason: g.Reason}
@@ -660,6 +680,11 @@ func cautions(p *compiler.Plan, r *Report) []string {
 		fmt.Sprintf("Only the primary metric is tested at the stated level; secondary and mechanism metrics, several treatment variants and segment results are many comparisons, so read their adjusted p-values (%s); guard metrics are judged by their verdicts, unadjusted.", adjustName(r.Adjustment)),
 		"Ratio, proportion and relative-lift intervals use large-sample normal approximations (delta method); they can be poor for small or very skewed samples.",
 	)
+	if p.Spec.Monitoring == "sequential" {
+		c = append(c, "Monitoring is sequential: the always-valid intervals and p-values (\"sequential\") stay valid however often you look and whenever you stop; the fixed-horizon ones beside them are valid only if read once at a duration fixed in advance.")
+	} else if p.AsOfUS < p.Spec.End.UnixMicro() {
+		c = append(c, "This is an interim look (as-of before the planned end) at a fixed-horizon design: stopping early because a p-value crossed the threshold inflates false positives; wait for the planned end or declare monitoring = \"sequential\".")
+	}
 	var immature int64
 	for _, m := range r.Metrics {
 		for _, v := range m.Variants {

@@ -192,6 +192,15 @@ func metricText(b *strings.Builder, m MetricInfo) {
 		}
 	}
 	for _, c := range m.Comparisons {
+		if sq := c.Sequential; sq != nil {
+			if sq.Reason != "" {
+				fmt.Fprintf(b, "    always-valid (sequential) %s: undefined (%s)\n", c.Variant, sq.Reason)
+			} else {
+				fmt.Fprintf(b, "    always-valid (sequential) %s: difference interval [%s, %s], p = %s\n", c.Variant, signed(sq.CILow), signed(sq.CIHigh), fmtP(float64(sq.PValue)))
+			}
+		}
+	}
+	for _, c := range m.Comparisons {
 		if c.Guard != nil {
 			line := fmt.Sprintf("    guard (%s harmful, margin %s): %s: %s", m.Harmful, strings.TrimPrefix(pct(*m.Margin), "+"), c.Variant, c.Guard.Verdict)
 			if c.Guard.Reason != "" {
