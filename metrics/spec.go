@@ -22,7 +22,7 @@ type Spec struct {
 	Monitoring   string
 	PlannedUnits float64 // sequential: units the boundary is tuned for; 0 means the units analysed
 	TimeZone     *time.Location
-	TZName     string
+	TZName       string
 
 	Variants []Variant // the first is the baseline
 
