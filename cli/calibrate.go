@@ -11,6 +11,7 @@ import (
 	"github.com/assay-dev/assay/compiler"
 	"github.com/assay-dev/assay/dialects"
 	"github.com/assay-dev/assay/engine"
+	"github.com/assay-dev/assay/metrics"
 	"github.com/assay-dev/assay/report"
 )
 
@@ -67,6 +68,7 @@ func cmdCalibrate(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "assay calibrate: the analysis end must be after its start")
 		return ExitInput
 	}
+	absoluteFiles(spec, path)
 	plan, ds := compiler.Compile(spec, compiler.Options{Splits: *splits, Salt: *salt})
 	printDiags(stderr, ds, nil)
 	if ds.HasErrors() {
@@ -104,4 +106,20 @@ func cmdCalibrate(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprint(stdout, cal.Text())
 	}
 	return ExitOK
+}
+
+// absoluteFiles resolves relative file sources against the spec's
+// directory before the SQL is printed for execution, so a run does not
+// depend on the working directory (nor on DuckDB's file_search_path, which
+// splits on commas). `assay compile` keeps the paths as written.
+func absoluteFiles(spec *metrics.Spec, specPath string) {
+	dir, err := filepath.Abs(filepath.Dir(specPath))
+	if err != nil {
+		return
+	}
+	for _, src := range spec.Sources {
+		if src.File != "" && !filepath.IsAbs(src.File) {
+			src.File = filepath.Join(dir, src.File)
+		}
+	}
 }

@@ -585,7 +585,13 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 			unadj := cmp
 			c = cc.Comparison
 			cmp = compareOf(c, v, p.Variants[0])
-			cmp.CUPED = &CUPEDInfo{Theta: Num(cc.Theta), CovariateMean: Num(cc.MeanX), VarianceReduction: Num(cc.VarianceReduction), Unadjusted: unadj}
+			// The reduction is measured against the unadjusted comparison the
+			// report shows (for proportions, the p(1−p)/n standard error).
+			vr := math.NaN()
+			if u := float64(unadj.StdError); u > 0 && !math.IsInf(u, 0) && c.StdError >= 0 {
+				vr = 1 - (c.StdError/u)*(c.StdError/u)
+			}
+			cmp.CUPED = &CUPEDInfo{Theta: Num(cc.Theta), CovariateMean: Num(cc.MeanX), VarianceReduction: Num(vr), Unadjusted: unadj}
 			setAdjusted(&mi.Variants[0], cc.Base.Estimate)
 			setAdjusted(&mi.Variants[i], cc.Treat.Estimate)
 		}

@@ -99,7 +99,7 @@ func Calibrate(p *compiler.Plan, rows []engine.Row, alpha float64) *Calibration 
 	}
 	c.Cautions = []string{
 		"Each split re-assigns the same units at random, so the splits are not independent experiments; the expected range assumes independence and is a guide, not a test of its own.",
-		"Too many false positives point at a metric whose variance is underestimated (e.g. units that are not independent, heavy tails without a cap); too few point at an overly conservative test.",
+		"Too many false positives point at a test that is anti-conservative on this data (typically heavy tails or a few extreme units: consider a cap); too few point at an overly conservative test. Re-splitting assigns units independently, so it cannot reveal dependence between units (e.g. members of one household randomised separately).",
 		"A good calibration on past data does not guarantee the same behaviour in a future experiment.",
 	}
 	return c
