@@ -53,6 +53,8 @@ func goldenCases(t *testing.T) []goldenCase {
 }
 
 // compileText returns what `assay compile` prints for spec in dialect d.
+// Specs with file sources compile only for dialects that read files (DuckDB);
+// for the others the test is skipped and no golden file may exist.
 func compileText(t *testing.T, spec string, d dialects.Dialect) string {
 	t.Helper()
 	s, _, ds := metrics.LoadFile(spec)
@@ -65,9 +67,21 @@ func compileText(t *testing.T, spec string, d dialects.Dialect) string {
 	}
 	q, err := compiler.Print(p, d)
 	if err != nil {
+		if usesFiles(s) && d.Name() != "duckdb" {
+			t.Skipf("%s reads files, which the %s dialect cannot: %v", spec, d.Name(), err)
+		}
 		t.Fatal(err)
 	}
 	return q.Main + ";\n\n" + q.Health + ";\n"
+}
+
+func usesFiles(s *metrics.Spec) bool {
+	for _, src := range s.Sources {
+		if src.File != "" {
+			return true
+		}
+	}
+	return false
 }
 
 func TestGolden(t *testing.T) {
@@ -75,8 +89,15 @@ func TestGolden(t *testing.T) {
 		for _, name := range dialects.Names() {
 			d, _ := dialects.Lookup(name)
 			t.Run(tc.name+"/"+name, func(t *testing.T) {
-				got := compileText(t, tc.spec, d)
 				path := tc.want(name)
+				t.Cleanup(func() {
+					if t.Skipped() {
+						if _, err := os.Stat(path); err == nil {
+							t.Errorf("%s exists, but the spec cannot be compiled for %s: delete it", path, name)
+						}
+					}
+				})
+				got := compileText(t, tc.spec, d)
 				if *update {
 					if err := os.WriteFile(path, []byte(got), 0o644); err != nil {
 						t.Fatal(err)
