@@ -8,6 +8,7 @@ import (
 
 	"github.com/assay-dev/assay/dialects"
 	"github.com/assay-dev/assay/metrics"
+	"github.com/assay-dev/assay/metrics/expr"
 )
 
 // Result column names shared by the printer and the engine reader.
@@ -28,6 +29,9 @@ const (
 	StatNumVar  = "num_var"
 	StatDenVar  = "den_var"
 	StatCov     = "cov"
+	// StatNonFinite counts outcome rows left out because their value was
+	// NaN or infinite.
+	StatNonFinite = "nonfinite_rows"
 	// CUPED covariate statistics.
 	StatXMean   = "x_mean"
 	StatXVar    = "x_var"
@@ -144,7 +148,7 @@ func (pr *printer) cohort() {
 	segs := p.Segments
 
 	pr.line(0, "WITH")
-	pr.line(0, "-- Exposure rows of %s inside the analysis window; rows without a unit or time are ignored.", src.Name)
+	pr.line(0, "-- Exposure rows of %s inside the analysis window; rows without a unit or time are ignored.", oneLine(src.Name))
 	pr.line(0, "exposure_rows AS (")
 	pr.line(1, "SELECT")
 	pr.line(2, "x.%s AS unit_id,", pr.id(src.Unit))
@@ -305,9 +309,9 @@ func (pr *printer) attribute(src *metrics.Source) {
 		cols = append(cols, "a."+pr.id(seg.Column)+" AS "+pr.id("seg_"+seg.Name))
 	}
 	if src.Static {
-		pr.line(0, "-- Attributes from %s (declared static: values do not change over time).", src.Name)
+		pr.line(0, "-- Attributes from %s (declared static: values do not change over time).", oneLine(src.Name))
 	} else {
-		pr.line(0, "-- Attributes from %s as of each trigger: the latest row at or before it.", src.Name)
+		pr.line(0, "-- Attributes from %s as of each trigger: the latest row at or before it.", oneLine(src.Name))
 	}
 	pr.line(0, "%s AS (", pr.id("attr_"+src.Name))
 	var segNames []string
@@ -339,6 +343,13 @@ func orderAll(pr *printer, src *metrics.Source, alias string) string {
 	return strings.Join(parts, ", ")
 }
 
+func listSuffix(cols []string) string {
+	if len(cols) == 0 {
+		return ""
+	}
+	return strings.Join(cols, ", ") + ", "
+}
+
 func listPrefix(cols []string) string {
 	if len(cols) == 0 {
 		return ""
@@ -359,7 +370,7 @@ func (pr *printer) rule(i int, r *metrics.Rule) {
 		if r.Absent {
 			verb = "has no"
 		}
-		pr.line(0, "-- Rule %s: eligible when the unit %s row in %s in [trigger %s, trigger %s)%s.", oneLine(r.Name), verb, src.Name, signed(r.From), signed(r.To), whereNote(r.Filter))
+		pr.line(0, "-- Rule %s: eligible when the unit %s row in %s in [trigger %s, trigger %s)%s.", oneLine(r.Name), verb, oneLine(src.Name), signed(r.From), signed(r.To), whereNote(r.Filter))
 		pr.line(0, "rule_%d AS (", i+1)
 		pr.line(1, "SELECT DISTINCT t.unit_id")
 		pr.line(1, "FROM triggers AS t")
@@ -368,7 +379,7 @@ func (pr *printer) rule(i int, r *metrics.Rule) {
 		pr.line(2, "AND %s < %s", pr.time(src, "s"), plusUS("t.trigger_us", r.To.Micros))
 		pr.line(2, "AND coalesce(%s, FALSE)", filter)
 	case metrics.RuleAttribute:
-		pr.line(0, "-- Rule %s: eligible when the unit's attributes in %s at the trigger satisfy: %s.", oneLine(r.Name), src.Name, oneLine(r.Filter.Text))
+		pr.line(0, "-- Rule %s: eligible when the unit's attributes in %s at the trigger satisfy: %s.", oneLine(r.Name), oneLine(src.Name), oneLine(r.Filter.Text))
 		pr.line(0, "rule_%d AS (", i+1)
 		pr.line(1, "SELECT DISTINCT t.unit_id")
 		pr.line(1, "FROM triggers AS t")
@@ -378,7 +389,11 @@ func (pr *printer) rule(i int, r *metrics.Rule) {
 		} else {
 			// The latest attribute row at or before the trigger must pass.
 			pr.line(1, "JOIN (")
-			pr.line(2, "SELECT a.*, row_number() OVER (PARTITION BY a.%s ORDER BY %s DESC, %s) AS assay_rn, t2.unit_id AS assay_unit", pr.id(src.Unit), pr.time(src, "a"), orderAll(pr, src, "a"))
+			var need []string
+			for _, c := range expr.Columns(r.Filter.Node) {
+				need = append(need, "a."+pr.id(c))
+			}
+			pr.line(2, "SELECT %srow_number() OVER (PARTITION BY t2.unit_id ORDER BY %s DESC, %s) AS assay_rn, t2.unit_id AS assay_unit", listSuffix(need), pr.time(src, "a"), orderAll(pr, src, "a"))
 			pr.line(2, "FROM triggers AS t2")
 			pr.line(2, "JOIN %s AS a ON a.%s = t2.unit_id", pr.from(src), pr.id(src.Unit))
 			pr.line(2, "WHERE %s <= t2.trigger_us", pr.time(src, "a"))
@@ -427,7 +442,10 @@ func (pr *printer) aggExpr(a *AggPlan, src *metrics.Source) string {
 	}
 	switch a.Agg.Func {
 	case metrics.AggSum:
-		return fmt.Sprintf("sum(CASE WHEN %s THEN %s END)", cond, pr.d.Double(pr.expr(a.Agg.Value, "s")))
+		// NaN and ±Inf would poison every mean and variance: x - x = 0 holds
+		// only for finite x (and is NULL for NULL), on every engine.
+		v := pr.d.Double(pr.expr(a.Agg.Value, "s"))
+		return fmt.Sprintf("sum(CASE WHEN %s AND %s - %s = 0 THEN %s END)", cond, v, v, v)
 	case metrics.AggCountDistinct:
 		return fmt.Sprintf("count(DISTINCT CASE WHEN %s THEN %s END)", cond, pr.expr(a.Agg.Value, "s"))
 	default:
@@ -436,6 +454,20 @@ func (pr *printer) aggExpr(a *AggPlan, src *metrics.Source) string {
 }
 
 func paren(s string) string { return "(" + s + ")" }
+
+// countsNonFinite reports whether rows of a are counted when their value
+// is NaN or infinite (and therefore left out of the sum).
+func countsNonFinite(a *AggPlan) bool { return a.Agg.Func == metrics.AggSum && a.Part != "x" }
+
+func (pr *printer) nonFiniteExpr(a *AggPlan, src *metrics.Source) string {
+	t := pr.time(src, "s")
+	cond := fmt.Sprintf("%s >= %s AND %s < %s", t, plusUS("e.trigger_us", a.From.Micros), t, plusUS("e.trigger_us", a.To.Micros))
+	if a.Agg.Filter != nil {
+		cond += " AND " + paren(pr.expr(a.Agg.Filter, "s"))
+	}
+	v := pr.d.Double(pr.expr(a.Agg.Value, "s"))
+	return fmt.Sprintf("count(CASE WHEN %s AND NOT (%s - %s = 0) THEN 1 END)", cond, v, v)
+}
 
 func aggRule(a *AggPlan) string {
 	var what string
@@ -462,13 +494,16 @@ func (pr *printer) passes() {
 		for _, a := range sp.Aggs {
 			names = append(names, a.Col)
 		}
-		pr.line(0, "-- One pass over %s for: %s.", src.Name, strings.Join(names, ", "))
+		pr.line(0, "-- One pass over %s for: %s.", oneLine(src.Name), oneLine(strings.Join(names, ", ")))
 		pr.line(0, "%s AS (", pr.id("pass_"+src.Name))
 		pr.line(1, "SELECT")
 		pr.line(2, "e.unit_id,")
 		for i, a := range sp.Aggs {
-			pr.line(2, "-- %s: %s in [trigger %s, trigger %s)", a.Col, aggRule(a), signed(a.From), signed(a.To))
-			pr.line(2, "%s AS %s%s", pr.aggExpr(a, src), pr.id(a.Col), commaIf(i < len(sp.Aggs)-1))
+			pr.line(2, "-- %s: %s in [trigger %s, trigger %s)", oneLine(a.Col), aggRule(a), signed(a.From), signed(a.To))
+			pr.line(2, "%s AS %s%s", pr.aggExpr(a, src), pr.id(a.Col), commaIf(i < len(sp.Aggs)-1 || countsNonFinite(a)))
+			if countsNonFinite(a) {
+				pr.line(2, "%s AS %s%s", pr.nonFiniteExpr(a, src), pr.id(a.Col+"__nonfinite"), commaIf(i < len(sp.Aggs)-1))
+			}
 		}
 		pr.line(1, "FROM eligible AS e")
 		pr.line(1, "JOIN %s AS s ON s.%s = e.unit_id", pr.from(src), pr.id(src.Unit))
@@ -499,6 +534,9 @@ func (pr *printer) units(more bool) {
 	for i, sp := range p.Sources {
 		for _, a := range sp.Aggs {
 			cols = append(cols, fmt.Sprintf("coalesce(p%d.%s, 0) AS %s", i+1, pr.id(a.Col), pr.id(a.Col)))
+			if countsNonFinite(a) {
+				cols = append(cols, fmt.Sprintf("coalesce(p%d.%s, 0) AS %s", i+1, pr.id(a.Col+"__nonfinite"), pr.id(a.Col+"__nonfinite")))
+			}
 		}
 	}
 	for i, c := range cols {
@@ -582,7 +620,7 @@ func (pr *printer) main() (string, error) {
 		pr.line(0, ")%s", commaIf(len(segKeys) > 0))
 	}
 	keyExpr := map[string]string{}
-	for i, g := range segKeys {
+	for _, g := range segKeys {
 		col := "u." + pr.id(g.Name)
 		txt := pr.d.Text(col)
 		pr.line(0, "-- Segment %s: the %d values with the most eligible units; the rest are grouped as '(other)'.", oneLine(g.Segment.Name), g.Segment.TopK)
@@ -594,9 +632,29 @@ func (pr *printer) main() (string, error) {
 		pr.line(2, "WHERE %s IS NOT NULL", col)
 		pr.line(2, "GROUP BY %s", txt)
 		pr.line(1, ") AS g")
-		pr.line(0, ")%s", commaIf(i < len(segKeys)-1))
-		alias := fmt.Sprintf("k%d", i+1)
-		keyExpr[g.Name] = fmt.Sprintf("CASE WHEN %s IS NULL THEN %s WHEN %s.value_rank <= %d THEN %s.value ELSE %s END", col, pr.d.String("(null)"), alias, g.Segment.TopK, alias, pr.d.String("(other)"))
+		pr.line(0, "),")
+		keyExpr[g.Name] = "u." + pr.id("key_"+g.Name)
+	}
+	from := "unit_values"
+	if len(segKeys) > 0 {
+		// The grouping keys are plain columns of their own CTE, so engines
+		// that insist on grouping by selected columns accept the query.
+		from = "keyed_units"
+		pr.line(0, "-- Each unit's segment keys: one of the top values, '(other)' for the rest, '(null)' when missing.")
+		pr.line(0, "keyed_units AS (")
+		pr.line(1, "SELECT")
+		pr.line(2, "u.*,")
+		for i, g := range segKeys {
+			col := "u." + pr.id(g.Name)
+			alias := fmt.Sprintf("k%d", i+1)
+			pr.line(2, "CASE WHEN %s IS NULL THEN %s WHEN %s.value_rank <= %d THEN %s.value ELSE %s END AS %s%s", col, pr.d.String("(null)"), alias, g.Segment.TopK, alias, pr.d.String("(other)"), pr.id("key_"+g.Name), commaIf(i < len(segKeys)-1))
+		}
+		pr.line(1, "FROM unit_values AS u")
+		for i, g := range segKeys {
+			alias := fmt.Sprintf("k%d", i+1)
+			pr.line(1, "LEFT JOIN %s AS %s ON %s.value = %s", pr.id("top_"+g.Segment.Name), alias, alias, pr.d.Text("u."+pr.id(g.Name)))
+		}
+		pr.line(0, ")")
 	}
 
 	variantExpr := "u.variant"
@@ -672,6 +730,15 @@ func (pr *printer) main() (string, error) {
 		default:
 			y = pr.value(mp, mp.Value)
 		}
+		var bad []string
+		for _, a := range []*AggPlan{mp.Value, mp.Num, mp.Den} {
+			if a != nil && countsNonFinite(a) {
+				bad = append(bad, "u."+pr.id(a.Col+"__nonfinite"))
+			}
+		}
+		if len(bad) > 0 {
+			col("sum("+strings.Join(bad, " + ")+")", StatNonFinite)
+		}
 		if y != "" {
 			col("avg("+y+")", StatMean)
 			col(pr.d.VarSamp(y), StatVar)
@@ -691,16 +758,12 @@ func (pr *printer) main() (string, error) {
 			pr.line(1, "%s%s", c, commaIf(j < len(cols)-1 || i < len(p.Metrics)-1))
 		}
 	}
-	pr.line(0, "FROM unit_values AS u")
+	pr.line(0, "FROM %s AS u", from)
 	if p.HasCapQuant {
 		pr.line(0, "CROSS JOIN caps AS k")
 	}
 	if p.Splits > 0 {
 		pr.line(0, "CROSS JOIN %s", pr.d.(dialects.Resplitter).Splits(p.Splits))
-	}
-	for i, g := range segKeys {
-		alias := fmt.Sprintf("k%d", i+1)
-		pr.line(0, "LEFT JOIN %s AS %s ON %s.value = %s", pr.id("top_"+g.Segment.Name), alias, alias, pr.d.Text("u."+pr.id(g.Name)))
 	}
 	pr.line(0, "GROUP BY %s", strings.Join(keys, ", "))
 	pr.line(0, "ORDER BY %s", strings.Join(keys, ", "))

@@ -68,6 +68,9 @@ const (
 	// CodeCap: an invalid winsorising cap.
 	//   cap_quantile = 1.5
 	CodeCap = "cap"
+	// CodeUndefinedMetric: a reference to a metric that is not declared.
+	//   covariate = { metric = "ordrs_14d", window = ["-28d", "0d"] }
+	CodeUndefinedMetric = "undefined-metric"
 	// CodeEncoding: the file is not valid UTF-8 text.
 	CodeEncoding = "encoding"
 )

@@ -1027,9 +1027,9 @@ func (l *loader) covariates(mt *table) {
 			case !found:
 				hint := "metrics: " + strings.Join(names, ", ")
 				if sg := suggest(name, names); sg != "" {
-					l.errAt(t.p("metric"), CodeUndefined, hint, "covariate metric `%s` is not declared; did you mean `%s`?", name, sg)
+					l.errAt(t.p("metric"), CodeUndefinedMetric, hint, "covariate metric `%s` is not declared; did you mean `%s`?", name, sg)
 				} else {
-					l.errAt(t.p("metric"), CodeUndefined, hint, "covariate metric `%s` is not declared", name)
+					l.errAt(t.p("metric"), CodeUndefinedMetric, hint, "covariate metric `%s` is not declared", name)
 				}
 				continue
 			case of.Kind == KindRatio && of != m:

@@ -1,6 +1,7 @@
 package metrics
 
 import (
+	"strconv"
 	"strings"
 )
 
@@ -145,7 +146,11 @@ func (s *tomlScan) keyValue(prefix []string) {
 	}
 	vStart := s.i
 	s.value(path)
-	s.ix.add(path, [2]int{kStart, kEnd}, [2]int{vStart, s.i})
+	vEnd := s.i
+	for vEnd > vStart && (s.src[vEnd-1] == ' ' || s.src[vEnd-1] == '\t') {
+		vEnd--
+	}
+	s.ix.add(path, [2]int{kStart, kEnd}, [2]int{vStart, vEnd})
 }
 
 // keyPath scans a dotted key of bare and quoted parts.
@@ -253,8 +258,7 @@ func (s *tomlScan) basicString() string {
 	for !s.eof() {
 		c := s.src[s.i]
 		if c == '\\' && s.i+1 < len(s.src) {
-			b.WriteByte(s.src[s.i+1])
-			s.i += 2
+			s.escape(&b)
 			continue
 		}
 		s.i++
@@ -264,6 +268,46 @@ func (s *tomlScan) basicString() string {
 		b.WriteByte(c)
 	}
 	return b.String()
+}
+
+// escape decodes the escape sequence at s.i (TOML 1.0 basic strings, plus
+// \e and \xHH of TOML 1.1) into b, so that quoted keys such as "a\u00e9"
+// index under the same name the TOML library decodes.
+func (s *tomlScan) escape(b *strings.Builder) {
+	c := s.src[s.i+1]
+	s.i += 2
+	hex := 0
+	switch c {
+	case 'b':
+		b.WriteByte('\b')
+	case 't':
+		b.WriteByte('\t')
+	case 'n':
+		b.WriteByte('\n')
+	case 'f':
+		b.WriteByte('\f')
+	case 'r':
+		b.WriteByte('\r')
+	case 'e':
+		b.WriteByte(0x1b)
+	case 'x':
+		hex = 2
+	case 'u':
+		hex = 4
+	case 'U':
+		hex = 8
+	default:
+		b.WriteByte(c)
+	}
+	if hex == 0 || s.i+hex > len(s.src) {
+		return
+	}
+	r, err := strconv.ParseUint(string(s.src[s.i:s.i+hex]), 16, 32)
+	if err != nil {
+		return
+	}
+	s.i += hex
+	b.WriteRune(rune(r))
 }
 
 func (s *tomlScan) literalString() string {

@@ -156,6 +156,9 @@ type MetricInfo struct {
 	Harmful     string       `json:"harmful,omitempty"`
 	Margin      *float64     `json:"margin,omitempty"`
 	Covariate   *CovInfo     `json:"covariate,omitempty"`
+	// NonFiniteRows counts outcome rows whose value was NaN or infinite;
+	// they are left out of the sums.
+	NonFiniteRows int64 `json:"nonfinite_rows"`
 	Variants    []VariantVal `json:"variants"`
 	Comparisons []Compare    `json:"comparisons"`
 }
@@ -541,6 +544,11 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 		theta, reason := stats.CUPEDTheta(groups...)
 		cov = &covPool{theta: theta, meanX: stats.CovariateMean(groups...), reason: reason}
 	}
+	for _, v := range p.Variants {
+		if n := stat(byVariant[v], compiler.StatNonFinite); !math.IsNaN(n) {
+			mi.NonFiniteRows += int64(n)
+		}
+	}
 	var base *engine.Row
 	for i, v := range p.Variants {
 		row := byVariant[v]
@@ -699,6 +707,11 @@ func cautions(p *compiler.Plan, r *Report) []string {
 	}
 	if immature > 0 {
 		c = append(c, "Units whose outcome window had not fully elapsed by the as-of time are left out of that metric (see `immature`); late exposers may differ from early ones.")
+	}
+	for _, m := range r.Metrics {
+		if m.NonFiniteRows > 0 {
+			c = append(c, fmt.Sprintf("Metric %s: %d outcome rows had a value that is not a finite number and were left out of its sums; check the data.", m.Name, m.NonFiniteRows))
+		}
 	}
 	for _, e := range r.Health.Exclusions {
 		if e.Reason == "crossover" && e.Rate.OK() && float64(e.Rate) > 0.01 {

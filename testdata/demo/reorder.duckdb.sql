@@ -84,11 +84,12 @@ eligible AS (
     -- m_orders_14d__x: count of rows where status = 'delivered' in [trigger - 28d, trigger + 0d)
     count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us - 2419200000000 AND epoch_us(s."ordered_at") < e.trigger_us + 0 AND (s."status" = 'delivered') THEN 1 END) AS "m_orders_14d__x",
     -- m_basket_value__num: sum of amount where status = 'delivered' in [trigger + 0d, trigger + 14d)
-    sum(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN CAST(s."amount" AS DOUBLE) END) AS "m_basket_value__num",
+    sum(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') AND CAST(s."amount" AS DOUBLE) - CAST(s."amount" AS DOUBLE) = 0 THEN CAST(s."amount" AS DOUBLE) END) AS "m_basket_value__num",
+    count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') AND NOT (CAST(s."amount" AS DOUBLE) - CAST(s."amount" AS DOUBLE) = 0) THEN 1 END) AS "m_basket_value__num__nonfinite",
     -- m_basket_value__den: count of rows where status = 'delivered' in [trigger + 0d, trigger + 14d)
     count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN 1 END) AS "m_basket_value__den",
     -- m_basket_value__x: sum of amount where status = 'delivered' in [trigger - 28d, trigger + 0d)
-    sum(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us - 2419200000000 AND epoch_us(s."ordered_at") < e.trigger_us + 0 AND (s."status" = 'delivered') THEN CAST(s."amount" AS DOUBLE) END) AS "m_basket_value__x",
+    sum(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us - 2419200000000 AND epoch_us(s."ordered_at") < e.trigger_us + 0 AND (s."status" = 'delivered') AND CAST(s."amount" AS DOUBLE) - CAST(s."amount" AS DOUBLE) = 0 THEN CAST(s."amount" AS DOUBLE) END) AS "m_basket_value__x",
     -- m_converted: count of rows where status = 'delivered' in [trigger + 0d, trigger + 14d)
     count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN 1 END) AS "m_converted",
     -- m_cancelled: count of rows where status = 'cancelled' in [trigger + 0d, trigger + 14d)
@@ -132,6 +133,7 @@ unit_values AS (
     coalesce(p1."m_orders_14d", 0) AS "m_orders_14d",
     coalesce(p1."m_orders_14d__x", 0) AS "m_orders_14d__x",
     coalesce(p1."m_basket_value__num", 0) AS "m_basket_value__num",
+    coalesce(p1."m_basket_value__num__nonfinite", 0) AS "m_basket_value__num__nonfinite",
     coalesce(p1."m_basket_value__den", 0) AS "m_basket_value__den",
     coalesce(p1."m_basket_value__x", 0) AS "m_basket_value__x",
     coalesce(p1."m_converted", 0) AS "m_converted",
@@ -171,6 +173,7 @@ SELECT
   var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) AS "basket_value__x_var",
   covar_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END, CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) AS "basket_value__num_x_cov",
   covar_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END, CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) AS "basket_value__den_x_cov",
+  sum(u."m_basket_value__num__nonfinite") AS "basket_value__nonfinite_rows",
   -- converted (secondary, proportion): share of units whose count of rows where status = 'delivered' is above 0; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "converted__n",
   avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_converted" > 0 THEN 1.0 ELSE 0.0 END END) AS "converted__mean",

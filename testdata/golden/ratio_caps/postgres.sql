@@ -53,11 +53,14 @@ eligible AS (
   SELECT
     e.unit_id,
     -- m_revenue_per_session__num: sum of gross - coalesce(discount, 0) in [trigger + 0d, trigger + 14d)
-    sum(CASE WHEN CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) < e.trigger_us + 1209600000000 THEN CAST(s."gross" - coalesce(s."discount", 0) AS DOUBLE PRECISION) END) AS "m_revenue_per_session__num",
+    sum(CASE WHEN CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) < e.trigger_us + 1209600000000 AND CAST(s."gross" - coalesce(s."discount", 0) AS DOUBLE PRECISION) - CAST(s."gross" - coalesce(s."discount", 0) AS DOUBLE PRECISION) = 0 THEN CAST(s."gross" - coalesce(s."discount", 0) AS DOUBLE PRECISION) END) AS "m_revenue_per_session__num",
+    count(CASE WHEN CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) < e.trigger_us + 1209600000000 AND NOT (CAST(s."gross" - coalesce(s."discount", 0) AS DOUBLE PRECISION) - CAST(s."gross" - coalesce(s."discount", 0) AS DOUBLE PRECISION) = 0) THEN 1 END) AS "m_revenue_per_session__num__nonfinite",
     -- m_big_spender: sum of gross in [trigger + 0d, trigger + 14d)
-    sum(CASE WHEN CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) < e.trigger_us + 1209600000000 THEN CAST(s."gross" AS DOUBLE PRECISION) END) AS "m_big_spender",
+    sum(CASE WHEN CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) < e.trigger_us + 1209600000000 AND CAST(s."gross" AS DOUBLE PRECISION) - CAST(s."gross" AS DOUBLE PRECISION) = 0 THEN CAST(s."gross" AS DOUBLE PRECISION) END) AS "m_big_spender",
+    count(CASE WHEN CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) < e.trigger_us + 1209600000000 AND NOT (CAST(s."gross" AS DOUBLE PRECISION) - CAST(s."gross" AS DOUBLE PRECISION) = 0) THEN 1 END) AS "m_big_spender__nonfinite",
     -- m_revenue: sum of gross in [trigger + 0d, trigger + 7d)
-    sum(CASE WHEN CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) < e.trigger_us + 604800000000 THEN CAST(s."gross" AS DOUBLE PRECISION) END) AS "m_revenue",
+    sum(CASE WHEN CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) < e.trigger_us + 604800000000 AND CAST(s."gross" AS DOUBLE PRECISION) - CAST(s."gross" AS DOUBLE PRECISION) = 0 THEN CAST(s."gross" AS DOUBLE PRECISION) END) AS "m_revenue",
+    count(CASE WHEN CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) < e.trigger_us + 604800000000 AND NOT (CAST(s."gross" AS DOUBLE PRECISION) - CAST(s."gross" AS DOUBLE PRECISION) = 0) THEN 1 END) AS "m_revenue__nonfinite",
     -- m_distinct_orders: distinct values of order_id where sku_count >= 1 in [trigger + 0d, trigger + 36h)
     count(DISTINCT CASE WHEN CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(EXTRACT(EPOCH FROM s."created_at") * 1000000 AS BIGINT) < e.trigger_us + 129600000000 AND (s."sku_count" >= 1) THEN s."order_id" END) AS "m_distinct_orders"
   FROM eligible AS e
@@ -88,8 +91,11 @@ unit_values AS (
     (e.trigger_us + 604800000000 <= 1782864000000000) AS mature_7d,
     (e.trigger_us + 1209600000000 <= 1782864000000000) AS mature_14d,
     coalesce(p1."m_revenue_per_session__num", 0) AS "m_revenue_per_session__num",
+    coalesce(p1."m_revenue_per_session__num__nonfinite", 0) AS "m_revenue_per_session__num__nonfinite",
     coalesce(p1."m_big_spender", 0) AS "m_big_spender",
+    coalesce(p1."m_big_spender__nonfinite", 0) AS "m_big_spender__nonfinite",
     coalesce(p1."m_revenue", 0) AS "m_revenue",
+    coalesce(p1."m_revenue__nonfinite", 0) AS "m_revenue__nonfinite",
     coalesce(p1."m_distinct_orders", 0) AS "m_distinct_orders",
     coalesce(p2."m_revenue_per_session__den", 0) AS "m_revenue_per_session__den",
     coalesce(p2."m_long_sessions", 0) AS "m_long_sessions"
@@ -114,12 +120,15 @@ SELECT
   var_samp(CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE PRECISION) END) AS "revenue_per_session__num_var",
   var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE PRECISION) END) AS "revenue_per_session__den_var",
   covar_samp(CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE PRECISION) END, CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE PRECISION) END) AS "revenue_per_session__cov",
+  sum(u."m_revenue_per_session__num__nonfinite") AS "revenue_per_session__nonfinite_rows",
   -- big_spender (secondary, proportion): share of units whose sum of gross is above 100; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "big_spender__n",
+  sum(u."m_big_spender__nonfinite") AS "big_spender__nonfinite_rows",
   avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_big_spender" > 100 THEN 1.0 ELSE 0.0 END END) AS "big_spender__mean",
   var_samp(CASE WHEN u.mature_14d THEN CASE WHEN u."m_big_spender" > 100 THEN 1.0 ELSE 0.0 END END) AS "big_spender__var",
   -- revenue (secondary, mean): mean per unit of sum of gross, capped at 500; window [trigger + 0d, trigger + 7d), mature units only
   count(CASE WHEN u.mature_7d THEN 1 END) AS "revenue__n",
+  sum(u."m_revenue__nonfinite") AS "revenue__nonfinite_rows",
   avg(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE PRECISION) END) AS "revenue__mean",
   var_samp(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE PRECISION) END) AS "revenue__var",
   -- distinct_orders (mechanism, mean): mean per unit of distinct values of order_id where sku_count >= 1; window [trigger + 0d, trigger + 36h), mature units only

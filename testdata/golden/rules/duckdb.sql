@@ -71,7 +71,7 @@ rule_4 AS (
   SELECT DISTINCT t.unit_id
   FROM triggers AS t
   JOIN (
-    SELECT a.*, row_number() OVER (PARTITION BY a."account" ORDER BY epoch_us(a."valid_from") DESC, a."account", a."valid_from", a."plan", a."seats") AS assay_rn, t2.unit_id AS assay_unit
+    SELECT a."plan", a."seats", row_number() OVER (PARTITION BY t2.unit_id ORDER BY epoch_us(a."valid_from") DESC, a."account", a."valid_from", a."plan", a."seats") AS assay_rn, t2.unit_id AS assay_unit
     FROM triggers AS t2
     JOIN read_parquet('plans.parquet') AS a ON a."account" = t2.unit_id
     WHERE epoch_us(a."valid_from") <= t2.trigger_us
@@ -239,7 +239,7 @@ rule_4 AS (
   SELECT DISTINCT t.unit_id
   FROM triggers AS t
   JOIN (
-    SELECT a.*, row_number() OVER (PARTITION BY a."account" ORDER BY epoch_us(a."valid_from") DESC, a."account", a."valid_from", a."plan", a."seats") AS assay_rn, t2.unit_id AS assay_unit
+    SELECT a."plan", a."seats", row_number() OVER (PARTITION BY t2.unit_id ORDER BY epoch_us(a."valid_from") DESC, a."account", a."valid_from", a."plan", a."seats") AS assay_rn, t2.unit_id AS assay_unit
     FROM triggers AS t2
     JOIN read_parquet('plans.parquet') AS a ON a."account" = t2.unit_id
     WHERE epoch_us(a."valid_from") <= t2.trigger_us

@@ -9,7 +9,7 @@ exposure_rows AS (
     CAST(x.`arm "v"` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin AS variant,
     TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) AS ts_us,
     coalesce(x.`länd` = _utf8mb4'NL' COLLATE utf8mb4_bin OR x.`länd` = _utf8mb4'BE' COLLATE utf8mb4_bin, FALSE) AS qualifies
-  FROM `mail`.`"digest sends"` AS x
+  FROM `mail`.`digest sends` AS x
   WHERE x.`user id` IS NOT NULL AND x.`sent at` IS NOT NULL
     AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) >= 1772319600000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) < 1774994400000000
 ),
@@ -94,7 +94,7 @@ exposure_rows AS (
     CAST(x.`arm "v"` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin AS variant,
     TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) AS ts_us,
     coalesce(x.`länd` = _utf8mb4'NL' COLLATE utf8mb4_bin OR x.`länd` = _utf8mb4'BE' COLLATE utf8mb4_bin, FALSE) AS qualifies
-  FROM `mail`.`"digest sends"` AS x
+  FROM `mail`.`digest sends` AS x
   WHERE x.`user id` IS NOT NULL AND x.`sent at` IS NOT NULL
     AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) >= 1772319600000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) < 1774994400000000
 ),
@@ -133,7 +133,7 @@ ignored_rows AS (
     count(CASE WHEN x.`sent at` IS NULL THEN 1 END) AS null_time,
     count(CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) < 1772319600000000 THEN 1 END) AS before_start,
     count(CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) >= 1774994400000000 THEN 1 END) AS after_end
-  FROM `mail`.`"digest sends"` AS x
+  FROM `mail`.`digest sends` AS x
 )
 SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, ts_us, TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'Europe/Amsterdam')) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count

@@ -7,11 +7,11 @@ exposure_rows AS (
   SELECT
     x."user id" AS unit_id,
     CAST(x."arm ""v""" AS TEXT) AS variant,
-    CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) AS ts_us,
+    CASE WHEN pg_typeof(x."sent at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."sent at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) END AS ts_us,
     coalesce(x."länd" = 'NL' OR x."länd" = 'BE', FALSE) AS qualifies
-  FROM "mail"."""digest sends""" AS x
+  FROM "mail"."digest sends" AS x
   WHERE x."user id" IS NOT NULL AND x."sent at" IS NOT NULL
-    AND CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) >= 1772319600000000 AND CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) < 1774994400000000
+    AND CASE WHEN pg_typeof(x."sent at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."sent at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) END >= 1772319600000000 AND CASE WHEN pg_typeof(x."sent at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."sent at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) END < 1774994400000000
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (
@@ -53,10 +53,10 @@ eligible AS (
   SELECT
     e.unit_id,
     -- m_opens_3d: count of rows where client <> 'proxy''s' in [trigger + 0d, trigger + 3d)
-    count(CASE WHEN CAST(EXTRACT(EPOCH FROM s."opened at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(EXTRACT(EPOCH FROM s."opened at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) < e.trigger_us + 259200000000 AND (s."client" <> 'proxy''s') THEN 1 END) AS "m_opens_3d"
+    count(CASE WHEN CASE WHEN pg_typeof(s."opened at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM s."opened at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM s."opened at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) END >= e.trigger_us + 0 AND CASE WHEN pg_typeof(s."opened at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM s."opened at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM s."opened at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) END < e.trigger_us + 259200000000 AND (s."client" <> 'proxy''s') THEN 1 END) AS "m_opens_3d"
   FROM eligible AS e
   JOIN "mail"."opens" AS s ON s."user id" = e.unit_id
-  WHERE CAST(EXTRACT(EPOCH FROM s."opened at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(EXTRACT(EPOCH FROM s."opened at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) < e.trigger_us + 259200000000
+  WHERE CASE WHEN pg_typeof(s."opened at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM s."opened at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM s."opened at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) END >= e.trigger_us + 0 AND CASE WHEN pg_typeof(s."opened at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM s."opened at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM s."opened at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) END < e.trigger_us + 259200000000
   GROUP BY e.unit_id
 ),
 -- One row per eligible unit; a unit without outcome rows counts as zero.
@@ -92,11 +92,11 @@ exposure_rows AS (
   SELECT
     x."user id" AS unit_id,
     CAST(x."arm ""v""" AS TEXT) AS variant,
-    CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) AS ts_us,
+    CASE WHEN pg_typeof(x."sent at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."sent at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) END AS ts_us,
     coalesce(x."länd" = 'NL' OR x."länd" = 'BE', FALSE) AS qualifies
-  FROM "mail"."""digest sends""" AS x
+  FROM "mail"."digest sends" AS x
   WHERE x."user id" IS NOT NULL AND x."sent at" IS NOT NULL
-    AND CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) >= 1772319600000000 AND CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) < 1774994400000000
+    AND CASE WHEN pg_typeof(x."sent at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."sent at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) END >= 1772319600000000 AND CASE WHEN pg_typeof(x."sent at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."sent at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) END < 1774994400000000
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (
@@ -131,9 +131,9 @@ ignored_rows AS (
   SELECT
     count(CASE WHEN x."user id" IS NULL THEN 1 END) AS null_unit,
     count(CASE WHEN x."sent at" IS NULL THEN 1 END) AS null_time,
-    count(CASE WHEN CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) < 1772319600000000 THEN 1 END) AS before_start,
-    count(CASE WHEN CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) >= 1774994400000000 THEN 1 END) AS after_end
-  FROM "mail"."""digest sends""" AS x
+    count(CASE WHEN CASE WHEN pg_typeof(x."sent at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."sent at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) END < 1772319600000000 THEN 1 END) AS before_start,
+    count(CASE WHEN CASE WHEN pg_typeof(x."sent at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."sent at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."sent at" AT TIME ZONE 'Europe/Amsterdam') * 1000000 AS BIGINT) END >= 1774994400000000 THEN 1 END) AS after_end
+  FROM "mail"."digest sends" AS x
 )
 SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST((TIMESTAMP '1970-01-01 00:00:00' + ts_us * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'Europe/Amsterdam' AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count

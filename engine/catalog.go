@@ -1,0 +1,335 @@
+package engine
+
+import (
+	"context"
+	"database/sql"
+	"fmt"
+	"sort"
+	"strings"
+	"unicode/utf8"
+
+	"github.com/assay-dev/assay/dialects"
+	"github.com/assay-dev/assay/metrics"
+)
+
+// CheckCatalog checks the database behind db against the sources of spec
+// before any query runs. For each source it reads the table, view or file
+// with a query that returns no rows, and reports, all at once:
+//
+//   - a table or view that does not exist, with the tables that do;
+//   - a file that cannot be read, with the engine's reason;
+//   - declared columns that the source does not have, with the columns
+//     (and types) it does have;
+//   - a time column whose type is not a date or timestamp;
+//   - as warnings, columns that match only without regard to letter case,
+//     and sources without a single row.
+//
+// Each diagnostic points at the spec's declaration of the source (its
+// `table`, `file`, `columns` or `time` key). The queries are portable SQL
+// (SELECT * ... WHERE 1 = 0, information_schema.tables, LIMIT 1), so the
+// check works on every engine assay connects to.
+func CheckCatalog(ctx context.Context, db *sql.DB, spec *metrics.Spec, d dialects.Dialect) metrics.Diagnostics {
+	var ds metrics.Diagnostics
+	var tables []catalogTable
+	tablesRead := false
+	for _, src := range spec.Sources {
+		if err := ctx.Err(); err != nil {
+			ds = append(ds, metrics.Diagnostic{Code: metrics.CodeSource, Subject: src.At,
+				Summary: fmt.Sprintf("catalogue check of source `%s` interrupted: %v", src.Name, err)})
+			break
+		}
+		rel, what, at := sourceRelation(spec, src, d)
+		if rel == "" {
+			ds = append(ds, metrics.Diagnostic{Code: metrics.CodeSource, Subject: at,
+				Summary: fmt.Sprintf("source `%s`: %s cannot be read by the %s engine", src.Name, what, d.Name())})
+			continue
+		}
+		cols, err := describe(ctx, db, rel)
+		if err != nil {
+			if ctx.Err() != nil {
+				ds = append(ds, metrics.Diagnostic{Code: metrics.CodeSource, Subject: at,
+					Summary: fmt.Sprintf("catalogue check of source `%s` interrupted: %v", src.Name, ctx.Err())})
+				break
+			}
+			if src.File != "" {
+				ds = append(ds, metrics.Diagnostic{Code: metrics.CodeSource, Subject: at,
+					Summary: fmt.Sprintf("source `%s`: cannot read %s: %s", src.Name, what, firstLine(CleanError(err))),
+					Hint:    "file paths are relative to the spec's directory"})
+				continue
+			}
+			if !tablesRead {
+				tables, tablesRead = listTables(ctx, db), true
+			}
+			ds = append(ds, missingTable(src, what, at, tables, err))
+			continue
+		}
+		ds = append(ds, checkColumns(spec, src, what, cols)...)
+		if empty, err := isEmpty(ctx, db, rel); err == nil && empty {
+			ds = append(ds, metrics.Diagnostic{Severity: metrics.Warning, Code: metrics.CodeSource, Subject: at,
+				Summary: fmt.Sprintf("source `%s`: %s has no rows", src.Name, what),
+				Hint:    "every metric that reads it will be zero for every unit"})
+		}
+	}
+	ds.Sort()
+	return ds
+}
+
+// catalogColumn is a column as the engine reports it.
+type catalogColumn struct {
+	Name, Type string
+}
+
+type catalogTable struct {
+	Schema, Name string
+}
+
+// sourceRelation renders the relation a source reads, a description of it
+// for messages, and the spec range to blame.
+func sourceRelation(spec *metrics.Spec, src *metrics.Source, d dialects.Dialect) (rel, what string, at metrics.Range) {
+	at = rangeOr(spec, src.At, "sources", src.Name, "table")
+	if src.File != "" {
+		at = rangeOr(spec, src.At, "sources", src.Name, "file")
+		f, err := d.File(src.File)
+		if err != nil {
+			return "", fmt.Sprintf("file %q", src.File), at
+		}
+		return f, fmt.Sprintf("file %q", src.File), at
+	}
+	return d.Table(strings.Split(src.Table, ".")), fmt.Sprintf("table `%s`", src.Table), at
+}
+
+// rangeOr returns the spec range of the key path, or def.
+func rangeOr(spec *metrics.Spec, def metrics.Range, path ...string) metrics.Range {
+	if r, ok := spec.Ranges[strings.Join(path, ".")]; ok {
+		return r
+	}
+	return def
+}
+
+// describe returns the columns of rel, read from an empty result.
+func describe(ctx context.Context, db *sql.DB, rel string) ([]catalogColumn, error) {
+	rows, err := db.QueryContext(ctx, "SELECT * FROM "+rel+" AS s WHERE 1 = 0")
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	types, err := rows.ColumnTypes()
+	if err != nil {
+		return nil, err
+	}
+	cols := make([]catalogColumn, len(types))
+	for i, t := range types {
+		cols[i] = catalogColumn{Name: t.Name(), Type: strings.ToUpper(t.DatabaseTypeName())}
+	}
+	for rows.Next() {
+	}
+	return cols, rows.Err()
+}
+
+// isEmpty reports whether rel has no rows.
+func isEmpty(ctx context.Context, db *sql.DB, rel string) (bool, error) {
+	rows, err := db.QueryContext(ctx, "SELECT 1 FROM "+rel+" AS s LIMIT 1")
+	if err != nil {
+		return false, err
+	}
+	defer rows.Close()
+	has := rows.Next()
+	return !has, rows.Err()
+}
+
+// listTables returns the tables and views the session can see, or nil when
+// information_schema cannot be read.
+func listTables(ctx context.Context, db *sql.DB) []catalogTable {
+	rows, err := db.QueryContext(ctx, "SELECT table_schema, table_name FROM information_schema.tables")
+	if err != nil {
+		return nil
+	}
+	defer rows.Close()
+	var out []catalogTable
+	for rows.Next() {
+		var s, n sql.NullString
+		if rows.Scan(&s, &n) == nil && n.Valid {
+			out = append(out, catalogTable{Schema: s.String, Name: n.String})
+		}
+	}
+	sort.Slice(out, func(i, j int) bool {
+		if out[i].Name != out[j].Name {
+			return out[i].Name < out[j].Name
+		}
+		return out[i].Schema < out[j].Schema
+	})
+	return out
+}
+
+// systemSchemas are left out of the table list in hints.
+var systemSchemas = map[string]bool{"information_schema": true, "pg_catalog": true, "mysql": true, "performance_schema": true, "sys": true}
+
+func missingTable(src *metrics.Source, what string, at metrics.Range, tables []catalogTable, err error) metrics.Diagnostic {
+	parts := strings.Split(src.Table, ".")
+	last := parts[len(parts)-1]
+	var names []string
+	exists := false
+	for _, t := range tables {
+		if systemSchemas[strings.ToLower(t.Schema)] {
+			continue
+		}
+		names = append(names, t.Name)
+		if strings.EqualFold(t.Name, last) {
+			exists = true
+		}
+	}
+	if exists || tables == nil {
+		// The table is there (or the catalogue cannot be listed): the
+		// engine's own reason says more.
+		return metrics.Diagnostic{Code: metrics.CodeSource, Subject: at,
+			Summary: fmt.Sprintf("source `%s`: cannot read %s: %s", src.Name, what, firstLine(CleanError(err)))}
+	}
+	names = dedupe(names)
+	d := metrics.Diagnostic{Code: metrics.CodeSource, Subject: at,
+		Summary: fmt.Sprintf("source `%s`: %s does not exist in the database", src.Name, what)}
+	if s := closest(last, names); s != "" {
+		d.Summary += fmt.Sprintf("; did you mean `%s`?", s)
+	}
+	switch {
+	case len(names) == 0:
+		d.Hint = "the database has no tables or views"
+	case len(names) <= 30:
+		d.Hint = "tables and views in the database: " + strings.Join(names, ", ")
+	default:
+		d.Hint = fmt.Sprintf("tables and views in the database: %s, and %d more", strings.Join(names[:30], ", "), len(names)-30)
+	}
+	return d
+}
+
+// timeTypes are the column types a source's time column may have, as the
+// drivers of DuckDB, PostgreSQL and MySQL name them.
+var timeTypes = []string{"TIMESTAMP", "TIMESTAMPTZ", "TIMESTAMP WITH TIME ZONE", "TIMESTAMP WITHOUT TIME ZONE",
+	"TIMESTAMP_S", "TIMESTAMP_MS", "TIMESTAMP_NS", "DATE", "DATETIME"}
+
+func checkColumns(spec *metrics.Spec, src *metrics.Source, what string, cols []catalogColumn) metrics.Diagnostics {
+	var ds metrics.Diagnostics
+	exact := map[string]catalogColumn{}
+	folded := map[string]catalogColumn{}
+	var have []string
+	for _, c := range cols {
+		exact[c.Name] = c
+		if _, dup := folded[strings.ToLower(c.Name)]; !dup {
+			folded[strings.ToLower(c.Name)] = c
+		}
+		if c.Type != "" {
+			have = append(have, c.Name+" "+c.Type)
+		} else {
+			have = append(have, c.Name)
+		}
+	}
+	colsAt := rangeOr(spec, src.At, "sources", src.Name, "columns")
+	var missing []string
+	for _, name := range src.Columns {
+		if _, ok := exact[name]; ok {
+			continue
+		}
+		if c, ok := folded[strings.ToLower(name)]; ok {
+			ds = append(ds, metrics.Diagnostic{Severity: metrics.Warning, Code: metrics.CodeColumn, Subject: colsAt,
+				Summary: fmt.Sprintf("source `%s`: column `%s` matches `%s` of %s only without regard to letter case", src.Name, name, c.Name, what),
+				Hint:    fmt.Sprintf("write it as %q: engines that compare quoted names exactly will not find it", c.Name)})
+			continue
+		}
+		missing = append(missing, name)
+	}
+	if len(missing) > 0 {
+		noun := "column"
+		if len(missing) > 1 {
+			noun = "columns"
+		}
+		var names []string
+		for _, c := range cols {
+			names = append(names, c.Name)
+		}
+		listed := make([]string, len(missing))
+		for i, m := range missing {
+			listed[i] = "`" + m + "`"
+			if s := closest(m, names); s != "" {
+				listed[i] += fmt.Sprintf(" (did you mean `%s`?)", s)
+			}
+		}
+		summary := fmt.Sprintf("source `%s`: %s has no %s %s", src.Name, what, noun, strings.Join(listed, ", "))
+		ds = append(ds, metrics.Diagnostic{Code: metrics.CodeColumn, Subject: colsAt, Summary: summary,
+			Hint: "it has: " + strings.Join(have, ", ")})
+	}
+	if src.Time != "" {
+		c, ok := exact[src.Time]
+		if !ok {
+			c, ok = folded[strings.ToLower(src.Time)]
+		}
+		if ok && c.Type != "" && !isTimeType(c.Type) {
+			ds = append(ds, metrics.Diagnostic{Code: metrics.CodeSource, Subject: rangeOr(spec, src.At, "sources", src.Name, "time"),
+				Summary: fmt.Sprintf("source `%s`: time column `%s` is %s, not a date or timestamp", src.Name, src.Time, c.Type),
+				Hint:    "point `time` at a TIMESTAMP column, or cast the column in a view"})
+		}
+	}
+	return ds
+}
+
+func isTimeType(t string) bool {
+	for _, x := range timeTypes {
+		if t == x {
+			return true
+		}
+	}
+	return false
+}
+
+func dedupe(names []string) []string {
+	sort.Strings(names)
+	out := names[:0]
+	for i, n := range names {
+		if i == 0 || n != names[i-1] {
+			out = append(out, n)
+		}
+	}
+	return out
+}
+
+// firstLine returns the first line of err's text: DuckDB appends the query
+// with a caret, which means nothing to a spec author.
+func firstLine(err error) string {
+	s := err.Error()
+	if i := strings.IndexByte(s, '\n'); i >= 0 {
+		s = s[:i]
+	}
+	return strings.TrimSpace(s)
+}
+
+// closest returns the candidate nearest to s by edit distance (ignoring
+// case) when the distance is below 3 and at most a third of the length of
+// s, or "".
+func closest(s string, candidates []string) string {
+	best, bestD := "", 3
+	for _, c := range candidates {
+		if d := levenshtein(strings.ToLower(s), strings.ToLower(c)); d < bestD && 3*d <= utf8.RuneCountInString(s) {
+			best, bestD = c, d
+		}
+	}
+	return best
+}
+
+func levenshtein(a, b string) int {
+	ra, rb := []rune(a), []rune(b)
+	prev := make([]int, len(rb)+1)
+	cur := make([]int, len(rb)+1)
+	for j := range prev {
+		prev[j] = j
+	}
+	for i := 1; i <= len(ra); i++ {
+		cur[0] = i
+		for j := 1; j <= len(rb); j++ {
+			cost := 1
+			if ra[i-1] == rb[j-1] {
+				cost = 0
+			}
+			cur[j] = min(prev[j]+1, cur[j-1]+1, prev[j-1]+cost)
+		}
+		prev, cur = cur, prev
+	}
+	return prev[len(rb)]
+}

@@ -1,0 +1,179 @@
+-- assay 0.1.0 per-variant statistics query for experiment minimal (spec fingerprint 9875bda0f4b16125)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
+-- Exposures are read in [2026-05-01T00:00:00Z, 2026-05-29T00:00:00Z); outcome windows must have ended by 2026-05-29T00:00:00Z.
+WITH
+-- Exposure rows of assignments inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x."visitor_id" AS unit_id,
+    CAST(x."arm" AS VARCHAR) AS variant,
+    CAST(to_unixtime(with_timezone(x."assigned_at", 'UTC')) * 1000000 AS BIGINT) AS ts_us,
+    TRUE AS qualifies
+  FROM "analytics"."assignments" AS x
+  WHERE x."visitor_id" IS NOT NULL AND x."assigned_at" IS NOT NULL
+    AND CAST(to_unixtime(with_timezone(x."assigned_at", 'UTC')) * 1000000 AS BIGINT) >= 1777593600000000 AND CAST(to_unixtime(with_timezone(x."assigned_at", 'UTC')) * 1000000 AS BIGINT) < 1780012800000000
+),
+-- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+exposed_units AS (
+  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure.
+triggers AS (
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
+  FROM (
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
+    FROM exposure_rows AS r
+    WHERE r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST(from_unixtime_nanos(t.trigger_us * 1000) AT TIME ZONE 'UTC' AS DATE) AS trigger_day,
+    (u.variants_seen > 1) AS is_crossover,
+    (t.variant NOT IN ('control', 'big_button')) AS is_unknown_variant
+  FROM triggers AS t
+  JOIN exposed_units AS u ON u.unit_id = t.unit_id
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day
+  FROM cohort AS c
+  WHERE NOT c.is_crossover
+    AND NOT c.is_unknown_variant
+),
+-- One pass over checkouts for: m_checkouts_7d.
+"pass_checkouts" AS (
+  SELECT
+    e.unit_id,
+    -- m_checkouts_7d: count of rows in [trigger + 0d, trigger + 7d)
+    count(CASE WHEN CAST(to_unixtime(with_timezone(s."completed_at", 'UTC')) * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(to_unixtime(with_timezone(s."completed_at", 'UTC')) * 1000000 AS BIGINT) < e.trigger_us + 604800000000 THEN 1 END) AS "m_checkouts_7d"
+  FROM eligible AS e
+  JOIN "analytics"."checkouts" AS s ON s."visitor_id" = e.unit_id
+  WHERE CAST(to_unixtime(with_timezone(s."completed_at", 'UTC')) * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(to_unixtime(with_timezone(s."completed_at", 'UTC')) * 1000000 AS BIGINT) < e.trigger_us + 604800000000
+  GROUP BY e.unit_id
+),
+-- One row per eligible unit; a unit without outcome rows counts as zero.
+unit_values AS (
+  SELECT
+    e.unit_id,
+    e.variant,
+    e.trigger_day,
+    (e.trigger_us + 604800000000 <= 1780012800000000) AS mature_7d,
+    coalesce(p1."m_checkouts_7d", 0) AS "m_checkouts_7d"
+  FROM eligible AS e
+  LEFT JOIN "pass_checkouts" AS p1 ON p1.unit_id = e.unit_id
+)
+SELECT
+  '9875bda0f4b16125' AS spec_fingerprint,
+  u.variant AS variant,
+  count(*) AS units,
+  -- checkouts_7d (primary, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 7d), mature units only
+  count(CASE WHEN u.mature_7d THEN 1 END) AS "checkouts_7d__n",
+  avg(CASE WHEN u.mature_7d THEN CAST(u."m_checkouts_7d" AS DOUBLE) END) AS "checkouts_7d__mean",
+  var_samp(CASE WHEN u.mature_7d THEN CAST(u."m_checkouts_7d" AS DOUBLE) END) AS "checkouts_7d__var"
+FROM unit_values AS u
+GROUP BY u.variant
+ORDER BY u.variant
+;
+
+-- assay 0.1.0 health query for experiment minimal (spec fingerprint 9875bda0f4b16125)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
+-- Exposures are read in [2026-05-01T00:00:00Z, 2026-05-29T00:00:00Z); outcome windows must have ended by 2026-05-29T00:00:00Z.
+WITH
+-- Exposure rows of assignments inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x."visitor_id" AS unit_id,
+    CAST(x."arm" AS VARCHAR) AS variant,
+    CAST(to_unixtime(with_timezone(x."assigned_at", 'UTC')) * 1000000 AS BIGINT) AS ts_us,
+    TRUE AS qualifies
+  FROM "analytics"."assignments" AS x
+  WHERE x."visitor_id" IS NOT NULL AND x."assigned_at" IS NOT NULL
+    AND CAST(to_unixtime(with_timezone(x."assigned_at", 'UTC')) * 1000000 AS BIGINT) >= 1777593600000000 AND CAST(to_unixtime(with_timezone(x."assigned_at", 'UTC')) * 1000000 AS BIGINT) < 1780012800000000
+),
+-- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+exposed_units AS (
+  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure.
+triggers AS (
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
+  FROM (
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
+    FROM exposure_rows AS r
+    WHERE r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST(from_unixtime_nanos(t.trigger_us * 1000) AT TIME ZONE 'UTC' AS DATE) AS trigger_day,
+    (u.variants_seen > 1) AS is_crossover,
+    (t.variant NOT IN ('control', 'big_button')) AS is_unknown_variant
+  FROM triggers AS t
+  JOIN exposed_units AS u ON u.unit_id = t.unit_id
+),
+-- Exposure rows outside the analysis window, or without a unit or time.
+ignored_rows AS (
+  SELECT
+    count(CASE WHEN x."visitor_id" IS NULL THEN 1 END) AS null_unit,
+    count(CASE WHEN x."assigned_at" IS NULL THEN 1 END) AS null_time,
+    count(CASE WHEN CAST(to_unixtime(with_timezone(x."assigned_at", 'UTC')) * 1000000 AS BIGINT) < 1777593600000000 THEN 1 END) AS before_start,
+    count(CASE WHEN CAST(to_unixtime(with_timezone(x."assigned_at", 'UTC')) * 1000000 AS BIGINT) >= 1780012800000000 THEN 1 END) AS after_end
+  FROM "analytics"."assignments" AS x
+)
+SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
+  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(from_unixtime_nanos(ts_us * 1000) AT TIME ZONE 'UTC' AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
+  FROM exposure_rows
+  GROUP BY variant, CAST(from_unixtime_nanos(ts_us * 1000) AT TIME ZONE 'UTC' AS DATE)
+  UNION ALL
+  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  GROUP BY variant, trigger_day
+  UNION ALL
+  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM exposed_units AS u
+  WHERE NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)
+  UNION ALL
+  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_crossover
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_unknown_variant
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_crossover OR is_unknown_variant
+  GROUP BY variant
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
+  FROM ignored_rows
+) AS h
+ORDER BY h.kind, h.reason, h.variant, h.day
+;

@@ -1,0 +1,241 @@
+-- assay 0.1.0 per-variant statistics query for experiment ratio-caps (spec fingerprint 70f84f6c6f917d36)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
+-- Exposures are read in [2026-06-01T00:00:00Z, 2026-07-01T00:00:00Z); outcome windows must have ended by 2026-07-01T00:00:00Z.
+WITH
+-- Exposure rows of exposures inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x."account_id" AS unit_id,
+    CAST(x."arm" AS VARCHAR) AS variant,
+    CAST(to_unixtime(with_timezone(x."ts", 'UTC')) * 1000000 AS BIGINT) AS ts_us,
+    coalesce(x."page" IN ('cart', 'checkout'), FALSE) AS qualifies
+  FROM "exposures" AS x
+  WHERE x."account_id" IS NOT NULL AND x."ts" IS NOT NULL
+    AND CAST(to_unixtime(with_timezone(x."ts", 'UTC')) * 1000000 AS BIGINT) >= 1780272000000000 AND CAST(to_unixtime(with_timezone(x."ts", 'UTC')) * 1000000 AS BIGINT) < 1782864000000000
+),
+-- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+exposed_units AS (
+  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure (a row qualifies when: page IN ('cart', 'checkout')).
+triggers AS (
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
+  FROM (
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
+    FROM exposure_rows AS r
+    WHERE r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST(from_unixtime_nanos(t.trigger_us * 1000) AT TIME ZONE 'UTC' AS DATE) AS trigger_day,
+    (u.variants_seen > 1) AS is_crossover,
+    (t.variant NOT IN ('control', 'threshold_30', 'threshold_40')) AS is_unknown_variant
+  FROM triggers AS t
+  JOIN exposed_units AS u ON u.unit_id = t.unit_id
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day
+  FROM cohort AS c
+  WHERE NOT c.is_crossover
+    AND NOT c.is_unknown_variant
+),
+-- One pass over orders for: m_revenue_per_session__num, m_big_spender, m_revenue, m_distinct_orders.
+"pass_orders" AS (
+  SELECT
+    e.unit_id,
+    -- m_revenue_per_session__num: sum of gross - coalesce(discount, 0) in [trigger + 0d, trigger + 14d)
+    sum(CASE WHEN CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) < e.trigger_us + 1209600000000 AND CAST(s."gross" - coalesce(s."discount", 0) AS DOUBLE) - CAST(s."gross" - coalesce(s."discount", 0) AS DOUBLE) = 0 THEN CAST(s."gross" - coalesce(s."discount", 0) AS DOUBLE) END) AS "m_revenue_per_session__num",
+    count(CASE WHEN CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) < e.trigger_us + 1209600000000 AND NOT (CAST(s."gross" - coalesce(s."discount", 0) AS DOUBLE) - CAST(s."gross" - coalesce(s."discount", 0) AS DOUBLE) = 0) THEN 1 END) AS "m_revenue_per_session__num__nonfinite",
+    -- m_big_spender: sum of gross in [trigger + 0d, trigger + 14d)
+    sum(CASE WHEN CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) < e.trigger_us + 1209600000000 AND CAST(s."gross" AS DOUBLE) - CAST(s."gross" AS DOUBLE) = 0 THEN CAST(s."gross" AS DOUBLE) END) AS "m_big_spender",
+    count(CASE WHEN CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) < e.trigger_us + 1209600000000 AND NOT (CAST(s."gross" AS DOUBLE) - CAST(s."gross" AS DOUBLE) = 0) THEN 1 END) AS "m_big_spender__nonfinite",
+    -- m_revenue: sum of gross in [trigger + 0d, trigger + 7d)
+    sum(CASE WHEN CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) < e.trigger_us + 604800000000 AND CAST(s."gross" AS DOUBLE) - CAST(s."gross" AS DOUBLE) = 0 THEN CAST(s."gross" AS DOUBLE) END) AS "m_revenue",
+    count(CASE WHEN CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) < e.trigger_us + 604800000000 AND NOT (CAST(s."gross" AS DOUBLE) - CAST(s."gross" AS DOUBLE) = 0) THEN 1 END) AS "m_revenue__nonfinite",
+    -- m_distinct_orders: distinct values of order_id where sku_count >= 1 in [trigger + 0d, trigger + 36h)
+    count(DISTINCT CASE WHEN CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) < e.trigger_us + 129600000000 AND (s."sku_count" >= 1) THEN s."order_id" END) AS "m_distinct_orders"
+  FROM eligible AS e
+  JOIN "orders" AS s ON s."account_id" = e.unit_id
+  WHERE CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(to_unixtime(with_timezone(s."created_at", 'UTC')) * 1000000 AS BIGINT) < e.trigger_us + 1209600000000
+  GROUP BY e.unit_id
+),
+-- One pass over sessions for: m_revenue_per_session__den, m_long_sessions.
+"pass_sessions" AS (
+  SELECT
+    e.unit_id,
+    -- m_revenue_per_session__den: count of rows in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN CAST(to_unixtime(with_timezone(s."started_at", 'UTC')) * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(to_unixtime(with_timezone(s."started_at", 'UTC')) * 1000000 AS BIGINT) < e.trigger_us + 1209600000000 THEN 1 END) AS "m_revenue_per_session__den",
+    -- m_long_sessions: count of rows where duration_s BETWEEN 600 AND 7200 in [trigger + 1h, trigger + 14d)
+    count(CASE WHEN CAST(to_unixtime(with_timezone(s."started_at", 'UTC')) * 1000000 AS BIGINT) >= e.trigger_us + 3600000000 AND CAST(to_unixtime(with_timezone(s."started_at", 'UTC')) * 1000000 AS BIGINT) < e.trigger_us + 1209600000000 AND (s."duration_s" BETWEEN 600 AND 7200) THEN 1 END) AS "m_long_sessions"
+  FROM eligible AS e
+  JOIN "sessions" AS s ON s."account_id" = e.unit_id
+  WHERE CAST(to_unixtime(with_timezone(s."started_at", 'UTC')) * 1000000 AS BIGINT) >= e.trigger_us + 0 AND CAST(to_unixtime(with_timezone(s."started_at", 'UTC')) * 1000000 AS BIGINT) < e.trigger_us + 1209600000000
+  GROUP BY e.unit_id
+),
+-- One row per eligible unit; a unit without outcome rows counts as zero.
+unit_values AS (
+  SELECT
+    e.unit_id,
+    e.variant,
+    e.trigger_day,
+    (e.trigger_us + 129600000000 <= 1782864000000000) AS mature_36h,
+    (e.trigger_us + 604800000000 <= 1782864000000000) AS mature_7d,
+    (e.trigger_us + 1209600000000 <= 1782864000000000) AS mature_14d,
+    coalesce(p1."m_revenue_per_session__num", 0) AS "m_revenue_per_session__num",
+    coalesce(p1."m_revenue_per_session__num__nonfinite", 0) AS "m_revenue_per_session__num__nonfinite",
+    coalesce(p1."m_big_spender", 0) AS "m_big_spender",
+    coalesce(p1."m_big_spender__nonfinite", 0) AS "m_big_spender__nonfinite",
+    coalesce(p1."m_revenue", 0) AS "m_revenue",
+    coalesce(p1."m_revenue__nonfinite", 0) AS "m_revenue__nonfinite",
+    coalesce(p1."m_distinct_orders", 0) AS "m_distinct_orders",
+    coalesce(p2."m_revenue_per_session__den", 0) AS "m_revenue_per_session__den",
+    coalesce(p2."m_long_sessions", 0) AS "m_long_sessions"
+  FROM eligible AS e
+  LEFT JOIN "pass_orders" AS p1 ON p1.unit_id = e.unit_id
+  LEFT JOIN "pass_sessions" AS p2 ON p2.unit_id = e.unit_id
+),
+-- Winsorising caps: pooled quantiles over mature units of all variants.
+caps AS (
+  SELECT
+    (element_at(array_sort(array_agg(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__num" AS DOUBLE) END) FILTER (WHERE CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__num" AS DOUBLE) END IS NOT NULL)), CAST(floor((count(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__num" AS DOUBLE) END) - 1) * 0.99) AS BIGINT) + 1) + (element_at(array_sort(array_agg(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__num" AS DOUBLE) END) FILTER (WHERE CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__num" AS DOUBLE) END IS NOT NULL)), CAST(ceiling((count(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__num" AS DOUBLE) END) - 1) * 0.99) AS BIGINT) + 1) - element_at(array_sort(array_agg(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__num" AS DOUBLE) END) FILTER (WHERE CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__num" AS DOUBLE) END IS NOT NULL)), CAST(floor((count(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__num" AS DOUBLE) END) - 1) * 0.99) AS BIGINT) + 1)) * ((count(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__num" AS DOUBLE) END) - 1) * 0.99 - floor((count(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__num" AS DOUBLE) END) - 1) * 0.99))) AS "cap_revenue_per_session__num"
+  FROM unit_values AS u
+)
+SELECT
+  '70f84f6c6f917d36' AS spec_fingerprint,
+  u.variant AS variant,
+  count(*) AS units,
+  -- revenue_per_session (primary, ratio): per-unit sum of gross - coalesce(discount, 0), capped at the pooled 0.99 quantile over per-unit count of rows; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS "revenue_per_session__n",
+  avg(CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE) END) AS "revenue_per_session__num_mean",
+  avg(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE) END) AS "revenue_per_session__den_mean",
+  var_samp(CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE) END) AS "revenue_per_session__num_var",
+  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE) END) AS "revenue_per_session__den_var",
+  covar_samp(CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE) END, CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE) END) AS "revenue_per_session__cov",
+  sum(u."m_revenue_per_session__num__nonfinite") AS "revenue_per_session__nonfinite_rows",
+  -- big_spender (secondary, proportion): share of units whose sum of gross is above 100; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS "big_spender__n",
+  sum(u."m_big_spender__nonfinite") AS "big_spender__nonfinite_rows",
+  avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_big_spender" > 100 THEN 1.0 ELSE 0.0 END END) AS "big_spender__mean",
+  var_samp(CASE WHEN u.mature_14d THEN CASE WHEN u."m_big_spender" > 100 THEN 1.0 ELSE 0.0 END END) AS "big_spender__var",
+  -- revenue (secondary, mean): mean per unit of sum of gross, capped at 500; window [trigger + 0d, trigger + 7d), mature units only
+  count(CASE WHEN u.mature_7d THEN 1 END) AS "revenue__n",
+  sum(u."m_revenue__nonfinite") AS "revenue__nonfinite_rows",
+  avg(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE) END) AS "revenue__mean",
+  var_samp(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE) END) AS "revenue__var",
+  -- distinct_orders (mechanism, mean): mean per unit of distinct values of order_id where sku_count >= 1; window [trigger + 0d, trigger + 36h), mature units only
+  count(CASE WHEN u.mature_36h THEN 1 END) AS "distinct_orders__n",
+  avg(CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE) END) AS "distinct_orders__mean",
+  var_samp(CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE) END) AS "distinct_orders__var",
+  -- long_sessions (guard, mean): mean per unit of count of rows where duration_s BETWEEN 600 AND 7200; window [trigger + 1h, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS "long_sessions__n",
+  avg(CASE WHEN u.mature_14d THEN CAST(u."m_long_sessions" AS DOUBLE) END) AS "long_sessions__mean",
+  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_long_sessions" AS DOUBLE) END) AS "long_sessions__var"
+FROM unit_values AS u
+CROSS JOIN caps AS k
+GROUP BY u.variant
+ORDER BY u.variant
+;
+
+-- assay 0.1.0 health query for experiment ratio-caps (spec fingerprint 70f84f6c6f917d36)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
+-- Exposures are read in [2026-06-01T00:00:00Z, 2026-07-01T00:00:00Z); outcome windows must have ended by 2026-07-01T00:00:00Z.
+WITH
+-- Exposure rows of exposures inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x."account_id" AS unit_id,
+    CAST(x."arm" AS VARCHAR) AS variant,
+    CAST(to_unixtime(with_timezone(x."ts", 'UTC')) * 1000000 AS BIGINT) AS ts_us,
+    coalesce(x."page" IN ('cart', 'checkout'), FALSE) AS qualifies
+  FROM "exposures" AS x
+  WHERE x."account_id" IS NOT NULL AND x."ts" IS NOT NULL
+    AND CAST(to_unixtime(with_timezone(x."ts", 'UTC')) * 1000000 AS BIGINT) >= 1780272000000000 AND CAST(to_unixtime(with_timezone(x."ts", 'UTC')) * 1000000 AS BIGINT) < 1782864000000000
+),
+-- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+exposed_units AS (
+  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure (a row qualifies when: page IN ('cart', 'checkout')).
+triggers AS (
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
+  FROM (
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
+    FROM exposure_rows AS r
+    WHERE r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST(from_unixtime_nanos(t.trigger_us * 1000) AT TIME ZONE 'UTC' AS DATE) AS trigger_day,
+    (u.variants_seen > 1) AS is_crossover,
+    (t.variant NOT IN ('control', 'threshold_30', 'threshold_40')) AS is_unknown_variant
+  FROM triggers AS t
+  JOIN exposed_units AS u ON u.unit_id = t.unit_id
+),
+-- Exposure rows outside the analysis window, or without a unit or time.
+ignored_rows AS (
+  SELECT
+    count(CASE WHEN x."account_id" IS NULL THEN 1 END) AS null_unit,
+    count(CASE WHEN x."ts" IS NULL THEN 1 END) AS null_time,
+    count(CASE WHEN CAST(to_unixtime(with_timezone(x."ts", 'UTC')) * 1000000 AS BIGINT) < 1780272000000000 THEN 1 END) AS before_start,
+    count(CASE WHEN CAST(to_unixtime(with_timezone(x."ts", 'UTC')) * 1000000 AS BIGINT) >= 1782864000000000 THEN 1 END) AS after_end
+  FROM "exposures" AS x
+)
+SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
+  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(from_unixtime_nanos(ts_us * 1000) AT TIME ZONE 'UTC' AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
+  FROM exposure_rows
+  GROUP BY variant, CAST(from_unixtime_nanos(ts_us * 1000) AT TIME ZONE 'UTC' AS DATE)
+  UNION ALL
+  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  GROUP BY variant, trigger_day
+  UNION ALL
+  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM exposed_units AS u
+  WHERE NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)
+  UNION ALL
+  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_crossover
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_unknown_variant
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_crossover OR is_unknown_variant
+  GROUP BY variant
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
+  FROM ignored_rows
+) AS h
+ORDER BY h.kind, h.reason, h.variant, h.day
+;

@@ -1,0 +1,179 @@
+-- assay 0.1.0 per-variant statistics query for experiment timezone (spec fingerprint 30545d85e4254998)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Amsterdam.
+-- Exposures are read in [2026-02-28T23:00:00Z, 2026-03-31T22:00:00Z); outcome windows must have ended by 2026-03-31T22:00:00Z.
+WITH
+-- Exposure rows of sends inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x.`user id` AS unit_id,
+    CAST(x.`arm "v"` AS STRING) AS variant,
+    unix_micros(to_utc_timestamp(x.`sent at`, 'Europe/Amsterdam')) AS ts_us,
+    coalesce(x.`länd` = 'NL' OR x.`länd` = 'BE', FALSE) AS qualifies
+  FROM `mail`.`digest sends` AS x
+  WHERE x.`user id` IS NOT NULL AND x.`sent at` IS NOT NULL
+    AND unix_micros(to_utc_timestamp(x.`sent at`, 'Europe/Amsterdam')) >= 1772319600000000 AND unix_micros(to_utc_timestamp(x.`sent at`, 'Europe/Amsterdam')) < 1774994400000000
+),
+-- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+exposed_units AS (
+  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure (a row qualifies when: "länd" = 'NL' OR "länd" = 'BE').
+triggers AS (
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
+  FROM (
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
+    FROM exposure_rows AS r
+    WHERE r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST(from_utc_timestamp(timestamp_micros(t.trigger_us), 'Europe/Amsterdam') AS DATE) AS trigger_day,
+    (u.variants_seen > 1) AS is_crossover,
+    (t.variant NOT IN ('nine o\'clock', 'seven')) AS is_unknown_variant
+  FROM triggers AS t
+  JOIN exposed_units AS u ON u.unit_id = t.unit_id
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day
+  FROM cohort AS c
+  WHERE NOT c.is_crossover
+    AND NOT c.is_unknown_variant
+),
+-- One pass over opens for: m_opens_3d.
+`pass_opens` AS (
+  SELECT
+    e.unit_id,
+    -- m_opens_3d: count of rows where client <> 'proxy''s' in [trigger + 0d, trigger + 3d)
+    count(CASE WHEN unix_micros(to_utc_timestamp(s.`opened at`, 'Europe/Amsterdam')) >= e.trigger_us + 0 AND unix_micros(to_utc_timestamp(s.`opened at`, 'Europe/Amsterdam')) < e.trigger_us + 259200000000 AND (s.`client` <> 'proxy\'s') THEN 1 END) AS `m_opens_3d`
+  FROM eligible AS e
+  JOIN `mail`.`opens` AS s ON s.`user id` = e.unit_id
+  WHERE unix_micros(to_utc_timestamp(s.`opened at`, 'Europe/Amsterdam')) >= e.trigger_us + 0 AND unix_micros(to_utc_timestamp(s.`opened at`, 'Europe/Amsterdam')) < e.trigger_us + 259200000000
+  GROUP BY e.unit_id
+),
+-- One row per eligible unit; a unit without outcome rows counts as zero.
+unit_values AS (
+  SELECT
+    e.unit_id,
+    e.variant,
+    e.trigger_day,
+    (e.trigger_us + 259200000000 <= 1774994400000000) AS mature_3d,
+    coalesce(p1.`m_opens_3d`, 0) AS `m_opens_3d`
+  FROM eligible AS e
+  LEFT JOIN `pass_opens` AS p1 ON p1.unit_id = e.unit_id
+)
+SELECT
+  '30545d85e4254998' AS spec_fingerprint,
+  u.variant AS variant,
+  count(*) AS units,
+  -- opens_3d (primary, mean): mean per unit of count of rows where client <> 'proxy''s'; window [trigger + 0d, trigger + 3d), mature units only
+  count(CASE WHEN u.mature_3d THEN 1 END) AS `opens_3d__n`,
+  avg(CASE WHEN u.mature_3d THEN CAST(u.`m_opens_3d` AS DOUBLE) END) AS `opens_3d__mean`,
+  var_samp(CASE WHEN u.mature_3d THEN CAST(u.`m_opens_3d` AS DOUBLE) END) AS `opens_3d__var`
+FROM unit_values AS u
+GROUP BY u.variant
+ORDER BY u.variant
+;
+
+-- assay 0.1.0 health query for experiment timezone (spec fingerprint 30545d85e4254998)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Amsterdam.
+-- Exposures are read in [2026-02-28T23:00:00Z, 2026-03-31T22:00:00Z); outcome windows must have ended by 2026-03-31T22:00:00Z.
+WITH
+-- Exposure rows of sends inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x.`user id` AS unit_id,
+    CAST(x.`arm "v"` AS STRING) AS variant,
+    unix_micros(to_utc_timestamp(x.`sent at`, 'Europe/Amsterdam')) AS ts_us,
+    coalesce(x.`länd` = 'NL' OR x.`länd` = 'BE', FALSE) AS qualifies
+  FROM `mail`.`digest sends` AS x
+  WHERE x.`user id` IS NOT NULL AND x.`sent at` IS NOT NULL
+    AND unix_micros(to_utc_timestamp(x.`sent at`, 'Europe/Amsterdam')) >= 1772319600000000 AND unix_micros(to_utc_timestamp(x.`sent at`, 'Europe/Amsterdam')) < 1774994400000000
+),
+-- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+exposed_units AS (
+  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure (a row qualifies when: "länd" = 'NL' OR "länd" = 'BE').
+triggers AS (
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
+  FROM (
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
+    FROM exposure_rows AS r
+    WHERE r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST(from_utc_timestamp(timestamp_micros(t.trigger_us), 'Europe/Amsterdam') AS DATE) AS trigger_day,
+    (u.variants_seen > 1) AS is_crossover,
+    (t.variant NOT IN ('nine o\'clock', 'seven')) AS is_unknown_variant
+  FROM triggers AS t
+  JOIN exposed_units AS u ON u.unit_id = t.unit_id
+),
+-- Exposure rows outside the analysis window, or without a unit or time.
+ignored_rows AS (
+  SELECT
+    count(CASE WHEN x.`user id` IS NULL THEN 1 END) AS null_unit,
+    count(CASE WHEN x.`sent at` IS NULL THEN 1 END) AS null_time,
+    count(CASE WHEN unix_micros(to_utc_timestamp(x.`sent at`, 'Europe/Amsterdam')) < 1772319600000000 THEN 1 END) AS before_start,
+    count(CASE WHEN unix_micros(to_utc_timestamp(x.`sent at`, 'Europe/Amsterdam')) >= 1774994400000000 THEN 1 END) AS after_end
+  FROM `mail`.`digest sends` AS x
+)
+SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
+  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(from_utc_timestamp(timestamp_micros(ts_us), 'Europe/Amsterdam') AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
+  FROM exposure_rows
+  GROUP BY variant, CAST(from_utc_timestamp(timestamp_micros(ts_us), 'Europe/Amsterdam') AS DATE)
+  UNION ALL
+  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  GROUP BY variant, trigger_day
+  UNION ALL
+  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM exposed_units AS u
+  WHERE NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)
+  UNION ALL
+  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_crossover
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_unknown_variant
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_crossover OR is_unknown_variant
+  GROUP BY variant
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
+  FROM ignored_rows
+) AS h
+ORDER BY h.kind, h.reason, h.variant, h.day
+;
