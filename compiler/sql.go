@@ -165,6 +165,9 @@ func (pr *printer) cohort() {
 	pr.line(1, "FROM %s AS x", pr.from(src))
 	pr.line(1, "WHERE x.%s IS NOT NULL AND x.%s IS NOT NULL", pr.id(src.Unit), pr.id(src.Time))
 	pr.line(2, "AND %s >= %s AND %s < %s", pr.time(src, "x"), us(p.StartUS), pr.time(src, "x"), us(p.EndUS))
+	if pf := pr.prefilter(src, "x", 0, 0); pf != "" {
+		pr.line(2, "AND %s", pf)
+	}
 	pr.line(0, "),")
 
 	pr.line(0, "-- One row per exposed unit: how many variants it was seen in (more than one: crossover).")
@@ -377,6 +380,9 @@ func (pr *printer) rule(i int, r *metrics.Rule) {
 		pr.line(1, "JOIN %s AS s ON s.%s = t.unit_id", pr.from(src), pr.id(src.Unit))
 		pr.line(1, "WHERE %s >= %s", pr.time(src, "s"), plusUS("t.trigger_us", r.From.Micros))
 		pr.line(2, "AND %s < %s", pr.time(src, "s"), plusUS("t.trigger_us", r.To.Micros))
+		if pf := pr.prefilter(src, "s", r.From.Micros, r.To.Micros); pf != "" {
+			pr.line(2, "AND %s", pf)
+		}
 		pr.line(2, "AND coalesce(%s, FALSE)", filter)
 	case metrics.RuleAttribute:
 		pr.line(0, "-- Rule %s: eligible when the unit's attributes in %s at the trigger satisfy: %s.", oneLine(r.Name), oneLine(src.Name), oneLine(r.Filter.Text))
@@ -455,6 +461,25 @@ func (pr *printer) aggExpr(a *AggPlan, src *metrics.Source) string {
 
 func paren(s string) string { return "(" + s + ")" }
 
+// slack widens the static prefilter ranges by two days on each side, more
+// than any time-zone offset, so the prefilter is correct whether the
+// column holds naive wall-clock times in any zone or zoned instants, and
+// whatever the session's time zone.
+const slack = 2 * 86400e6
+
+// prefilter renders a static range test on src's time column that every
+// row the exact test can accept passes, or "" when the dialect cannot
+// write timestamp literals. from and to are offsets from the analysis
+// window's start and end.
+func (pr *printer) prefilter(src *metrics.Source, alias string, from, to int64) string {
+	tl, ok := pr.d.(dialects.TimeLiterals)
+	if !ok {
+		return ""
+	}
+	col := alias + "." + pr.id(src.Time)
+	return fmt.Sprintf("%s >= %s AND %s < %s", col, tl.TimeLiteral(pr.p.StartUS+from-slack), col, tl.TimeLiteral(pr.p.EndUS+to+slack))
+}
+
 // countsNonFinite reports whether rows of a are counted when their value
 // is NaN or infinite (and therefore left out of the sum).
 func countsNonFinite(a *AggPlan) bool { return a.Agg.Func == metrics.AggSum && a.Part != "x" }
@@ -509,6 +534,10 @@ func (pr *printer) passes() {
 		pr.line(1, "JOIN %s AS s ON s.%s = e.unit_id", pr.from(src), pr.id(src.Unit))
 		t := pr.time(src, "s")
 		pr.line(1, "WHERE %s >= %s AND %s < %s", t, plusUS("e.trigger_us", sp.From), t, plusUS("e.trigger_us", sp.To))
+		if pf := pr.prefilter(src, "s", sp.From, sp.To); pf != "" {
+			pr.line(2, "-- static range (widened by two days) so the engine can skip data early")
+			pr.line(2, "AND %s", pf)
+		}
 		pr.line(1, "GROUP BY e.unit_id")
 		pr.line(0, "),")
 	}

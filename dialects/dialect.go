@@ -49,6 +49,12 @@ type Dialect interface {
 	Quantile(x string, q float64) string
 	// Least is the smaller of two non-NULL values: `least(a, b)`.
 	Least(a, b string) string
+	// OneZero is 1 when the condition holds and 0 otherwise, typed so that
+	// avg and var_samp over it keep full precision: DuckDB
+	// `CASE WHEN cond THEN 1.0 ELSE 0.0 END`. (Engines that average exact
+	// decimals to their input's scale, such as Trino, Redshift and MySQL,
+	// need doubles here.)
+	OneZero(cond string) string
 	// Expr renders a checked user expression; col renders a column
 	// reference (already qualified and quoted).
 	Expr(n expr.Node, col func(name string) string) string
@@ -64,6 +70,17 @@ type Resplitter interface {
 	// the unit id, the split number and the salt: DuckDB
 	// `CAST(hash(CAST(u AS VARCHAR), s, 7) % 1000000 AS DOUBLE) / 1000000`.
 	Uniform(unit, split string, salt int64) string
+}
+
+// TimeLiterals is implemented by dialects that can write a timestamp
+// literal. The compiler uses it for a static, deliberately widened range
+// on every scan of an event source, which lets the engine skip data early
+// (filter pushdown); the exact, time-zone-proof comparisons stay in
+// integer microseconds.
+type TimeLiterals interface {
+	// TimeLiteral renders the UTC wall-clock time us (microseconds since
+	// the epoch) as a timestamp literal: DuckDB `TIMESTAMP '2026-03-02 00:00:00'`.
+	TimeLiteral(us int64) string
 }
 
 var registry = map[string]Dialect{}

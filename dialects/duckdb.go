@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"strconv"
 	"strings"
+	"time"
 
 	"github.com/assay-dev/assay/metrics/expr"
 )
@@ -87,6 +88,11 @@ func (DuckDB) Quantile(x string, q float64) string {
 	return "quantile_cont(" + x + ", " + strconv.FormatFloat(q, 'g', -1, 64) + ")"
 }
 
+// TimeLiteral implements TimeLiterals.
+func (DuckDB) TimeLiteral(us int64) string {
+	return "TIMESTAMP '" + time.UnixMicro(us).UTC().Format("2006-01-02 15:04:05.999999") + "'"
+}
+
 // Splits implements Resplitter.
 func (DuckDB) Splits(n int) string { return fmt.Sprintf("range(%d) AS z(split)", n) }
 
@@ -98,6 +104,10 @@ func (DuckDB) Uniform(unit, split string, salt int64) string {
 
 // Least implements Dialect.
 func (DuckDB) Least(a, b string) string { return "least(" + a + ", " + b + ")" }
+
+// OneZero implements Dialect. DuckDB averages the DECIMAL literals as
+// DOUBLE.
+func (DuckDB) OneZero(cond string) string { return "CASE WHEN " + cond + " THEN 1.0 ELSE 0.0 END" }
 
 // Expr implements Dialect.
 func (d DuckDB) Expr(n expr.Node, col func(string) string) string {

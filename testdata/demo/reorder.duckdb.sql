@@ -14,6 +14,7 @@ exposure_rows AS (
   FROM read_parquet('data/exposures.parquet') AS x
   WHERE x."customer_id" IS NOT NULL AND x."exposed_at" IS NOT NULL
     AND epoch_us(x."exposed_at") >= 1772409600000000 AND epoch_us(x."exposed_at") < 1776038400000000
+    AND x."exposed_at" >= TIMESTAMP '2026-02-28 00:00:00' AND x."exposed_at" < TIMESTAMP '2026-04-15 00:00:00'
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (
@@ -48,6 +49,7 @@ rule_1 AS (
   JOIN read_parquet('data/orders.parquet') AS s ON s."customer_id" = t.unit_id
   WHERE epoch_us(s."ordered_at") >= t.trigger_us - 5184000000000
     AND epoch_us(s."ordered_at") < t.trigger_us + 0
+    AND s."ordered_at" >= TIMESTAMP '2025-12-30 00:00:00' AND s."ordered_at" < TIMESTAMP '2026-04-15 00:00:00'
     AND coalesce(s."status" <> 'cancelled', FALSE)
 ),
 -- Every triggered unit with the reasons it may be excluded.
@@ -97,6 +99,8 @@ eligible AS (
   FROM eligible AS e
   JOIN read_parquet('data/orders.parquet') AS s ON s."customer_id" = e.unit_id
   WHERE epoch_us(s."ordered_at") >= e.trigger_us - 2419200000000 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000
+    -- static range (widened by two days) so the engine can skip data early
+    AND s."ordered_at" >= TIMESTAMP '2026-01-31 00:00:00' AND s."ordered_at" < TIMESTAMP '2026-04-29 00:00:00'
   GROUP BY e.unit_id
 ),
 -- One pass over taps for: m_shelf_taps.
@@ -108,6 +112,8 @@ eligible AS (
   FROM eligible AS e
   JOIN read_parquet('data/taps.parquet') AS s ON s."customer_id" = e.unit_id
   WHERE epoch_us(s."tapped_at") >= e.trigger_us + 0 AND epoch_us(s."tapped_at") < e.trigger_us + 1209600000000
+    -- static range (widened by two days) so the engine can skip data early
+    AND s."tapped_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."tapped_at" < TIMESTAMP '2026-04-29 00:00:00'
   GROUP BY e.unit_id
 ),
 -- One pass over support for: m_support_contacts.
@@ -119,6 +125,8 @@ eligible AS (
   FROM eligible AS e
   JOIN read_parquet('data/support.parquet') AS s ON s."customer_id" = e.unit_id
   WHERE epoch_us(s."contacted_at") >= e.trigger_us + 0 AND epoch_us(s."contacted_at") < e.trigger_us + 1209600000000
+    -- static range (widened by two days) so the engine can skip data early
+    AND s."contacted_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."contacted_at" < TIMESTAMP '2026-04-29 00:00:00'
   GROUP BY e.unit_id
 ),
 -- One row per eligible unit; a unit without outcome rows counts as zero.
@@ -207,6 +215,7 @@ exposure_rows AS (
   FROM read_parquet('data/exposures.parquet') AS x
   WHERE x."customer_id" IS NOT NULL AND x."exposed_at" IS NOT NULL
     AND epoch_us(x."exposed_at") >= 1772409600000000 AND epoch_us(x."exposed_at") < 1776038400000000
+    AND x."exposed_at" >= TIMESTAMP '2026-02-28 00:00:00' AND x."exposed_at" < TIMESTAMP '2026-04-15 00:00:00'
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (
@@ -241,6 +250,7 @@ rule_1 AS (
   JOIN read_parquet('data/orders.parquet') AS s ON s."customer_id" = t.unit_id
   WHERE epoch_us(s."ordered_at") >= t.trigger_us - 5184000000000
     AND epoch_us(s."ordered_at") < t.trigger_us + 0
+    AND s."ordered_at" >= TIMESTAMP '2025-12-30 00:00:00' AND s."ordered_at" < TIMESTAMP '2026-04-15 00:00:00'
     AND coalesce(s."status" <> 'cancelled', FALSE)
 ),
 -- Every triggered unit with the reasons it may be excluded.

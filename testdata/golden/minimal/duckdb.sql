@@ -12,6 +12,7 @@ exposure_rows AS (
   FROM "analytics"."assignments" AS x
   WHERE x."visitor_id" IS NOT NULL AND x."assigned_at" IS NOT NULL
     AND epoch_us(x."assigned_at") >= 1777593600000000 AND epoch_us(x."assigned_at") < 1780012800000000
+    AND x."assigned_at" >= TIMESTAMP '2026-04-29 00:00:00' AND x."assigned_at" < TIMESTAMP '2026-05-31 00:00:00'
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (
@@ -57,6 +58,8 @@ eligible AS (
   FROM eligible AS e
   JOIN "analytics"."checkouts" AS s ON s."visitor_id" = e.unit_id
   WHERE epoch_us(s."completed_at") >= e.trigger_us + 0 AND epoch_us(s."completed_at") < e.trigger_us + 604800000000
+    -- static range (widened by two days) so the engine can skip data early
+    AND s."completed_at" >= TIMESTAMP '2026-04-29 00:00:00' AND s."completed_at" < TIMESTAMP '2026-06-07 00:00:00'
   GROUP BY e.unit_id
 ),
 -- One row per eligible unit; a unit without outcome rows counts as zero.
@@ -97,6 +100,7 @@ exposure_rows AS (
   FROM "analytics"."assignments" AS x
   WHERE x."visitor_id" IS NOT NULL AND x."assigned_at" IS NOT NULL
     AND epoch_us(x."assigned_at") >= 1777593600000000 AND epoch_us(x."assigned_at") < 1780012800000000
+    AND x."assigned_at" >= TIMESTAMP '2026-04-29 00:00:00' AND x."assigned_at" < TIMESTAMP '2026-05-31 00:00:00'
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (

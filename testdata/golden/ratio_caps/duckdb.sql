@@ -12,6 +12,7 @@ exposure_rows AS (
   FROM "exposures" AS x
   WHERE x."account_id" IS NOT NULL AND x."ts" IS NOT NULL
     AND epoch_us(x."ts") >= 1780272000000000 AND epoch_us(x."ts") < 1782864000000000
+    AND x."ts" >= TIMESTAMP '2026-05-30 00:00:00' AND x."ts" < TIMESTAMP '2026-07-03 00:00:00'
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (
@@ -66,6 +67,8 @@ eligible AS (
   FROM eligible AS e
   JOIN "orders" AS s ON s."account_id" = e.unit_id
   WHERE epoch_us(s."created_at") >= e.trigger_us + 0 AND epoch_us(s."created_at") < e.trigger_us + 1209600000000
+    -- static range (widened by two days) so the engine can skip data early
+    AND s."created_at" >= TIMESTAMP '2026-05-30 00:00:00' AND s."created_at" < TIMESTAMP '2026-07-17 00:00:00'
   GROUP BY e.unit_id
 ),
 -- One pass over sessions for: m_revenue_per_session__den, m_long_sessions.
@@ -79,6 +82,8 @@ eligible AS (
   FROM eligible AS e
   JOIN "sessions" AS s ON s."account_id" = e.unit_id
   WHERE epoch_us(s."started_at") >= e.trigger_us + 0 AND epoch_us(s."started_at") < e.trigger_us + 1209600000000
+    -- static range (widened by two days) so the engine can skip data early
+    AND s."started_at" >= TIMESTAMP '2026-05-30 00:00:00' AND s."started_at" < TIMESTAMP '2026-07-17 00:00:00'
   GROUP BY e.unit_id
 ),
 -- One row per eligible unit; a unit without outcome rows counts as zero.
@@ -159,6 +164,7 @@ exposure_rows AS (
   FROM "exposures" AS x
   WHERE x."account_id" IS NOT NULL AND x."ts" IS NOT NULL
     AND epoch_us(x."ts") >= 1780272000000000 AND epoch_us(x."ts") < 1782864000000000
+    AND x."ts" >= TIMESTAMP '2026-05-30 00:00:00' AND x."ts" < TIMESTAMP '2026-07-03 00:00:00'
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (

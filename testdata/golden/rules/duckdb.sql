@@ -14,6 +14,7 @@ exposure_rows AS (
   FROM read_csv('flags.csv') AS x
   WHERE x."account" IS NOT NULL AND x."seen_at" IS NOT NULL
     AND epoch_us(x."seen_at") >= 1769904000000000 AND epoch_us(x."seen_at") < 1772323200000000
+    AND x."seen_at" >= TIMESTAMP '2026-01-30 00:00:00' AND x."seen_at" < TIMESTAMP '2026-03-03 00:00:00'
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (
@@ -48,6 +49,7 @@ rule_1 AS (
   JOIN read_parquet('logins.parquet') AS s ON s."account" = t.unit_id
   WHERE epoch_us(s."at") >= t.trigger_us - 2592000000000
     AND epoch_us(s."at") < t.trigger_us + 0
+    AND s."at" >= TIMESTAMP '2025-12-31 00:00:00' AND s."at" < TIMESTAMP '2026-03-03 00:00:00'
     AND coalesce(TRUE, FALSE)
 ),
 -- Rule no_open_ticket: eligible when the unit has no row in tickets in [trigger - 7d, trigger - 1h) where severity >= 3.
@@ -57,6 +59,7 @@ rule_2 AS (
   JOIN read_parquet('tickets.parquet') AS s ON s."account" = t.unit_id
   WHERE epoch_us(s."opened_at") >= t.trigger_us - 604800000000
     AND epoch_us(s."opened_at") < t.trigger_us - 3600000000
+    AND s."opened_at" >= TIMESTAMP '2026-01-23 00:00:00' AND s."opened_at" < TIMESTAMP '2026-03-02 23:00:00'
     AND coalesce(s."severity" >= 3, FALSE)
 ),
 -- Rule not_internal: eligible when the unit's attributes in accounts at the trigger satisfy: country <> 'XX' AND tier IS NOT NULL.
@@ -121,6 +124,8 @@ eligible AS (
   FROM eligible AS e
   JOIN read_parquet('logins.parquet') AS s ON s."account" = e.unit_id
   WHERE epoch_us(s."at") >= e.trigger_us + 0 AND epoch_us(s."at") < e.trigger_us + 2592000000000
+    -- static range (widened by two days) so the engine can skip data early
+    AND s."at" >= TIMESTAMP '2026-01-30 00:00:00' AND s."at" < TIMESTAMP '2026-04-02 00:00:00'
   GROUP BY e.unit_id
 ),
 -- One pass over tickets for: m_tickets_30d.
@@ -132,6 +137,8 @@ eligible AS (
   FROM eligible AS e
   JOIN read_parquet('tickets.parquet') AS s ON s."account" = e.unit_id
   WHERE epoch_us(s."opened_at") >= e.trigger_us + 0 AND epoch_us(s."opened_at") < e.trigger_us + 2592000000000
+    -- static range (widened by two days) so the engine can skip data early
+    AND s."opened_at" >= TIMESTAMP '2026-01-30 00:00:00' AND s."opened_at" < TIMESTAMP '2026-04-02 00:00:00'
   GROUP BY e.unit_id
 ),
 -- One row per eligible unit; a unit without outcome rows counts as zero.
@@ -182,6 +189,7 @@ exposure_rows AS (
   FROM read_csv('flags.csv') AS x
   WHERE x."account" IS NOT NULL AND x."seen_at" IS NOT NULL
     AND epoch_us(x."seen_at") >= 1769904000000000 AND epoch_us(x."seen_at") < 1772323200000000
+    AND x."seen_at" >= TIMESTAMP '2026-01-30 00:00:00' AND x."seen_at" < TIMESTAMP '2026-03-03 00:00:00'
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (
@@ -216,6 +224,7 @@ rule_1 AS (
   JOIN read_parquet('logins.parquet') AS s ON s."account" = t.unit_id
   WHERE epoch_us(s."at") >= t.trigger_us - 2592000000000
     AND epoch_us(s."at") < t.trigger_us + 0
+    AND s."at" >= TIMESTAMP '2025-12-31 00:00:00' AND s."at" < TIMESTAMP '2026-03-03 00:00:00'
     AND coalesce(TRUE, FALSE)
 ),
 -- Rule no_open_ticket: eligible when the unit has no row in tickets in [trigger - 7d, trigger - 1h) where severity >= 3.
@@ -225,6 +234,7 @@ rule_2 AS (
   JOIN read_parquet('tickets.parquet') AS s ON s."account" = t.unit_id
   WHERE epoch_us(s."opened_at") >= t.trigger_us - 604800000000
     AND epoch_us(s."opened_at") < t.trigger_us - 3600000000
+    AND s."opened_at" >= TIMESTAMP '2026-01-23 00:00:00' AND s."opened_at" < TIMESTAMP '2026-03-02 23:00:00'
     AND coalesce(s."severity" >= 3, FALSE)
 ),
 -- Rule not_internal: eligible when the unit's attributes in accounts at the trigger satisfy: country <> 'XX' AND tier IS NOT NULL.

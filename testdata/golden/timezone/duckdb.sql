@@ -12,6 +12,7 @@ exposure_rows AS (
   FROM "mail"."""digest sends""" AS x
   WHERE x."user id" IS NOT NULL AND x."sent at" IS NOT NULL
     AND CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END >= 1772319600000000 AND CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END < 1774994400000000
+    AND x."sent at" >= TIMESTAMP '2026-02-26 23:00:00' AND x."sent at" < TIMESTAMP '2026-04-02 22:00:00'
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (
@@ -57,6 +58,8 @@ eligible AS (
   FROM eligible AS e
   JOIN "mail"."opens" AS s ON s."user id" = e.unit_id
   WHERE CASE WHEN typeof(s."opened at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(s."opened at") ELSE epoch_us(timezone('Europe/Amsterdam', s."opened at")) END >= e.trigger_us + 0 AND CASE WHEN typeof(s."opened at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(s."opened at") ELSE epoch_us(timezone('Europe/Amsterdam', s."opened at")) END < e.trigger_us + 259200000000
+    -- static range (widened by two days) so the engine can skip data early
+    AND s."opened at" >= TIMESTAMP '2026-02-26 23:00:00' AND s."opened at" < TIMESTAMP '2026-04-05 22:00:00'
   GROUP BY e.unit_id
 ),
 -- One row per eligible unit; a unit without outcome rows counts as zero.
@@ -97,6 +100,7 @@ exposure_rows AS (
   FROM "mail"."""digest sends""" AS x
   WHERE x."user id" IS NOT NULL AND x."sent at" IS NOT NULL
     AND CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END >= 1772319600000000 AND CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END < 1774994400000000
+    AND x."sent at" >= TIMESTAMP '2026-02-26 23:00:00' AND x."sent at" < TIMESTAMP '2026-04-02 22:00:00'
 ),
 -- One row per exposed unit: how many variants it was seen in (more than one: crossover).
 exposed_units AS (
