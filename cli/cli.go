@@ -20,6 +20,8 @@ const (
 	ExitEngine = 2 // the database could not be opened or a query failed
 	ExitSRM    = 4 // sample-ratio mismatch alarm
 	ExitHarm   = 5 // a guard metric shows harm (only with --fail-on-harm)
+	// ExitInterrupted is the conventional code for a run stopped by SIGINT.
+	ExitInterrupted = 130
 )
 
 const usage = `assay compiles experiment metric definitions into SQL and analyses the results.
@@ -27,15 +29,17 @@ const usage = `assay compiles experiment metric definitions into SQL and analyse
 Usage:
   assay check SPEC.toml              validate a spec; print every problem
   assay compile [flags] SPEC.toml    print the SQL for a spec
-  assay run [flags] SPEC.toml        run the SQL on DuckDB and print the analysis
+  assay run [flags] SPEC.toml        run the SQL on DuckDB (or --dsn PostgreSQL/MySQL) and print the analysis
+  assay analyze SPEC.toml --aggregates FILE
+                                     analyse a result set your own pipeline exported (CSV or JSON)
   assay calibrate [flags] SPEC.toml  re-split units at random many times (A/A) and
                                      report each metric's false-positive rate
   assay version                      print the version
 
 Run 'assay COMMAND --help' for a command's flags.
 
-Exit codes: 0 ok, 1 input error, 2 engine error, 4 sample-ratio mismatch,
-5 guard harm (with --fail-on-harm).
+Exit codes: 0 ok, 1 input error, 2 engine error, 3 stale SQL (compile --check),
+4 sample-ratio mismatch, 5 guard harm (with --fail-on-harm), 130 interrupted.
 `
 
 // Run runs the assay command line with args (without the program name).
@@ -63,6 +67,8 @@ func Run(args []string, stdin io.Reader, stdout, stderr io.Writer) (code int) {
 		return cmdCompile(args[1:], stdout, stderr)
 	case "run":
 		return cmdRun(args[1:], stdout, stderr)
+	case "analyze":
+		return cmdAnalyze(args[1:], stdout, stderr)
 	case "calibrate":
 		return cmdCalibrate(args[1:], stdout, stderr)
 	}

@@ -98,7 +98,7 @@ func (pr *printer) from(src *metrics.Source) string {
 		}
 		return f
 	}
-	return pr.d.Table(strings.Split(src.Table, "."))
+	return pr.d.Table(src.TableParts)
 }
 
 func (pr *printer) col(alias string) func(string) string {
@@ -599,7 +599,7 @@ func (pr *printer) covValue(mp *MetricPlan) string {
 	c := mp.M.Covariate
 	v := "u." + pr.id(mp.Cov.Col)
 	if c.Indicator {
-		return fmt.Sprintf("CASE WHEN u.%s THEN CASE WHEN %s > %s THEN 1.0 ELSE 0.0 END END", mp.Mature, v, strconv.FormatFloat(c.Above, 'g', -1, 64))
+		return fmt.Sprintf("CASE WHEN u.%s THEN %s END", mp.Mature, pr.d.OneZero(v+" > "+strconv.FormatFloat(c.Above, 'g', -1, 64)))
 	}
 	return "CASE WHEN u." + mp.Mature + " THEN " + pr.d.Double(v) + " END"
 }
@@ -614,7 +614,7 @@ func covRule(mp *MetricPlan) string {
 }
 
 func (pr *printer) indicator(mp *MetricPlan) string {
-	return fmt.Sprintf("CASE WHEN u.%s THEN CASE WHEN u.%s > %s THEN 1.0 ELSE 0.0 END END", mp.Mature, pr.id(mp.Value.Col), strconv.FormatFloat(mp.M.Above, 'g', -1, 64))
+	return fmt.Sprintf("CASE WHEN u.%s THEN %s END", mp.Mature, pr.d.OneZero("u."+pr.id(mp.Value.Col)+" > "+strconv.FormatFloat(mp.M.Above, 'g', -1, 64)))
 }
 
 func (pr *printer) main() (string, error) {

@@ -130,6 +130,10 @@ func (s duckStyle) Func(name string, args []string) string {
 		name = "length" // character length in DuckDB
 	case "power":
 		name = "pow"
+	case "concat":
+		// DuckDB's concat skips NULLs; || is NULL when any part is, as the
+		// allow-list promises.
+		return "(" + strings.Join(args, " || ") + ")"
 	}
 	return name + "(" + strings.Join(args, ", ") + ")"
 }

@@ -95,7 +95,7 @@ func sourceRelation(spec *metrics.Spec, src *metrics.Source, d dialects.Dialect)
 		}
 		return f, fmt.Sprintf("file %q", src.File), at
 	}
-	return d.Table(strings.Split(src.Table, ".")), fmt.Sprintf("table `%s`", src.Table), at
+	return d.Table(src.TableParts), fmt.Sprintf("table `%s`", src.Table), at
 }
 
 // rangeOr returns the spec range of the key path, or def.
@@ -165,7 +165,7 @@ func listTables(ctx context.Context, db *sql.DB) []catalogTable {
 var systemSchemas = map[string]bool{"information_schema": true, "pg_catalog": true, "mysql": true, "performance_schema": true, "sys": true}
 
 func missingTable(src *metrics.Source, what string, at metrics.Range, tables []catalogTable, err error) metrics.Diagnostic {
-	parts := strings.Split(src.Table, ".")
+	parts := src.TableParts
 	last := parts[len(parts)-1]
 	var names []string
 	exists := false

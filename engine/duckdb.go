@@ -78,5 +78,6 @@ func cleanDuckErr(err error) error {
 	return err
 }
 
-// CleanError returns a short, user-facing form of an engine error.
-func CleanError(err error) error { return cleanDuckErr(err) }
+// CleanError returns a short, user-facing form of an engine error, with
+// the passwords of opened connection strings removed.
+func CleanError(err error) error { return Redact(cleanDuckErr(err)) }

@@ -123,6 +123,13 @@ func readHealth(ctx context.Context, db *sql.DB, q string) ([]HealthRow, error) 
 		}
 		out = append(out, r)
 	}
+	sortHealth(out)
+	return out, rs.Err()
+}
+
+// sortHealth puts health rows in a fixed order: the engines disagree on
+// where NULLs sort.
+func sortHealth(out []HealthRow) {
 	sort.SliceStable(out, func(i, j int) bool {
 		a, b := out[i], out[j]
 		if a.Kind != b.Kind {
@@ -136,7 +143,6 @@ func readHealth(ctx context.Context, db *sql.DB, q string) ([]HealthRow, error) 
 		}
 		return a.Day < b.Day
 	})
-	return out, rs.Err()
 }
 
 func text(v any) string {

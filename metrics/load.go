@@ -672,12 +672,16 @@ func (l *loader) source(name string, t *table) *Source {
 			l.errAt(t.path, CodeSource, "set table = \"schema.table\" or file = \"path/to/data.parquet\"", "source `%s` needs `table` or `file`", name)
 		}
 	case hasT:
-		for _, part := range strings.Split(tbl, ".") {
+		parts, err := SplitTableName(tbl)
+		if err != nil {
+			l.errAt(t.p("table"), CodeIdent, "write schema.table; quote a part that holds dots or spaces: schema.\"my table\"", "table name %q: %v", tbl, err)
+		}
+		for _, part := range parts {
 			if !l.ident(t.p("table"), part, "table name part", false) {
 				break
 			}
 		}
-		src.Table = tbl
+		src.Table, src.TableParts = tbl, parts
 	case hasF:
 		if strings.ContainsRune(file, 0) || strings.TrimSpace(file) == "" {
 			l.errAt(t.p("file"), CodeIdent, "", "file path must be non-empty and without NUL bytes")
@@ -1132,6 +1136,58 @@ func (l *loader) segment(name string, t *table, ref refFunc) *Segment {
 		}
 	}
 	return seg
+}
+
+// SplitTableName splits a qualified table name at dots. A part that starts
+// with a double quote runs to the matching closing quote and may hold dots,
+// spaces or doubled quotes ("a""b" is a"b); other parts are taken as
+// written, quotes included.
+func SplitTableName(name string) ([]string, error) {
+	var parts []string
+	i := 0
+	for {
+		if i < len(name) && name[i] == '"' {
+			var b strings.Builder
+			j := i + 1
+			closed := false
+			for j < len(name) {
+				if name[j] == '"' {
+					if j+1 < len(name) && name[j+1] == '"' {
+						b.WriteByte('"')
+						j += 2
+						continue
+					}
+					closed = true
+					j++
+					break
+				}
+				b.WriteByte(name[j])
+				j++
+			}
+			if !closed {
+				return parts, errors.New("unclosed double quote")
+			}
+			parts = append(parts, b.String())
+			i = j
+		} else {
+			j := strings.IndexByte(name[i:], '.')
+			if j < 0 {
+				j = len(name) - i
+			}
+			parts = append(parts, name[i:i+j])
+			i += j
+		}
+		if i == len(name) {
+			return parts, nil
+		}
+		if name[i] != '.' {
+			return parts, errors.New("expected a dot after a quoted part")
+		}
+		i++
+		if i == len(name) {
+			return append(parts, ""), nil
+		}
+	}
 }
 
 // ParseDuration reads an offset: an optional sign, an integer and a unit

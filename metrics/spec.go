@@ -44,14 +44,15 @@ type Variant struct {
 
 // Source is a table, view or file the SQL reads from.
 type Source struct {
-	Name    string
-	Table   string // qualified name parts joined by '.', or ""
-	File    string // file path (DuckDB reads it directly), or ""
-	Unit    string // unit id column
-	Time    string // event time column, "" for a static attribute source
-	Static  bool   // attribute values do not change over time
-	Columns []string
-	At      Range
+	Name       string
+	Table      string   // the qualified name as written, or ""
+	TableParts []string // its parts, split at dots outside double quotes and unquoted
+	File       string   // file path (DuckDB reads it directly), or ""
+	Unit       string   // unit id column
+	Time       string   // event time column, "" for a static attribute source
+	Static     bool     // attribute values do not change over time
+	Columns    []string
+	At         Range
 }
 
 // IsEvent reports whether rows of the source carry their own timestamps.

@@ -147,20 +147,20 @@ type Daily struct {
 
 // MetricInfo is one metric's per-variant values and comparisons.
 type MetricInfo struct {
-	Name        string       `json:"name"`
-	Label       string       `json:"label,omitempty"`
-	Role        string       `json:"role"`
-	Kind        string       `json:"kind"`
-	Window      [2]string    `json:"window"`
-	Rule        string       `json:"rule"`
-	Harmful     string       `json:"harmful,omitempty"`
-	Margin      *float64     `json:"margin,omitempty"`
-	Covariate   *CovInfo     `json:"covariate,omitempty"`
+	Name      string    `json:"name"`
+	Label     string    `json:"label,omitempty"`
+	Role      string    `json:"role"`
+	Kind      string    `json:"kind"`
+	Window    [2]string `json:"window"`
+	Rule      string    `json:"rule"`
+	Harmful   string    `json:"harmful,omitempty"`
+	Margin    *float64  `json:"margin,omitempty"`
+	Covariate *CovInfo  `json:"covariate,omitempty"`
 	// NonFiniteRows counts outcome rows whose value was NaN or infinite;
 	// they are left out of the sums.
-	NonFiniteRows int64 `json:"nonfinite_rows"`
-	Variants    []VariantVal `json:"variants"`
-	Comparisons []Compare    `json:"comparisons"`
+	NonFiniteRows int64        `json:"nonfinite_rows"`
+	Variants      []VariantVal `json:"variants"`
+	Comparisons   []Compare    `json:"comparisons"`
 }
 
 // CovInfo describes a metric's CUPED covariate.

@@ -124,8 +124,8 @@ SELECT
   -- big_spender (secondary, proportion): share of units whose sum of gross is above 100; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "big_spender__n",
   sum(u."m_big_spender__nonfinite") AS "big_spender__nonfinite_rows",
-  avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_big_spender" > 100 THEN 1.0 ELSE 0.0 END END) AS "big_spender__mean",
-  VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u."m_big_spender" > 100 THEN 1.0 ELSE 0.0 END END) AS "big_spender__var",
+  avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_big_spender" > 100 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "big_spender__mean",
+  VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u."m_big_spender" > 100 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "big_spender__var",
   -- revenue (secondary, mean): mean per unit of sum of gross, capped at 500; window [trigger + 0d, trigger + 7d), mature units only
   count(CASE WHEN u.mature_7d THEN 1 END) AS "revenue__n",
   sum(u."m_revenue__nonfinite") AS "revenue__nonfinite_rows",

@@ -9,7 +9,7 @@ exposure_rows AS (
     CAST(x."arm ""v""" AS VARCHAR) AS variant,
     CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END AS ts_us,
     coalesce(x."länd" = 'NL' OR x."länd" = 'BE', FALSE) AS qualifies
-  FROM "mail"."""digest sends""" AS x
+  FROM "mail"."digest sends" AS x
   WHERE x."user id" IS NOT NULL AND x."sent at" IS NOT NULL
     AND CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END >= 1772319600000000 AND CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END < 1774994400000000
     AND x."sent at" >= TIMESTAMP '2026-02-26 23:00:00' AND x."sent at" < TIMESTAMP '2026-04-02 22:00:00'
@@ -97,7 +97,7 @@ exposure_rows AS (
     CAST(x."arm ""v""" AS VARCHAR) AS variant,
     CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END AS ts_us,
     coalesce(x."länd" = 'NL' OR x."länd" = 'BE', FALSE) AS qualifies
-  FROM "mail"."""digest sends""" AS x
+  FROM "mail"."digest sends" AS x
   WHERE x."user id" IS NOT NULL AND x."sent at" IS NOT NULL
     AND CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END >= 1772319600000000 AND CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END < 1774994400000000
     AND x."sent at" >= TIMESTAMP '2026-02-26 23:00:00' AND x."sent at" < TIMESTAMP '2026-04-02 22:00:00'
@@ -137,7 +137,7 @@ ignored_rows AS (
     count(CASE WHEN x."sent at" IS NULL THEN 1 END) AS null_time,
     count(CASE WHEN CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END < 1772319600000000 THEN 1 END) AS before_start,
     count(CASE WHEN CASE WHEN typeof(x."sent at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."sent at") ELSE epoch_us(timezone('Europe/Amsterdam', x."sent at")) END >= 1774994400000000 THEN 1 END) AS after_end
-  FROM "mail"."""digest sends""" AS x
+  FROM "mail"."digest sends" AS x
 )
 SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(timezone('Europe/Amsterdam', timezone('UTC', make_timestamp(ts_us))) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
