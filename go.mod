@@ -48,3 +48,6 @@ require (
 	golang.org/x/xerrors v0.0.0-20240903120638-7835f813f4da // indirect
 	gopkg.in/natefinch/lumberjack.v2 v2.2.1 // indirect
 )
+
+// go-spew reaches the build only through a dependency's test helpers; use its tagged release.
+replace github.com/davecgh/go-spew => github.com/davecgh/go-spew v1.1.1
