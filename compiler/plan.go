@@ -44,10 +44,10 @@ type Plan struct {
 	AsOfUS      int64 // outcome windows must end at or before AsOfUS
 	TZ          string
 	Variants    []string
-	Segments    []*metrics.Segment // segments used as grouping keys or carried on the trigger
+	Segments    []*metrics.Segment // segments the query groups by, carried from the trigger
 	GroupBy     []GroupKey
 	Rules       []*metrics.Rule
-	Attrs       []*metrics.Source // attribute sources joined at the trigger
+	Attrs       []*metrics.Source // attribute sources of grouped segments, joined at the trigger
 	Sources     []*SourcePass     // one pass per outcome source
 	Metrics     []*MetricPlan
 	MatureEnds  []int64 // distinct window ends, for maturity flags
@@ -123,15 +123,6 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 			p.Attrs = append(p.Attrs, src)
 		}
 	}
-	for _, r := range s.Rules {
-		if r.Kind == metrics.RuleAttribute {
-			addAttr(r.Source)
-		}
-	}
-	for _, seg := range s.Segments {
-		p.Segments = append(p.Segments, seg)
-		addAttr(seg.Source)
-	}
 	for _, g := range opt.GroupBy {
 		if g == KeyTriggerDay {
 			p.GroupBy = append(p.GroupBy, GroupKey{Name: g, Day: true})
@@ -151,7 +142,11 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 			ds = append(ds, metrics.Diagnostic{Code: metrics.CodeValue, Summary: fmt.Sprintf("cannot group by %q: not a segment of this spec", g), Hint: fmt.Sprintf("known keys: %v", names), Subject: metrics.Range{File: s.File}})
 			continue
 		}
+		// Only segments the query groups by are carried through it, so an
+		// ungrouped query does no segment work.
 		p.GroupBy = append(p.GroupBy, GroupKey{Name: "seg_" + found.Name, Segment: found})
+		p.Segments = append(p.Segments, found)
+		addAttr(found.Source)
 	}
 
 	passes := map[*metrics.Source]*SourcePass{}

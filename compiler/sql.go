@@ -440,6 +440,28 @@ func (pr *printer) eligible() {
 	pr.line(0, "),")
 }
 
+// outcomeSources lists the event sources other than the exposure source
+// that metrics or history rules read, in plan order.
+func (pr *printer) outcomeSources() []*metrics.Source {
+	seen := map[*metrics.Source]bool{pr.p.Spec.Exposure.Source: true}
+	var out []*metrics.Source
+	add := func(s *metrics.Source) {
+		if s != nil && s.IsEvent() && !seen[s] {
+			seen[s] = true
+			out = append(out, s)
+		}
+	}
+	for _, sp := range pr.p.Sources {
+		add(sp.Source)
+	}
+	for _, r := range pr.p.Rules {
+		if r.Kind == metrics.RuleHistory {
+			add(r.Source)
+		}
+	}
+	return out
+}
+
 func (pr *printer) aggExpr(a *AggPlan, src *metrics.Source) string {
 	t := pr.time(src, "s")
 	cond := fmt.Sprintf("%s >= %s AND %s < %s", t, plusUS("e.trigger_us", a.From.Micros), t, plusUS("e.trigger_us", a.To.Micros))
@@ -593,6 +615,68 @@ func (pr *printer) value(mp *MetricPlan, a *AggPlan) string {
 	return "CASE WHEN u." + mp.Mature + " THEN " + pr.d.Double(v) + " END"
 }
 
+type centre struct{ name, expr string }
+
+// centres lists the per-unit values whose pooled mean is subtracted before
+// the final aggregates: every mean, ratio part and covariate, but not 0/1
+// indicators. Shifting by a constant leaves variances and covariances
+// unchanged, Var(x − c) = Var(x), and keeps the engine's partial sums
+// small, so the result does not depend on how the engine splits and merges
+// the work (Chan, Golub & LeVeque 1983, "Algorithms for computing the
+// sample variance: analysis and recommendations", The American
+// Statistician 37, on shifted data).
+func (pr *printer) centres() []centre {
+	var out []centre
+	for _, mp := range pr.p.Metrics {
+		for _, a := range []*AggPlan{mp.Value, mp.Num, mp.Den, mp.Cov} {
+			if a == nil || (a == mp.Value && mp.M.Kind == metrics.KindProportion) || (a == mp.Cov && mp.M.Covariate.Indicator) {
+				continue
+			}
+			out = append(out, centre{name: "c_" + strings.TrimPrefix(a.Col, "m_"), expr: pr.rawValue(mp, a)})
+		}
+	}
+	return out
+}
+
+// rawValue is a's per-unit value as aggregated, before centring.
+func (pr *printer) rawValue(mp *MetricPlan, a *AggPlan) string {
+	if a == mp.Cov {
+		return pr.covValue(mp)
+	}
+	return pr.value(mp, a)
+}
+
+// centred renders a's value minus its pooled centre (or the 0/1
+// indicator of a proportion covariate, which is not centred).
+func (pr *printer) centred(a *AggPlan) string {
+	mp := pr.metricOf(a)
+	if a == mp.Cov && mp.M.Covariate.Indicator {
+		return pr.covValue(mp)
+	}
+	return "(" + pr.rawValue(mp, a) + " - c0." + pr.id("c_"+strings.TrimPrefix(a.Col, "m_")) + ")"
+}
+
+// mean renders the mean of a's value as centre + mean of the centred
+// value; a group whose values are all equal gets that value exactly (so an
+// all-zero baseline is exactly zero).
+func (pr *printer) mean(a *AggPlan) string {
+	mp := pr.metricOf(a)
+	if a == mp.Cov && mp.M.Covariate.Indicator {
+		return "avg(" + pr.covValue(mp) + ")"
+	}
+	raw := pr.rawValue(mp, a)
+	return "CASE WHEN min(" + raw + ") = max(" + raw + ") THEN min(" + raw + ") ELSE min(c0." + pr.id("c_"+strings.TrimPrefix(a.Col, "m_")) + ") + avg(" + pr.centred(a) + ") END"
+}
+
+func (pr *printer) metricOf(a *AggPlan) *MetricPlan {
+	for _, mp := range pr.p.Metrics {
+		if mp.M == a.Metric {
+			return mp
+		}
+	}
+	panic("compiler: aggregate without its metric")
+}
+
 // covValue renders a unit's covariate, NULL when the unit is not mature for
 // the metric (so Y and X are aggregated over the same units).
 func (pr *printer) covValue(mp *MetricPlan) string {
@@ -629,7 +713,8 @@ func (pr *printer) main() (string, error) {
 			segKeys = append(segKeys, g)
 		}
 	}
-	pr.units(p.HasCapQuant || len(segKeys) > 0)
+	cents := pr.centres()
+	pr.units(p.HasCapQuant || len(segKeys) > 0 || len(cents) > 0)
 	if p.HasCapQuant {
 		pr.line(0, "-- Winsorising caps: pooled quantiles over mature units of all variants.")
 		pr.line(0, "caps AS (")
@@ -646,7 +731,7 @@ func (pr *printer) main() (string, error) {
 			pr.line(2, "%s%s", c, commaIf(i < len(cs)-1))
 		}
 		pr.line(1, "FROM unit_values AS u")
-		pr.line(0, ")%s", commaIf(len(segKeys) > 0))
+		pr.line(0, ")%s", commaIf(len(segKeys) > 0 || len(cents) > 0))
 	}
 	keyExpr := map[string]string{}
 	for _, g := range segKeys {
@@ -682,6 +767,20 @@ func (pr *printer) main() (string, error) {
 		for i, g := range segKeys {
 			alias := fmt.Sprintf("k%d", i+1)
 			pr.line(1, "LEFT JOIN %s AS %s ON %s.value = %s", pr.id("top_"+g.Segment.Name), alias, alias, pr.d.Text("u."+pr.id(g.Name)))
+		}
+		pr.line(0, ")%s", commaIf(len(cents) > 0))
+	}
+	if len(cents) > 0 {
+		pr.line(0, "-- Centres: pooled means, subtracted before the variance and covariance aggregates so their")
+		pr.line(0, "-- partial sums stay small (numerically stable whatever the engine's merge order).")
+		pr.line(0, "centres AS (")
+		pr.line(1, "SELECT")
+		for i, c := range cents {
+			pr.line(2, "avg(%s) AS %s%s", c.expr, pr.id(c.name), commaIf(i < len(cents)-1))
+		}
+		pr.line(1, "FROM unit_values AS u")
+		if p.HasCapQuant {
+			pr.line(1, "CROSS JOIN caps AS k")
 		}
 		pr.line(0, ")")
 	}
@@ -740,16 +839,16 @@ func (pr *printer) main() (string, error) {
 		var y string
 		switch m.Kind {
 		case metrics.KindRatio:
-			num, den := pr.value(mp, mp.Num), pr.value(mp, mp.Den)
-			col("avg("+num+")", StatNumMean)
-			col("avg("+den+")", StatDenMean)
+			num, den := pr.centred(mp.Num), pr.centred(mp.Den)
+			col(pr.mean(mp.Num), StatNumMean)
+			col(pr.mean(mp.Den), StatDenMean)
 			col(pr.d.VarSamp(num), StatNumVar)
 			col(pr.d.VarSamp(den), StatDenVar)
 			col(pr.d.CovarSamp(num, den), StatCov)
 			if mp.Cov != nil {
-				x := pr.covValue(mp)
+				x := pr.centred(mp.Cov)
 				cols = append(cols, "-- "+oneLine(m.Name)+" covariate: "+covRule(mp))
-				col("avg("+x+")", StatXMean)
+				col(pr.mean(mp.Cov), StatXMean)
 				col(pr.d.VarSamp(x), StatXVar)
 				col(pr.d.CovarSamp(num, x), StatNumXCov)
 				col(pr.d.CovarSamp(den, x), StatDenXCov)
@@ -757,7 +856,7 @@ func (pr *printer) main() (string, error) {
 		case metrics.KindProportion:
 			y = pr.indicator(mp)
 		default:
-			y = pr.value(mp, mp.Value)
+			y = pr.centred(mp.Value)
 		}
 		var bad []string
 		for _, a := range []*AggPlan{mp.Value, mp.Num, mp.Den} {
@@ -769,12 +868,16 @@ func (pr *printer) main() (string, error) {
 			col("sum("+strings.Join(bad, " + ")+")", StatNonFinite)
 		}
 		if y != "" {
-			col("avg("+y+")", StatMean)
+			if m.Kind == metrics.KindProportion {
+				col("avg("+y+")", StatMean)
+			} else {
+				col(pr.mean(mp.Value), StatMean)
+			}
 			col(pr.d.VarSamp(y), StatVar)
 			if mp.Cov != nil {
-				x := pr.covValue(mp)
+				x := pr.centred(mp.Cov)
 				cols = append(cols, "-- "+oneLine(m.Name)+" covariate: "+covRule(mp))
-				col("avg("+x+")", StatXMean)
+				col(pr.mean(mp.Cov), StatXMean)
 				col(pr.d.VarSamp(x), StatXVar)
 				col(pr.d.CovarSamp(y, x), StatYXCov)
 			}
@@ -790,6 +893,9 @@ func (pr *printer) main() (string, error) {
 	pr.line(0, "FROM %s AS u", from)
 	if p.HasCapQuant {
 		pr.line(0, "CROSS JOIN caps AS k")
+	}
+	if len(cents) > 0 {
+		pr.line(0, "CROSS JOIN centres AS c0")
 	}
 	if p.Splits > 0 {
 		pr.line(0, "CROSS JOIN %s", pr.d.(dialects.Resplitter).Splits(p.Splits))
@@ -836,7 +942,15 @@ func (pr *printer) health() (string, error) {
 	pr.line(2, "count(CASE WHEN %s < %s THEN 1 END) AS before_start,", t, us(p.StartUS))
 	pr.line(2, "count(CASE WHEN %s >= %s THEN 1 END) AS after_end", t, us(p.EndUS))
 	pr.line(1, "FROM %s AS x", pr.from(src))
-	pr.line(0, ")")
+	outcome := pr.outcomeSources()
+	pr.line(0, ")%s", commaIf(len(outcome) > 0))
+	for i, o := range outcome {
+		pr.line(0, "-- Rows of %s that no metric or rule can use: no unit or no time.", oneLine(o.Name))
+		pr.line(0, "nulls_%d AS (", i+1)
+		pr.line(1, "SELECT count(CASE WHEN s.%s IS NULL THEN 1 END) AS null_unit, count(CASE WHEN s.%s IS NULL THEN 1 END) AS null_time", pr.id(o.Unit), pr.id(o.Time))
+		pr.line(1, "FROM %s AS s", pr.from(o))
+		pr.line(0, ")%s", commaIf(i < len(outcome)-1))
+	}
 	pr.line(0, "SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (")
 	sel := func(kind, reason, variant, day, rows, units, from, where, group string) {
 		pr.line(1, "SELECT %s AS kind, %s AS reason, %s AS variant, %s AS day, %s AS row_count, %s AS unit_count", kind, reason, variant, day, rows, units)
@@ -872,6 +986,12 @@ func (pr *printer) health() (string, error) {
 	for _, ig := range []string{"null_unit", "null_time", "before_start", "after_end"} {
 		pr.line(1, "UNION ALL")
 		sel(q("ignored_rows"), q(ig), "NULL", "NULL", ig, "NULL", "ignored_rows", "", "")
+	}
+	for i, o := range outcome {
+		for _, ig := range []string{"null_unit", "null_time"} {
+			pr.line(1, "UNION ALL")
+			sel(q("ignored_outcome_rows"), q(o.Name+":"+ig), "NULL", "NULL", ig, "NULL", fmt.Sprintf("nulls_%d", i+1), "", "")
+		}
 	}
 	pr.line(0, ") AS h")
 	pr.line(0, "ORDER BY h.kind, h.reason, h.variant, h.day")

@@ -38,42 +38,42 @@ var allowed = map[string][]string{
 	// https://duckdb.org/docs/sql/functions/overview (aggregates:
 	// /docs/sql/functions/aggregates, timestamps:
 	// /docs/sql/functions/timestamptz, files: /docs/data/overview)
-	"duckdb": {"abs", "avg", "ceil", "coalesce", "concat", "count", "covar_samp", "epoch_us", "exp", "floor",
+	"duckdb": {"abs", "max", "min", "avg", "ceil", "coalesce", "concat", "count", "covar_samp", "epoch_us", "exp", "floor",
 		"greatest", "least", "length", "ln", "lower", "make_timestamp", "mod", "nullif", "pow", "quantile_cont",
 		"read_csv", "read_json", "read_parquet", "round", "row_number", "sign", "sqrt", "substr", "sum", "timezone",
 		"trim", "typeof", "upper", "var_samp"},
 	// https://www.postgresql.org/docs/current/functions-aggregate.html,
 	// /functions-math.html, /functions-string.html, /functions-window.html
-	"postgres": {"abs", "avg", "ceil", "char_length", "coalesce", "count", "covar_samp", "exp", "floor", "greatest",
+	"postgres": {"abs", "max", "min", "avg", "ceil", "char_length", "coalesce", "count", "covar_samp", "exp", "floor", "greatest",
 		"least", "ln", "lower", "mod", "nullif", "percentile_cont", "pg_typeof", "power", "round", "row_number",
 		"sign", "sqrt", "substr", "sum", "trim", "upper", "var_samp"},
 	// https://dev.mysql.com/doc/refman/8.0/en/built-in-function-reference.html
 	// and https://mariadb.com/kb/en/built-in-functions/ (both list each one)
-	"mysql": {"abs", "avg", "ceiling", "char_length", "coalesce", "concat", "convert_tz", "count", "date", "exp",
+	"mysql": {"abs", "max", "min", "avg", "ceiling", "char_length", "coalesce", "concat", "convert_tz", "count", "date", "exp",
 		"floor", "greatest", "group_concat", "least", "ln", "lower", "mod", "nullif", "power", "round", "row_number",
 		"sign", "sqrt", "substring", "substring_index", "sum", "timestampadd", "timestampdiff", "trim", "upper",
 		"var_samp"},
 	// https://cloud.google.com/bigquery/docs/reference/standard-sql/functions-all
-	"bigquery": {"abs", "array_agg", "avg", "ceil", "coalesce", "concat", "count", "covar_samp", "date", "exp",
+	"bigquery": {"abs", "max", "min", "array_agg", "avg", "ceil", "coalesce", "concat", "count", "covar_samp", "date", "exp",
 		"floor", "greatest", "least", "length", "ln", "lower", "mod", "nullif", "pow", "round", "row_number",
 		"safe_offset", "sign", "sqrt", "substr", "sum", "timestamp", "timestamp_micros", "trim", "unix_micros",
 		"upper", "var_samp"},
 	// https://docs.snowflake.com/en/sql-reference/functions-all
-	"snowflake": {"abs", "avg", "ceil", "coalesce", "concat", "convert_timezone", "count", "covar_samp", "date_part",
+	"snowflake": {"abs", "max", "min", "avg", "ceil", "coalesce", "concat", "convert_timezone", "count", "covar_samp", "date_part",
 		"exp", "floor", "greatest", "least", "length", "ln", "lower", "mod", "nullif", "percentile_cont", "power",
 		"round", "row_number", "sign", "sqrt", "substr", "sum", "to_timestamp_ntz", "trim", "upper", "var_samp"},
 	// https://trino.io/docs/current/functions/list.html
-	"trino": {"abs", "array_agg", "array_sort", "avg", "ceil", "ceiling", "coalesce", "count", "covar_samp",
+	"trino": {"abs", "max", "min", "array_agg", "array_sort", "avg", "ceil", "ceiling", "coalesce", "count", "covar_samp",
 		"element_at", "exp", "floor", "from_unixtime_nanos", "greatest", "least", "length", "ln", "lower", "mod",
 		"nullif", "power", "round", "row_number", "sign", "sqrt", "substr", "sum", "to_unixtime", "trim", "upper",
 		"var_samp", "with_timezone"},
 	// https://spark.apache.org/docs/latest/api/sql/index.html
-	"spark": {"abs", "avg", "ceil", "char_length", "coalesce", "concat", "count", "covar_samp", "exp", "floor",
+	"spark": {"abs", "max", "min", "avg", "ceil", "char_length", "coalesce", "concat", "count", "covar_samp", "exp", "floor",
 		"from_utc_timestamp", "greatest", "least", "ln", "lower", "mod", "nullif", "percentile", "power", "round",
 		"row_number", "sign", "sqrt", "substr", "sum", "timestamp_micros", "to_utc_timestamp", "trim",
 		"unix_micros", "upper", "var_samp"},
 	// https://docs.aws.amazon.com/redshift/latest/dg/c_SQL_functions.html
-	"redshift": {"abs", "avg", "ceil", "coalesce", "convert_timezone", "count", "datediff", "exp", "floor",
+	"redshift": {"abs", "max", "min", "avg", "ceil", "coalesce", "convert_timezone", "count", "datediff", "exp", "floor",
 		"greatest", "least", "length", "ln", "lower", "mod", "nullif", "percentile_cont", "power", "round",
 		"row_number", "sign", "sqrt", "substring", "sum", "trim", "upper", "var_samp"},
 }

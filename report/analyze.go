@@ -90,7 +90,10 @@ type Health struct {
 	Eligible       int64            `json:"eligible_units"`
 	Exclusions     []Exclusion      `json:"exclusions"`
 	IgnoredRows    map[string]int64 `json:"ignored_exposure_rows"`
-	SampleRatio    SampleRatio      `json:"sample_ratio"`
+	// IgnoredOutcomeRows counts, per outcome source, rows without a unit
+	// or a time, which no metric can use.
+	IgnoredOutcomeRows map[string]map[string]int64 `json:"ignored_outcome_rows"`
+	SampleRatio        SampleRatio                 `json:"sample_ratio"`
 	// SampleRatioTriggered tests triggered units (before exclusions).
 	SampleRatioTriggered SampleRatio `json:"sample_ratio_triggered"`
 	// SampleRatioDaily tests each day's newly triggered units.
@@ -355,7 +358,7 @@ func srm(obs, w []float64, alpha float64) SampleRatio {
 }
 
 func health(p *compiler.Plan, rows []engine.HealthRow, byVariant map[string]*engine.Row, alpha float64) Health {
-	h := Health{IgnoredRows: map[string]int64{}, Exclusions: []Exclusion{}, Daily: []Daily{}}
+	h := Health{IgnoredRows: map[string]int64{}, IgnoredOutcomeRows: map[string]map[string]int64{}, Exclusions: []Exclusion{}, Daily: []Daily{}}
 	exc := map[string]*Exclusion{}
 	var excOrder []string
 	reasons := []string{"any", "crossover", "unknown_variant"}
@@ -388,6 +391,12 @@ func health(p *compiler.Plan, rows []engine.HealthRow, byVariant map[string]*eng
 			}
 			e.Units += row.Units
 			e.ByVariant[row.Variant] += row.Units
+		case "ignored_outcome_rows":
+			src, what, _ := strings.Cut(row.Reason, ":")
+			if h.IgnoredOutcomeRows[src] == nil {
+				h.IgnoredOutcomeRows[src] = map[string]int64{}
+			}
+			h.IgnoredOutcomeRows[src][what] += row.Rows
 		case "ignored_rows":
 			h.IgnoredRows[row.Reason] += row.Rows
 		}

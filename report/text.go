@@ -3,6 +3,7 @@ package report
 import (
 	"fmt"
 	"math"
+	"sort"
 	"strconv"
 	"strings"
 	"text/tabwriter"
@@ -138,6 +139,16 @@ func (r *Report) healthText(b *strings.Builder) {
 	}
 	ig := h.IgnoredRows
 	fmt.Fprintf(b, "  ignored exposure rows: %d before start, %d at or after end, %d without unit, %d without time\n", ig["before_start"], ig["after_end"], ig["null_unit"], ig["null_time"])
+	srcs := make([]string, 0, len(h.IgnoredOutcomeRows))
+	for src := range h.IgnoredOutcomeRows {
+		srcs = append(srcs, src)
+	}
+	sort.Strings(srcs)
+	for _, src := range srcs {
+		if o := h.IgnoredOutcomeRows[src]; o["null_unit"]+o["null_time"] > 0 {
+			fmt.Fprintf(b, "  ignored rows of %s: %d without unit, %d without time\n", src, o["null_unit"], o["null_time"])
+		}
+	}
 }
 
 func metricText(b *strings.Builder, m MetricInfo) {

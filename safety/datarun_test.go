@@ -128,7 +128,8 @@ func TestDataProblems(t *testing.T) {
 	}
 	var rep struct {
 		Health struct {
-			Ignored    map[string]int64 `json:"ignored_exposure_rows"`
+			Ignored    map[string]int64            `json:"ignored_exposure_rows"`
+			IgnoredOut map[string]map[string]int64 `json:"ignored_outcome_rows"`
 			Exclusions []struct {
 				Reason    string           `json:"reason"`
 				ByVariant map[string]int64 `json:"by_variant"`
@@ -154,6 +155,11 @@ func TestDataProblems(t *testing.T) {
 		t.Fatal(err)
 	}
 	// Hand counts from dataDB's comment.
+	// Source: the orders fixture above holds one row without a unit and one
+	// without a time (hand count).
+	if o := rep.Health.IgnoredOut["orders"]; o["null_unit"] != 1 || o["null_time"] != 1 {
+		t.Errorf("ignored orders rows: got %v, want null_unit 1 and null_time 1", o)
+	}
 	for reason, want := range map[string]int64{"null_unit": 1, "null_time": 1, "before_start": 1, "after_end": 1} {
 		if got := rep.Health.Ignored[reason]; got != want {
 			t.Errorf("ignored exposure rows %s: got %d, want %d", reason, got, want)

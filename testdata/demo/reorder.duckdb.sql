@@ -9,8 +9,7 @@ exposure_rows AS (
     x."customer_id" AS unit_id,
     CAST(x."variant" AS VARCHAR) AS variant,
     epoch_us(x."exposed_at") AS ts_us,
-    coalesce(x."surface" = 'home', FALSE) AS qualifies,
-    x."platform" AS "seg_platform"
+    coalesce(x."surface" = 'home', FALSE) AS qualifies
   FROM read_parquet('data/exposures.parquet') AS x
   WHERE x."customer_id" IS NOT NULL AND x."exposed_at" IS NOT NULL
     AND epoch_us(x."exposed_at") >= 1772409600000000 AND epoch_us(x."exposed_at") < 1776038400000000
@@ -24,23 +23,13 @@ exposed_units AS (
 ),
 -- Trigger: each unit's first qualifying exposure (a row qualifies when: surface = 'home').
 triggers AS (
-  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us, q."seg_platform"
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
   FROM (
-    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant, r."seg_platform") AS rn
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
     FROM exposure_rows AS r
     WHERE r.qualifies
   ) AS q
   WHERE q.rn = 1
-),
--- Attributes from customers (declared static: values do not change over time).
-"attr_customers" AS (
-  SELECT v.unit_id, v."seg_tenure"
-  FROM (
-    SELECT t.unit_id, a."tenure_band" AS "seg_tenure", row_number() OVER (PARTITION BY t.unit_id ORDER BY a."customer_id", a."region", a."signup_at", a."tenure_band") AS rn
-    FROM triggers AS t
-    JOIN read_parquet('data/customers.parquet') AS a ON a."customer_id" = t.unit_id
-  ) AS v
-  WHERE v.rn = 1
 ),
 -- Rule recent_order: eligible when the unit has row in orders in [trigger - 60d, trigger + 0d) where status <> 'cancelled'.
 rule_1 AS (
@@ -59,19 +48,16 @@ cohort AS (
     t.variant,
     t.trigger_us,
     CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
-    t."seg_platform" AS "seg_platform",
-    a1."seg_tenure" AS "seg_tenure",
     (u.variants_seen > 1) AS is_crossover,
     (t.variant NOT IN ('control', 'shelf')) AS is_unknown_variant,
     (r1.unit_id IS NULL) AS "fails_recent_order"
   FROM triggers AS t
   JOIN exposed_units AS u ON u.unit_id = t.unit_id
-  LEFT JOIN "attr_customers" AS a1 ON a1.unit_id = t.unit_id
   LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
 ),
 -- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
 eligible AS (
-  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day, c."seg_platform", c."seg_tenure"
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day
   FROM cohort AS c
   WHERE NOT c.is_crossover
     AND NOT c.is_unknown_variant
@@ -135,8 +121,6 @@ unit_values AS (
     e.unit_id,
     e.variant,
     e.trigger_day,
-    e."seg_platform",
-    e."seg_tenure",
     (e.trigger_us + 1209600000000 <= 1776038400000000) AS mature_14d,
     coalesce(p1."m_orders_14d", 0) AS "m_orders_14d",
     coalesce(p1."m_orders_14d__x", 0) AS "m_orders_14d__x",
@@ -152,6 +136,20 @@ unit_values AS (
   LEFT JOIN "pass_orders" AS p1 ON p1.unit_id = e.unit_id
   LEFT JOIN "pass_taps" AS p2 ON p2.unit_id = e.unit_id
   LEFT JOIN "pass_support" AS p3 ON p3.unit_id = e.unit_id
+),
+-- Centres: pooled means, subtracted before the variance and covariance aggregates so their
+-- partial sums stay small (numerically stable whatever the engine's merge order).
+centres AS (
+  SELECT
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) AS "c_orders_14d",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) AS "c_orders_14d__x",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) AS "c_shelf_taps",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) AS "c_basket_value__num",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) AS "c_basket_value__den",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) AS "c_basket_value__x",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END) AS "c_cancelled",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END) AS "c_support_contacts"
+  FROM unit_values AS u
 )
 SELECT
   '29a70e58dcc0a2ef' AS spec_fingerprint,
@@ -159,28 +157,28 @@ SELECT
   count(*) AS units,
   -- orders_14d (primary, mean): mean per unit of count of rows where status = 'delivered'; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "orders_14d__n",
-  avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) AS "orders_14d__mean",
-  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) AS "orders_14d__var",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) ELSE min(c0."c_orders_14d") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END - c0."c_orders_14d")) END AS "orders_14d__mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END - c0."c_orders_14d")) AS "orders_14d__var",
   -- orders_14d covariate: count of rows where status = 'delivered' (definition of orders_14d) in [trigger - 28d, trigger + 0d), before the trigger
-  avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) AS "orders_14d__x_mean",
-  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) AS "orders_14d__x_var",
-  covar_samp(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END, CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) AS "orders_14d__yx_cov",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) ELSE min(c0."c_orders_14d__x") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END - c0."c_orders_14d__x")) END AS "orders_14d__x_mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END - c0."c_orders_14d__x")) AS "orders_14d__x_var",
+  covar_samp((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END - c0."c_orders_14d"), (CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END - c0."c_orders_14d__x")) AS "orders_14d__yx_cov",
   -- shelf_taps (mechanism, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "shelf_taps__n",
-  avg(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) AS "shelf_taps__mean",
-  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) AS "shelf_taps__var",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) ELSE min(c0."c_shelf_taps") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END - c0."c_shelf_taps")) END AS "shelf_taps__mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END - c0."c_shelf_taps")) AS "shelf_taps__var",
   -- basket_value (secondary, ratio): per-unit sum of amount where status = 'delivered' over per-unit count of rows where status = 'delivered'; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "basket_value__n",
-  avg(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) AS "basket_value__num_mean",
-  avg(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) AS "basket_value__den_mean",
-  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) AS "basket_value__num_var",
-  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) AS "basket_value__den_var",
-  covar_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END, CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) AS "basket_value__cov",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) ELSE min(c0."c_basket_value__num") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END - c0."c_basket_value__num")) END AS "basket_value__num_mean",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) ELSE min(c0."c_basket_value__den") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END - c0."c_basket_value__den")) END AS "basket_value__den_mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END - c0."c_basket_value__num")) AS "basket_value__num_var",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END - c0."c_basket_value__den")) AS "basket_value__den_var",
+  covar_samp((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END - c0."c_basket_value__num"), (CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END - c0."c_basket_value__den")) AS "basket_value__cov",
   -- basket_value covariate: sum of amount where status = 'delivered' (definition of basket_value) in [trigger - 28d, trigger + 0d), before the trigger
-  avg(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) AS "basket_value__x_mean",
-  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) AS "basket_value__x_var",
-  covar_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END, CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) AS "basket_value__num_x_cov",
-  covar_samp(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END, CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) AS "basket_value__den_x_cov",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) ELSE min(c0."c_basket_value__x") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END - c0."c_basket_value__x")) END AS "basket_value__x_mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END - c0."c_basket_value__x")) AS "basket_value__x_var",
+  covar_samp((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END - c0."c_basket_value__num"), (CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END - c0."c_basket_value__x")) AS "basket_value__num_x_cov",
+  covar_samp((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END - c0."c_basket_value__den"), (CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END - c0."c_basket_value__x")) AS "basket_value__den_x_cov",
   sum(u."m_basket_value__num__nonfinite") AS "basket_value__nonfinite_rows",
   -- converted (secondary, proportion): share of units whose count of rows where status = 'delivered' is above 0; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "converted__n",
@@ -188,13 +186,14 @@ SELECT
   var_samp(CASE WHEN u.mature_14d THEN CASE WHEN u."m_converted" > 0 THEN 1.0 ELSE 0.0 END END) AS "converted__var",
   -- cancelled (guard, mean): mean per unit of count of rows where status = 'cancelled'; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "cancelled__n",
-  avg(CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END) AS "cancelled__mean",
-  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END) AS "cancelled__var",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END) ELSE min(c0."c_cancelled") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END - c0."c_cancelled")) END AS "cancelled__mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END - c0."c_cancelled")) AS "cancelled__var",
   -- support_contacts (guard, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "support_contacts__n",
-  avg(CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END) AS "support_contacts__mean",
-  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END) AS "support_contacts__var"
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END) ELSE min(c0."c_support_contacts") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END - c0."c_support_contacts")) END AS "support_contacts__mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END - c0."c_support_contacts")) AS "support_contacts__var"
 FROM unit_values AS u
+CROSS JOIN centres AS c0
 GROUP BY u.variant
 ORDER BY u.variant
 ;
@@ -210,8 +209,7 @@ exposure_rows AS (
     x."customer_id" AS unit_id,
     CAST(x."variant" AS VARCHAR) AS variant,
     epoch_us(x."exposed_at") AS ts_us,
-    coalesce(x."surface" = 'home', FALSE) AS qualifies,
-    x."platform" AS "seg_platform"
+    coalesce(x."surface" = 'home', FALSE) AS qualifies
   FROM read_parquet('data/exposures.parquet') AS x
   WHERE x."customer_id" IS NOT NULL AND x."exposed_at" IS NOT NULL
     AND epoch_us(x."exposed_at") >= 1772409600000000 AND epoch_us(x."exposed_at") < 1776038400000000
@@ -225,23 +223,13 @@ exposed_units AS (
 ),
 -- Trigger: each unit's first qualifying exposure (a row qualifies when: surface = 'home').
 triggers AS (
-  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us, q."seg_platform"
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
   FROM (
-    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant, r."seg_platform") AS rn
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
     FROM exposure_rows AS r
     WHERE r.qualifies
   ) AS q
   WHERE q.rn = 1
-),
--- Attributes from customers (declared static: values do not change over time).
-"attr_customers" AS (
-  SELECT v.unit_id, v."seg_tenure"
-  FROM (
-    SELECT t.unit_id, a."tenure_band" AS "seg_tenure", row_number() OVER (PARTITION BY t.unit_id ORDER BY a."customer_id", a."region", a."signup_at", a."tenure_band") AS rn
-    FROM triggers AS t
-    JOIN read_parquet('data/customers.parquet') AS a ON a."customer_id" = t.unit_id
-  ) AS v
-  WHERE v.rn = 1
 ),
 -- Rule recent_order: eligible when the unit has row in orders in [trigger - 60d, trigger + 0d) where status <> 'cancelled'.
 rule_1 AS (
@@ -260,14 +248,11 @@ cohort AS (
     t.variant,
     t.trigger_us,
     CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
-    t."seg_platform" AS "seg_platform",
-    a1."seg_tenure" AS "seg_tenure",
     (u.variants_seen > 1) AS is_crossover,
     (t.variant NOT IN ('control', 'shelf')) AS is_unknown_variant,
     (r1.unit_id IS NULL) AS "fails_recent_order"
   FROM triggers AS t
   JOIN exposed_units AS u ON u.unit_id = t.unit_id
-  LEFT JOIN "attr_customers" AS a1 ON a1.unit_id = t.unit_id
   LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
 ),
 -- Exposure rows outside the analysis window, or without a unit or time.
@@ -278,6 +263,21 @@ ignored_rows AS (
     count(CASE WHEN epoch_us(x."exposed_at") < 1772409600000000 THEN 1 END) AS before_start,
     count(CASE WHEN epoch_us(x."exposed_at") >= 1776038400000000 THEN 1 END) AS after_end
   FROM read_parquet('data/exposures.parquet') AS x
+),
+-- Rows of orders that no metric or rule can use: no unit or no time.
+nulls_1 AS (
+  SELECT count(CASE WHEN s."customer_id" IS NULL THEN 1 END) AS null_unit, count(CASE WHEN s."ordered_at" IS NULL THEN 1 END) AS null_time
+  FROM read_parquet('data/orders.parquet') AS s
+),
+-- Rows of taps that no metric or rule can use: no unit or no time.
+nulls_2 AS (
+  SELECT count(CASE WHEN s."customer_id" IS NULL THEN 1 END) AS null_unit, count(CASE WHEN s."tapped_at" IS NULL THEN 1 END) AS null_time
+  FROM read_parquet('data/taps.parquet') AS s
+),
+-- Rows of support that no metric or rule can use: no unit or no time.
+nulls_3 AS (
+  SELECT count(CASE WHEN s."customer_id" IS NULL THEN 1 END) AS null_unit, count(CASE WHEN s."contacted_at" IS NULL THEN 1 END) AS null_time
+  FROM read_parquet('data/support.parquet') AS s
 )
 SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(make_timestamp(ts_us) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
@@ -323,6 +323,24 @@ SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   UNION ALL
   SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
   FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'orders:null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM nulls_1
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'orders:null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM nulls_1
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'taps:null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM nulls_2
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'taps:null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM nulls_2
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'support:null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM nulls_3
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'support:null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM nulls_3
 ) AS h
 ORDER BY h.kind, h.reason, h.variant, h.day
 ;

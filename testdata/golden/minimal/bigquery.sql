@@ -69,6 +69,13 @@ unit_values AS (
     coalesce(p1.`m_checkouts_7d`, 0) AS `m_checkouts_7d`
   FROM eligible AS e
   LEFT JOIN `pass_checkouts` AS p1 ON p1.unit_id = e.unit_id
+),
+-- Centres: pooled means, subtracted before the variance and covariance aggregates so their
+-- partial sums stay small (numerically stable whatever the engine's merge order).
+centres AS (
+  SELECT
+    avg(CASE WHEN u.mature_7d THEN CAST(u.`m_checkouts_7d` AS FLOAT64) END) AS `c_checkouts_7d`
+  FROM unit_values AS u
 )
 SELECT
   '9875bda0f4b16125' AS spec_fingerprint,
@@ -76,9 +83,10 @@ SELECT
   count(*) AS units,
   -- checkouts_7d (primary, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 7d), mature units only
   count(CASE WHEN u.mature_7d THEN 1 END) AS `checkouts_7d__n`,
-  avg(CASE WHEN u.mature_7d THEN CAST(u.`m_checkouts_7d` AS FLOAT64) END) AS `checkouts_7d__mean`,
-  VAR_SAMP(CASE WHEN u.mature_7d THEN CAST(u.`m_checkouts_7d` AS FLOAT64) END) AS `checkouts_7d__var`
+  CASE WHEN min(CASE WHEN u.mature_7d THEN CAST(u.`m_checkouts_7d` AS FLOAT64) END) = max(CASE WHEN u.mature_7d THEN CAST(u.`m_checkouts_7d` AS FLOAT64) END) THEN min(CASE WHEN u.mature_7d THEN CAST(u.`m_checkouts_7d` AS FLOAT64) END) ELSE min(c0.`c_checkouts_7d`) + avg((CASE WHEN u.mature_7d THEN CAST(u.`m_checkouts_7d` AS FLOAT64) END - c0.`c_checkouts_7d`)) END AS `checkouts_7d__mean`,
+  VAR_SAMP((CASE WHEN u.mature_7d THEN CAST(u.`m_checkouts_7d` AS FLOAT64) END - c0.`c_checkouts_7d`)) AS `checkouts_7d__var`
 FROM unit_values AS u
+CROSS JOIN centres AS c0
 GROUP BY u.variant
 ORDER BY u.variant
 ;
@@ -134,6 +142,11 @@ ignored_rows AS (
     count(CASE WHEN UNIX_MICROS(CAST(x.`assigned_at` AS TIMESTAMP)) < 1777593600000000 THEN 1 END) AS before_start,
     count(CASE WHEN UNIX_MICROS(CAST(x.`assigned_at` AS TIMESTAMP)) >= 1780012800000000 THEN 1 END) AS after_end
   FROM `analytics`.`assignments` AS x
+),
+-- Rows of checkouts that no metric or rule can use: no unit or no time.
+nulls_1 AS (
+  SELECT count(CASE WHEN s.`visitor_id` IS NULL THEN 1 END) AS null_unit, count(CASE WHEN s.`completed_at` IS NULL THEN 1 END) AS null_time
+  FROM `analytics`.`checkouts` AS s
 )
 SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, DATE(TIMESTAMP_MICROS(ts_us)) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
@@ -174,6 +187,12 @@ SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   UNION ALL
   SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
   FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'checkouts:null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM nulls_1
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'checkouts:null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM nulls_1
 ) AS h
 ORDER BY h.kind, h.reason, h.variant, h.day
 ;

@@ -108,6 +108,18 @@ caps AS (
   SELECT
     percentile_cont(0.99) WITHIN GROUP (ORDER BY CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__num" AS DOUBLE PRECISION) END) AS "cap_revenue_per_session__num"
   FROM unit_values AS u
+),
+-- Centres: pooled means, subtracted before the variance and covariance aggregates so their
+-- partial sums stay small (numerically stable whatever the engine's merge order).
+centres AS (
+  SELECT
+    avg(CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE PRECISION) END) AS "c_revenue_per_session__num",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE PRECISION) END) AS "c_revenue_per_session__den",
+    avg(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE PRECISION) END) AS "c_revenue",
+    avg(CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE PRECISION) END) AS "c_distinct_orders",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_long_sessions" AS DOUBLE PRECISION) END) AS "c_long_sessions"
+  FROM unit_values AS u
+  CROSS JOIN caps AS k
 )
 SELECT
   '70f84f6c6f917d36' AS spec_fingerprint,
@@ -115,11 +127,11 @@ SELECT
   count(*) AS units,
   -- revenue_per_session (primary, ratio): per-unit sum of gross - coalesce(discount, 0), capped at the pooled 0.99 quantile over per-unit count of rows; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "revenue_per_session__n",
-  avg(CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE PRECISION) END) AS "revenue_per_session__num_mean",
-  avg(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE PRECISION) END) AS "revenue_per_session__den_mean",
-  var_samp(CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE PRECISION) END) AS "revenue_per_session__num_var",
-  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE PRECISION) END) AS "revenue_per_session__den_var",
-  covar_samp(CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE PRECISION) END, CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE PRECISION) END) AS "revenue_per_session__cov",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE PRECISION) END) = max(CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE PRECISION) END) THEN min(CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE PRECISION) END) ELSE min(c0."c_revenue_per_session__num") + avg((CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE PRECISION) END - c0."c_revenue_per_session__num")) END AS "revenue_per_session__num_mean",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE PRECISION) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE PRECISION) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE PRECISION) END) ELSE min(c0."c_revenue_per_session__den") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE PRECISION) END - c0."c_revenue_per_session__den")) END AS "revenue_per_session__den_mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE PRECISION) END - c0."c_revenue_per_session__num")) AS "revenue_per_session__num_var",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE PRECISION) END - c0."c_revenue_per_session__den")) AS "revenue_per_session__den_var",
+  covar_samp((CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE PRECISION) END - c0."c_revenue_per_session__num"), (CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE PRECISION) END - c0."c_revenue_per_session__den")) AS "revenue_per_session__cov",
   sum(u."m_revenue_per_session__num__nonfinite") AS "revenue_per_session__nonfinite_rows",
   -- big_spender (secondary, proportion): share of units whose sum of gross is above 100; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "big_spender__n",
@@ -129,18 +141,19 @@ SELECT
   -- revenue (secondary, mean): mean per unit of sum of gross, capped at 500; window [trigger + 0d, trigger + 7d), mature units only
   count(CASE WHEN u.mature_7d THEN 1 END) AS "revenue__n",
   sum(u."m_revenue__nonfinite") AS "revenue__nonfinite_rows",
-  avg(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE PRECISION) END) AS "revenue__mean",
-  var_samp(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE PRECISION) END) AS "revenue__var",
+  CASE WHEN min(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE PRECISION) END) = max(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE PRECISION) END) THEN min(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE PRECISION) END) ELSE min(c0."c_revenue") + avg((CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE PRECISION) END - c0."c_revenue")) END AS "revenue__mean",
+  var_samp((CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE PRECISION) END - c0."c_revenue")) AS "revenue__var",
   -- distinct_orders (mechanism, mean): mean per unit of distinct values of order_id where sku_count >= 1; window [trigger + 0d, trigger + 36h), mature units only
   count(CASE WHEN u.mature_36h THEN 1 END) AS "distinct_orders__n",
-  avg(CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE PRECISION) END) AS "distinct_orders__mean",
-  var_samp(CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE PRECISION) END) AS "distinct_orders__var",
+  CASE WHEN min(CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE PRECISION) END) = max(CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE PRECISION) END) THEN min(CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE PRECISION) END) ELSE min(c0."c_distinct_orders") + avg((CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE PRECISION) END - c0."c_distinct_orders")) END AS "distinct_orders__mean",
+  var_samp((CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE PRECISION) END - c0."c_distinct_orders")) AS "distinct_orders__var",
   -- long_sessions (guard, mean): mean per unit of count of rows where duration_s BETWEEN 600 AND 7200; window [trigger + 1h, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "long_sessions__n",
-  avg(CASE WHEN u.mature_14d THEN CAST(u."m_long_sessions" AS DOUBLE PRECISION) END) AS "long_sessions__mean",
-  var_samp(CASE WHEN u.mature_14d THEN CAST(u."m_long_sessions" AS DOUBLE PRECISION) END) AS "long_sessions__var"
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_long_sessions" AS DOUBLE PRECISION) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_long_sessions" AS DOUBLE PRECISION) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_long_sessions" AS DOUBLE PRECISION) END) ELSE min(c0."c_long_sessions") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_long_sessions" AS DOUBLE PRECISION) END - c0."c_long_sessions")) END AS "long_sessions__mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_long_sessions" AS DOUBLE PRECISION) END - c0."c_long_sessions")) AS "long_sessions__var"
 FROM unit_values AS u
 CROSS JOIN caps AS k
+CROSS JOIN centres AS c0
 GROUP BY u.variant
 ORDER BY u.variant
 ;
@@ -196,6 +209,16 @@ ignored_rows AS (
     count(CASE WHEN CAST(EXTRACT(EPOCH FROM x."ts") * 1000000 AS BIGINT) < 1780272000000000 THEN 1 END) AS before_start,
     count(CASE WHEN CAST(EXTRACT(EPOCH FROM x."ts") * 1000000 AS BIGINT) >= 1782864000000000 THEN 1 END) AS after_end
   FROM "exposures" AS x
+),
+-- Rows of orders that no metric or rule can use: no unit or no time.
+nulls_1 AS (
+  SELECT count(CASE WHEN s."account_id" IS NULL THEN 1 END) AS null_unit, count(CASE WHEN s."created_at" IS NULL THEN 1 END) AS null_time
+  FROM "orders" AS s
+),
+-- Rows of sessions that no metric or rule can use: no unit or no time.
+nulls_2 AS (
+  SELECT count(CASE WHEN s."account_id" IS NULL THEN 1 END) AS null_unit, count(CASE WHEN s."started_at" IS NULL THEN 1 END) AS null_time
+  FROM "sessions" AS s
 )
 SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(TIMESTAMP '1970-01-01 00:00:00' + ts_us * INTERVAL '1 microsecond' AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
@@ -236,6 +259,18 @@ SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   UNION ALL
   SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
   FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'orders:null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM nulls_1
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'orders:null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM nulls_1
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'sessions:null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM nulls_2
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'sessions:null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM nulls_2
 ) AS h
 ORDER BY h.kind, h.reason, h.variant, h.day
 ;

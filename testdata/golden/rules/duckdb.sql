@@ -9,8 +9,7 @@ exposure_rows AS (
     x."account" AS unit_id,
     CAST(x."variant" AS VARCHAR) AS variant,
     epoch_us(x."seen_at") AS ts_us,
-    coalesce(x."screen" = 'billing' AND x."platform" <> 'test', FALSE) AS qualifies,
-    x."platform" AS "seg_platform"
+    coalesce(x."screen" = 'billing' AND x."platform" <> 'test', FALSE) AS qualifies
   FROM read_csv('flags.csv') AS x
   WHERE x."account" IS NOT NULL AND x."seen_at" IS NOT NULL
     AND epoch_us(x."seen_at") >= 1769904000000000 AND epoch_us(x."seen_at") < 1772323200000000
@@ -24,23 +23,13 @@ exposed_units AS (
 ),
 -- Trigger: each unit's first qualifying exposure (a row qualifies when: screen = 'billing' AND platform <> 'test').
 triggers AS (
-  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us, q."seg_platform"
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
   FROM (
-    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant, r."seg_platform") AS rn
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
     FROM exposure_rows AS r
     WHERE r.qualifies
   ) AS q
   WHERE q.rn = 1
-),
--- Attributes from accounts (declared static: values do not change over time).
-"attr_accounts" AS (
-  SELECT v.unit_id, v."seg_tier"
-  FROM (
-    SELECT t.unit_id, a."tier" AS "seg_tier", row_number() OVER (PARTITION BY t.unit_id ORDER BY a."account", a."country", a."tier") AS rn
-    FROM triggers AS t
-    JOIN read_parquet('accounts.parquet') AS a ON a."account" = t.unit_id
-  ) AS v
-  WHERE v.rn = 1
 ),
 -- Rule active: eligible when the unit has row in logins in [trigger - 30d, trigger + 0d).
 rule_1 AS (
@@ -88,8 +77,6 @@ cohort AS (
     t.variant,
     t.trigger_us,
     CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
-    t."seg_platform" AS "seg_platform",
-    a1."seg_tier" AS "seg_tier",
     (u.variants_seen > 1) AS is_crossover,
     (t.variant NOT IN ('control', 'reminder')) AS is_unknown_variant,
     (r1.unit_id IS NULL) AS "fails_active",
@@ -98,7 +85,6 @@ cohort AS (
     (r4.unit_id IS NULL) AS "fails_paying"
   FROM triggers AS t
   JOIN exposed_units AS u ON u.unit_id = t.unit_id
-  LEFT JOIN "attr_accounts" AS a1 ON a1.unit_id = t.unit_id
   LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
   LEFT JOIN rule_2 AS r2 ON r2.unit_id = t.unit_id
   LEFT JOIN rule_3 AS r3 ON r3.unit_id = t.unit_id
@@ -106,7 +92,7 @@ cohort AS (
 ),
 -- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
 eligible AS (
-  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day, c."seg_platform", c."seg_tier"
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day
   FROM cohort AS c
   WHERE NOT c.is_crossover
     AND NOT c.is_unknown_variant
@@ -147,14 +133,20 @@ unit_values AS (
     e.unit_id,
     e.variant,
     e.trigger_day,
-    e."seg_platform",
-    e."seg_tier",
     (e.trigger_us + 2592000000000 <= 1772323200000000) AS mature_30d,
     coalesce(p1."m_logins_30d", 0) AS "m_logins_30d",
     coalesce(p2."m_tickets_30d", 0) AS "m_tickets_30d"
   FROM eligible AS e
   LEFT JOIN "pass_logins" AS p1 ON p1.unit_id = e.unit_id
   LEFT JOIN "pass_tickets" AS p2 ON p2.unit_id = e.unit_id
+),
+-- Centres: pooled means, subtracted before the variance and covariance aggregates so their
+-- partial sums stay small (numerically stable whatever the engine's merge order).
+centres AS (
+  SELECT
+    avg(CASE WHEN u.mature_30d THEN CAST(u."m_logins_30d" AS DOUBLE) END) AS "c_logins_30d",
+    avg(CASE WHEN u.mature_30d THEN CAST(u."m_tickets_30d" AS DOUBLE) END) AS "c_tickets_30d"
+  FROM unit_values AS u
 )
 SELECT
   '063af84941e2ba0d' AS spec_fingerprint,
@@ -162,13 +154,14 @@ SELECT
   count(*) AS units,
   -- logins_30d (primary, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 30d), mature units only
   count(CASE WHEN u.mature_30d THEN 1 END) AS "logins_30d__n",
-  avg(CASE WHEN u.mature_30d THEN CAST(u."m_logins_30d" AS DOUBLE) END) AS "logins_30d__mean",
-  var_samp(CASE WHEN u.mature_30d THEN CAST(u."m_logins_30d" AS DOUBLE) END) AS "logins_30d__var",
+  CASE WHEN min(CASE WHEN u.mature_30d THEN CAST(u."m_logins_30d" AS DOUBLE) END) = max(CASE WHEN u.mature_30d THEN CAST(u."m_logins_30d" AS DOUBLE) END) THEN min(CASE WHEN u.mature_30d THEN CAST(u."m_logins_30d" AS DOUBLE) END) ELSE min(c0."c_logins_30d") + avg((CASE WHEN u.mature_30d THEN CAST(u."m_logins_30d" AS DOUBLE) END - c0."c_logins_30d")) END AS "logins_30d__mean",
+  var_samp((CASE WHEN u.mature_30d THEN CAST(u."m_logins_30d" AS DOUBLE) END - c0."c_logins_30d")) AS "logins_30d__var",
   -- tickets_30d (guard, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 30d), mature units only
   count(CASE WHEN u.mature_30d THEN 1 END) AS "tickets_30d__n",
-  avg(CASE WHEN u.mature_30d THEN CAST(u."m_tickets_30d" AS DOUBLE) END) AS "tickets_30d__mean",
-  var_samp(CASE WHEN u.mature_30d THEN CAST(u."m_tickets_30d" AS DOUBLE) END) AS "tickets_30d__var"
+  CASE WHEN min(CASE WHEN u.mature_30d THEN CAST(u."m_tickets_30d" AS DOUBLE) END) = max(CASE WHEN u.mature_30d THEN CAST(u."m_tickets_30d" AS DOUBLE) END) THEN min(CASE WHEN u.mature_30d THEN CAST(u."m_tickets_30d" AS DOUBLE) END) ELSE min(c0."c_tickets_30d") + avg((CASE WHEN u.mature_30d THEN CAST(u."m_tickets_30d" AS DOUBLE) END - c0."c_tickets_30d")) END AS "tickets_30d__mean",
+  var_samp((CASE WHEN u.mature_30d THEN CAST(u."m_tickets_30d" AS DOUBLE) END - c0."c_tickets_30d")) AS "tickets_30d__var"
 FROM unit_values AS u
+CROSS JOIN centres AS c0
 GROUP BY u.variant
 ORDER BY u.variant
 ;
@@ -184,8 +177,7 @@ exposure_rows AS (
     x."account" AS unit_id,
     CAST(x."variant" AS VARCHAR) AS variant,
     epoch_us(x."seen_at") AS ts_us,
-    coalesce(x."screen" = 'billing' AND x."platform" <> 'test', FALSE) AS qualifies,
-    x."platform" AS "seg_platform"
+    coalesce(x."screen" = 'billing' AND x."platform" <> 'test', FALSE) AS qualifies
   FROM read_csv('flags.csv') AS x
   WHERE x."account" IS NOT NULL AND x."seen_at" IS NOT NULL
     AND epoch_us(x."seen_at") >= 1769904000000000 AND epoch_us(x."seen_at") < 1772323200000000
@@ -199,23 +191,13 @@ exposed_units AS (
 ),
 -- Trigger: each unit's first qualifying exposure (a row qualifies when: screen = 'billing' AND platform <> 'test').
 triggers AS (
-  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us, q."seg_platform"
+  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
   FROM (
-    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant, r."seg_platform") AS rn
+    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
     FROM exposure_rows AS r
     WHERE r.qualifies
   ) AS q
   WHERE q.rn = 1
-),
--- Attributes from accounts (declared static: values do not change over time).
-"attr_accounts" AS (
-  SELECT v.unit_id, v."seg_tier"
-  FROM (
-    SELECT t.unit_id, a."tier" AS "seg_tier", row_number() OVER (PARTITION BY t.unit_id ORDER BY a."account", a."country", a."tier") AS rn
-    FROM triggers AS t
-    JOIN read_parquet('accounts.parquet') AS a ON a."account" = t.unit_id
-  ) AS v
-  WHERE v.rn = 1
 ),
 -- Rule active: eligible when the unit has row in logins in [trigger - 30d, trigger + 0d).
 rule_1 AS (
@@ -263,8 +245,6 @@ cohort AS (
     t.variant,
     t.trigger_us,
     CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
-    t."seg_platform" AS "seg_platform",
-    a1."seg_tier" AS "seg_tier",
     (u.variants_seen > 1) AS is_crossover,
     (t.variant NOT IN ('control', 'reminder')) AS is_unknown_variant,
     (r1.unit_id IS NULL) AS "fails_active",
@@ -273,7 +253,6 @@ cohort AS (
     (r4.unit_id IS NULL) AS "fails_paying"
   FROM triggers AS t
   JOIN exposed_units AS u ON u.unit_id = t.unit_id
-  LEFT JOIN "attr_accounts" AS a1 ON a1.unit_id = t.unit_id
   LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
   LEFT JOIN rule_2 AS r2 ON r2.unit_id = t.unit_id
   LEFT JOIN rule_3 AS r3 ON r3.unit_id = t.unit_id
@@ -287,6 +266,16 @@ ignored_rows AS (
     count(CASE WHEN epoch_us(x."seen_at") < 1769904000000000 THEN 1 END) AS before_start,
     count(CASE WHEN epoch_us(x."seen_at") >= 1772323200000000 THEN 1 END) AS after_end
   FROM read_csv('flags.csv') AS x
+),
+-- Rows of logins that no metric or rule can use: no unit or no time.
+nulls_1 AS (
+  SELECT count(CASE WHEN s."account" IS NULL THEN 1 END) AS null_unit, count(CASE WHEN s."at" IS NULL THEN 1 END) AS null_time
+  FROM read_parquet('logins.parquet') AS s
+),
+-- Rows of tickets that no metric or rule can use: no unit or no time.
+nulls_2 AS (
+  SELECT count(CASE WHEN s."account" IS NULL THEN 1 END) AS null_unit, count(CASE WHEN s."opened_at" IS NULL THEN 1 END) AS null_time
+  FROM read_parquet('tickets.parquet') AS s
 )
 SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(make_timestamp(ts_us) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
@@ -347,6 +336,18 @@ SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   UNION ALL
   SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
   FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'logins:null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM nulls_1
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'logins:null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM nulls_1
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'tickets:null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM nulls_2
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'tickets:null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM nulls_2
 ) AS h
 ORDER BY h.kind, h.reason, h.variant, h.day
 ;

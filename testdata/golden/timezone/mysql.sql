@@ -69,6 +69,13 @@ unit_values AS (
     coalesce(p1.`m_opens_3d`, 0) AS `m_opens_3d`
   FROM eligible AS e
   LEFT JOIN `pass_opens` AS p1 ON p1.unit_id = e.unit_id
+),
+-- Centres: pooled means, subtracted before the variance and covariance aggregates so their
+-- partial sums stay small (numerically stable whatever the engine's merge order).
+centres AS (
+  SELECT
+    avg(CASE WHEN u.mature_3d THEN CAST(u.`m_opens_3d` AS DOUBLE) END) AS `c_opens_3d`
+  FROM unit_values AS u
 )
 SELECT
   '30545d85e4254998' AS spec_fingerprint,
@@ -76,9 +83,10 @@ SELECT
   count(*) AS units,
   -- opens_3d (primary, mean): mean per unit of count of rows where client <> 'proxy''s'; window [trigger + 0d, trigger + 3d), mature units only
   count(CASE WHEN u.mature_3d THEN 1 END) AS `opens_3d__n`,
-  avg(CASE WHEN u.mature_3d THEN CAST(u.`m_opens_3d` AS DOUBLE) END) AS `opens_3d__mean`,
-  VAR_SAMP(CASE WHEN u.mature_3d THEN CAST(u.`m_opens_3d` AS DOUBLE) END) AS `opens_3d__var`
+  CASE WHEN min(CASE WHEN u.mature_3d THEN CAST(u.`m_opens_3d` AS DOUBLE) END) = max(CASE WHEN u.mature_3d THEN CAST(u.`m_opens_3d` AS DOUBLE) END) THEN min(CASE WHEN u.mature_3d THEN CAST(u.`m_opens_3d` AS DOUBLE) END) ELSE min(c0.`c_opens_3d`) + avg((CASE WHEN u.mature_3d THEN CAST(u.`m_opens_3d` AS DOUBLE) END - c0.`c_opens_3d`)) END AS `opens_3d__mean`,
+  VAR_SAMP((CASE WHEN u.mature_3d THEN CAST(u.`m_opens_3d` AS DOUBLE) END - c0.`c_opens_3d`)) AS `opens_3d__var`
 FROM unit_values AS u
+CROSS JOIN centres AS c0
 GROUP BY u.variant
 ORDER BY u.variant
 ;
@@ -134,6 +142,11 @@ ignored_rows AS (
     count(CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) < 1772319600000000 THEN 1 END) AS before_start,
     count(CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) >= 1774994400000000 THEN 1 END) AS after_end
   FROM `mail`.`digest sends` AS x
+),
+-- Rows of opens that no metric or rule can use: no unit or no time.
+nulls_1 AS (
+  SELECT count(CASE WHEN s.`user id` IS NULL THEN 1 END) AS null_unit, count(CASE WHEN s.`opened at` IS NULL THEN 1 END) AS null_time
+  FROM `mail`.`opens` AS s
 )
 SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, ts_us, TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'Europe/Amsterdam')) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
@@ -174,6 +187,12 @@ SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   UNION ALL
   SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
   FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'opens:null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM nulls_1
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'opens:null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM nulls_1
 ) AS h
 ORDER BY h.kind, h.reason, h.variant, h.day
 ;
