@@ -143,12 +143,8 @@ func emitReport(rep *report.Report, format string, failHarm bool, stdout, stderr
 	if rep.Health.SampleRatio.Alarm {
 		return ExitSRM
 	}
-	if failHarm {
-		for _, a := range rep.Alarms {
-			if strings.HasPrefix(a, "GUARD HARM") {
-				return ExitHarm
-			}
-		}
+	if failHarm && rep.HarmShown() {
+		return ExitHarm
 	}
 	return ExitOK
 }

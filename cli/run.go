@@ -164,30 +164,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 			return ExitEngine
 		}
 	}
-	switch *format {
-	case "json":
-		b, err := rep.JSON()
-		if err != nil {
-			fmt.Fprintf(stderr, "assay: %v\n", err)
-			return ExitEngine
-		}
-		stdout.Write(b)
-	case "markdown":
-		fmt.Fprint(stdout, rep.Markdown())
-	default:
-		fmt.Fprint(stdout, rep.Text())
-	}
-	if rep.Health.SampleRatio.Alarm {
-		return ExitSRM
-	}
-	if *failHarm {
-		for _, a := range rep.Alarms {
-			if strings.HasPrefix(a, "GUARD HARM") {
-				return ExitHarm
-			}
-		}
-	}
-	return ExitOK
+	return emitReport(rep, *format, *failHarm, stdout, stderr)
 }
 
 // asOfTime returns the plan's as-of time.

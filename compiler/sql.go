@@ -462,12 +462,20 @@ func (pr *printer) outcomeSources() []*metrics.Source {
 	return out
 }
 
-func (pr *printer) aggExpr(a *AggPlan, src *metrics.Source) string {
+// rowCond renders the test a source row must pass to count for aggregate
+// a: inside the aggregate's window relative to the unit's trigger, and its
+// filter.
+func (pr *printer) rowCond(a *AggPlan, src *metrics.Source) string {
 	t := pr.time(src, "s")
 	cond := fmt.Sprintf("%s >= %s AND %s < %s", t, plusUS("e.trigger_us", a.From.Micros), t, plusUS("e.trigger_us", a.To.Micros))
 	if a.Agg.Filter != nil {
 		cond += " AND " + paren(pr.expr(a.Agg.Filter, "s"))
 	}
+	return cond
+}
+
+func (pr *printer) aggExpr(a *AggPlan, src *metrics.Source) string {
+	cond := pr.rowCond(a, src)
 	switch a.Agg.Func {
 	case metrics.AggSum:
 		// NaN and ±Inf would poison every mean and variance: x - x = 0 holds
@@ -507,11 +515,7 @@ func (pr *printer) prefilter(src *metrics.Source, alias string, from, to int64) 
 func countsNonFinite(a *AggPlan) bool { return a.Agg.Func == metrics.AggSum && a.Part != "x" }
 
 func (pr *printer) nonFiniteExpr(a *AggPlan, src *metrics.Source) string {
-	t := pr.time(src, "s")
-	cond := fmt.Sprintf("%s >= %s AND %s < %s", t, plusUS("e.trigger_us", a.From.Micros), t, plusUS("e.trigger_us", a.To.Micros))
-	if a.Agg.Filter != nil {
-		cond += " AND " + paren(pr.expr(a.Agg.Filter, "s"))
-	}
+	cond := pr.rowCond(a, src)
 	v := pr.d.Double(pr.expr(a.Agg.Value, "s"))
 	return fmt.Sprintf("count(CASE WHEN %s AND NOT (%s - %s = 0) THEN 1 END)", cond, v, v)
 }

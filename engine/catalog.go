@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"sort"
 	"strings"
-	"unicode/utf8"
 
 	"github.com/assay-dev/assay/dialects"
 	"github.com/assay-dev/assay/metrics"
@@ -187,7 +186,7 @@ func missingTable(src *metrics.Source, what string, at metrics.Range, tables []c
 	names = dedupe(names)
 	d := metrics.Diagnostic{Code: metrics.CodeSource, Subject: at,
 		Summary: fmt.Sprintf("source `%s`: %s does not exist in the database", src.Name, what)}
-	if s := closest(last, names); s != "" {
+	if s := metrics.Suggest(last, names); s != "" {
 		d.Summary += fmt.Sprintf("; did you mean `%s`?", s)
 	}
 	switch {
@@ -248,7 +247,7 @@ func checkColumns(spec *metrics.Spec, src *metrics.Source, what string, cols []c
 		listed := make([]string, len(missing))
 		for i, m := range missing {
 			listed[i] = "`" + m + "`"
-			if s := closest(m, names); s != "" {
+			if s := metrics.Suggest(m, names); s != "" {
 				listed[i] += fmt.Sprintf(" (did you mean `%s`?)", s)
 			}
 		}
@@ -298,38 +297,4 @@ func firstLine(err error) string {
 		s = s[:i]
 	}
 	return strings.TrimSpace(s)
-}
-
-// closest returns the candidate nearest to s by edit distance (ignoring
-// case) when the distance is below 3 and at most a third of the length of
-// s, or "".
-func closest(s string, candidates []string) string {
-	best, bestD := "", 3
-	for _, c := range candidates {
-		if d := levenshtein(strings.ToLower(s), strings.ToLower(c)); d < bestD && 3*d <= utf8.RuneCountInString(s) {
-			best, bestD = c, d
-		}
-	}
-	return best
-}
-
-func levenshtein(a, b string) int {
-	ra, rb := []rune(a), []rune(b)
-	prev := make([]int, len(rb)+1)
-	cur := make([]int, len(rb)+1)
-	for j := range prev {
-		prev[j] = j
-	}
-	for i := 1; i <= len(ra); i++ {
-		cur[0] = i
-		for j := 1; j <= len(rb); j++ {
-			cost := 1
-			if ra[i-1] == rb[j-1] {
-				cost = 0
-			}
-			cur[j] = min(prev[j]+1, cur[j-1]+1, prev[j-1]+cost)
-		}
-		prev, cur = cur, prev
-	}
-	return prev[len(rb)]
 }

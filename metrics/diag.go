@@ -215,11 +215,11 @@ func posAt(src []byte, off int) Pos {
 	return Pos{Line: line, Column: col, Byte: off}
 }
 
-// suggest returns the candidate closest to s by edit distance when the
+// Suggest returns the candidate closest to s by edit distance when the
 // distance is below 3 and at most a third of the length of s, or "": two
 // edits turn any two-letter key into any other, so short names need a
 // closer match.
-func suggest(s string, candidates []string) string {
+func Suggest(s string, candidates []string) string {
 	best, bestD := "", 3
 	for _, c := range candidates {
 		if d := editDistance(strings.ToLower(s), strings.ToLower(c)); d < bestD && 3*d <= utf8.RuneCountInString(s) {

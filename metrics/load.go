@@ -156,7 +156,7 @@ func (l *loader) table(path []string, v any, allowed ...string) *table {
 				if len(path) == 0 {
 					where = "at the top level"
 				}
-				if s := suggest(k, allowed); s != "" {
+				if s := Suggest(k, allowed); s != "" {
 					l.errKey(p, CodeUnknownKey, hint, "unknown key `%s` %s; did you mean `%s`?", k, where, s)
 				} else {
 					l.errKey(p, CodeUnknownKey, hint, "unknown key `%s` %s", k, where)
@@ -239,7 +239,7 @@ func (t *table) enum(key string, required bool, def string, options ...string) s
 	}
 	if !contains(options, s) {
 		hint := "one of: " + strings.Join(options, ", ")
-		if sg := suggest(s, options); sg != "" {
+		if sg := Suggest(s, options); sg != "" {
 			t.l.errAt(t.p(key), CodeValue, hint, "`%s` cannot be %q; did you mean %q?", dotted(t.p(key)), s, sg)
 		} else {
 			t.l.errAt(t.p(key), CodeValue, hint, "`%s` cannot be %q", dotted(t.p(key)), s)
@@ -397,7 +397,7 @@ func (l *loader) load(raw map[string]any) {
 			if len(names) == 0 {
 				hint = "declare it as a [sources." + name + "] table"
 			}
-			if sg := suggest(name, names); sg != "" {
+			if sg := Suggest(name, names); sg != "" {
 				l.errAt(t.p(key), CodeUndefined, hint, "source `%s` is not declared; did you mean `%s`?", name, sg)
 			} else {
 				l.errAt(t.p(key), CodeUndefined, hint, "source `%s` is not declared under [sources]", name)
@@ -717,7 +717,7 @@ func (l *loader) source(name string, t *table) *Source {
 		}
 		if !seen[c] && cols != nil {
 			hint := "declared columns: " + strings.Join(src.Columns, ", ")
-			if sg := suggest(c, src.Columns); sg != "" {
+			if sg := Suggest(c, src.Columns); sg != "" {
 				l.errAt(t.p(key), CodeColumn, hint, "column `%s` is not in the columns of source `%s`; did you mean `%s`?", c, name, sg)
 			} else {
 				l.errAt(t.p(key), CodeColumn, hint, "column `%s` is not in the columns of source `%s`", c, name)
@@ -766,7 +766,7 @@ func (l *loader) column(path []string, src *Source, c string) {
 		return
 	}
 	hint := "declared columns: " + strings.Join(src.Columns, ", ")
-	if sg := suggest(c, src.Columns); sg != "" {
+	if sg := Suggest(c, src.Columns); sg != "" {
 		l.errAt(path, CodeColumn, hint, "column `%s` is not in the columns of source `%s`; did you mean `%s`?", c, src.Name, sg)
 	} else {
 		l.errAt(path, CodeColumn, hint, "column `%s` is not in the columns of source `%s`", c, src.Name)
@@ -1030,7 +1030,7 @@ func (l *loader) covariates(mt *table) {
 			switch {
 			case !found:
 				hint := "metrics: " + strings.Join(names, ", ")
-				if sg := suggest(name, names); sg != "" {
+				if sg := Suggest(name, names); sg != "" {
 					l.errAt(t.p("metric"), CodeUndefinedMetric, hint, "covariate metric `%s` is not declared; did you mean `%s`?", name, sg)
 				} else {
 					l.errAt(t.p("metric"), CodeUndefinedMetric, hint, "covariate metric `%s` is not declared", name)

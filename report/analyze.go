@@ -329,6 +329,18 @@ func Analyze(p *compiler.Plan, res *engine.Result, opt Options) (*Report, error)
 	return r, nil
 }
 
+// HarmShown reports whether any guard comparison's verdict is harm shown.
+func (r *Report) HarmShown() bool {
+	for _, m := range r.Metrics {
+		for _, c := range m.Comparisons {
+			if c.Guard != nil && c.Guard.Verdict == stats.HarmShown {
+				return true
+			}
+		}
+	}
+	return false
+}
+
 func adjustName(m string) string {
 	switch m {
 	case "bh":
