@@ -43,20 +43,36 @@ const notebookCut = "--NOTEBOOK-CUT"
 // reference query's CTEs, ending in one row per eligible unit.
 func NotebookSQL() string {
 	i := strings.Index(referenceSQL, notebookCut)
-	return referenceSQL[:i] + "SELECT unit_id, variant, mature_14d, mature_7d, delivered, revenue, cancelled_7d, sessions, duration, pages\nFROM unit_values\n"
+	return referenceSQL[:i] + "SELECT unit_id, variant, mature_14d, mature_7d, delivered, revenue, cancelled_7d, sessions, duration, pages, delivered_pre\nFROM unit_values\n"
 }
 
-// Spec1 is Spec10 with only its primary metric (one metric, one source).
+// covariateLine is Spec10's CUPED covariate, left out of Spec1 and Spec2 so
+// that they hold the fewest aggregates.
+const covariateLine = "covariate = { window = [\"-28d\", \"0d\"] }\n"
+
+// Spec1 is Spec10 with only its primary metric (one metric, one source,
+// without its covariate).
 func Spec1() []byte {
-	s := string(Spec10)
+	s := strings.Replace(string(Spec10), covariateLine, "", 1)
 	head := s[:strings.Index(s, "[metrics.")]
 	m := s[strings.Index(s, "[metrics.orders_14d]"):strings.Index(s, "[metrics.revenue_14d]")]
 	return []byte(head + m)
 }
 
-// Spec2 is Spec10 with one metric per source (orders_14d and
-// sessions_14d): the same two scans as Spec10, with the fewest metrics.
+// Spec2 is Spec10 with one metric per source (orders_14d without its
+// covariate, and sessions_14d): the same two scans as Spec10, with the
+// fewest metrics.
 func Spec2() []byte {
+	s := strings.Replace(string(Spec10), covariateLine, "", 1)
+	head := s[:strings.Index(s, "[metrics.")]
+	m1 := s[strings.Index(s, "[metrics.orders_14d]"):strings.Index(s, "[metrics.revenue_14d]")]
+	m2 := s[strings.Index(s, "[metrics.sessions_14d]"):strings.Index(s, "[metrics.time_spent]")]
+	return []byte(head + m1 + m2)
+}
+
+// Spec2Cov is Spec2 with orders_14d's CUPED covariate kept: the same two
+// scans over the same time windows as Spec10, with the fewest metrics.
+func Spec2Cov() []byte {
 	s := string(Spec10)
 	head := s[:strings.Index(s, "[metrics.")]
 	m1 := s[strings.Index(s, "[metrics.orders_14d]"):strings.Index(s, "[metrics.revenue_14d]")]
@@ -223,6 +239,7 @@ type UnitRows struct {
 	UnitID                                                    []int64
 	Mature14, Mature7                                         []bool
 	Delivered, Revenue, Cancelled7, Sessions, Duration, Pages []float64
+	DeliveredPre                                              []float64 // orders_14d's covariate
 }
 
 // PullUnits runs the notebook's per-unit query and holds every row in Go,
@@ -238,10 +255,10 @@ func PullUnits(ctx context.Context, db *sql.DB) (map[string]*UnitRows, error) {
 		id      int64
 		variant string
 		m14, m7 bool
-		v       [6]float64
+		v       [7]float64
 	)
 	for rs.Next() {
-		if err := rs.Scan(&id, &variant, &m14, &m7, &v[0], &v[1], &v[2], &v[3], &v[4], &v[5]); err != nil {
+		if err := rs.Scan(&id, &variant, &m14, &m7, &v[0], &v[1], &v[2], &v[3], &v[4], &v[5], &v[6]); err != nil {
 			return nil, err
 		}
 		u := out[variant]
@@ -258,6 +275,7 @@ func PullUnits(ctx context.Context, db *sql.DB) (map[string]*UnitRows, error) {
 		u.Sessions = append(u.Sessions, v[3])
 		u.Duration = append(u.Duration, v[4])
 		u.Pages = append(u.Pages, v[5])
+		u.DeliveredPre = append(u.DeliveredPre, v[6])
 	}
 	return out, rs.Err()
 }
@@ -296,6 +314,12 @@ func NotebookStats(units map[string]*UnitRows) Aggregates {
 			row[name+"__var"] = v
 		}
 		mean("orders_14d", u.Mature14, u.Delivered, id)
+		y, x := pick(u.Mature14, u.Delivered, id), pick(u.Mature14, u.DeliveredPre, id)
+		row["orders_14d__x_mean"], row["orders_14d__x_var"] = meanVar(x)
+		row["orders_14d__yx_cov"] = math.NaN()
+		if len(x) >= 2 {
+			row["orders_14d__yx_cov"] = stat.Covariance(y, x, nil)
+		}
 		mean("revenue_14d", u.Mature14, u.Revenue, id)
 		mean("revenue_capped", u.Mature14, u.Revenue, capAt(400))
 		mean("converted", u.Mature14, u.Delivered, above(0))

@@ -116,6 +116,7 @@ func TestSpecVariants(t *testing.T) {
 	}{
 		{"spec1", Spec1(), 1},
 		{"spec2", Spec2(), 2},
+		{"spec2cov", Spec2Cov(), 2},
 		{"spec50", Spec50(), 50},
 	} {
 		t.Run(tc.name, func(t *testing.T) {

@@ -23,11 +23,12 @@ const (
 	Notebook  Approach = "d"         // per-unit rows pulled into Go, statistics with gonum
 	AssayOne  Approach = "a1"        // assay's compiled main query for one metric
 	AssayTwo  Approach = "a2"        // assay's compiled main query for one metric per source
+	AssayCov  Approach = "a2c"       // as a2, with the primary metric's covariate: Spec10's scans and windows
 	Compile50 Approach = "compile50" // load, compile and print a 50-metric spec
 )
 
 // Approaches lists the approaches in report order.
-var Approaches = []Approach{Assay, Bound, Reference, Notebook, AssayOne, AssayTwo, Compile50}
+var Approaches = []Approach{Assay, Bound, Reference, Notebook, AssayOne, AssayTwo, AssayCov, Compile50}
 
 // Describe is a short label of an approach for reports.
 func (a Approach) Describe() string {
@@ -44,6 +45,8 @@ func (a Approach) Describe() string {
 		return "(a1) assay main query, 1 metric"
 	case AssayTwo:
 		return "(a2) assay main query, 1 metric per source"
+	case AssayCov:
+		return "(a2c) assay main query, a2 + CUPED"
 	case Compile50:
 		return "compile 50-metric spec"
 	}
@@ -86,8 +89,8 @@ type MeasureOptions struct {
 // approach keeps alive after its analysis.
 func runner(ctx context.Context, db *sql.DB, a Approach) (func() (Aggregates, any, error), error) {
 	switch a {
-	case Assay, AssayOne, AssayTwo:
-		src := map[Approach][]byte{Assay: Spec10, AssayOne: Spec1(), AssayTwo: Spec2()}[a]
+	case Assay, AssayOne, AssayTwo, AssayCov:
+		src := map[Approach][]byte{Assay: Spec10, AssayOne: Spec1(), AssayTwo: Spec2(), AssayCov: Spec2Cov()}[a]
 		_, q, err := Compile("spec.toml", src)
 		if err != nil {
 			return nil, err

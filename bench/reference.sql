@@ -12,10 +12,17 @@
 --     converted and the ratio's denominator share one count);
 --   * the WHERE keeps only rows some aggregate reads (orders: delivered or
 --     cancelled), so fewer rows reach the hash aggregate;
+--   * each outcome scan carries the fixed time range any unit's window can
+--     reach (first trigger - 28 days to last trigger + 14 days), so the
+--     scan skips row groups outside it;
+--   * per-unit sums are exact (DECIMAL(38, 10)), like assay's, so a total
+--     that equals a threshold (engaged: duration above 600) is on the same
+--     side of it in every run;
 --   * timestamps are compared as TIMESTAMP with the trigger, with no
 --     per-row conversion.
 -- Times: exposures are read in [2026-03-02, 2026-04-13); a unit counts for a
 -- metric when trigger + window end <= 2026-04-13 (the analysis end).
+-- orders_14d's CUPED covariate is the same count in [trigger - 28d, trigger).
 WITH
 units AS (
   SELECT
@@ -37,12 +44,14 @@ eligible AS (
 order_units AS (
   SELECT
     o.unit_id,
-    count(*) FILTER (WHERE o.status = 'delivered') AS delivered,
-    sum(CAST(o.amount AS DOUBLE)) FILTER (WHERE o.status = 'delivered') AS revenue,
-    count(*) FILTER (WHERE o.status = 'cancelled' AND o.ordered_at < e.trig + INTERVAL 7 DAY) AS cancelled_7d
+    count(*) FILTER (WHERE o.status = 'delivered' AND o.ordered_at >= e.trig) AS delivered,
+    CAST(sum(CAST(o.amount AS DECIMAL(38, 10))) FILTER (WHERE o.status = 'delivered' AND o.ordered_at >= e.trig) AS DOUBLE) AS revenue,
+    count(*) FILTER (WHERE o.status = 'cancelled' AND o.ordered_at >= e.trig AND o.ordered_at < e.trig + INTERVAL 7 DAY) AS cancelled_7d,
+    count(*) FILTER (WHERE o.status = 'delivered' AND o.ordered_at < e.trig) AS delivered_pre
   FROM orders AS o
   JOIN eligible AS e ON e.unit_id = o.unit_id
-  WHERE o.ordered_at >= e.trig AND o.ordered_at < e.trig + INTERVAL 14 DAY
+  WHERE o.ordered_at >= e.trig - INTERVAL 28 DAY AND o.ordered_at < e.trig + INTERVAL 14 DAY
+    AND o.ordered_at >= TIMESTAMP '2026-02-02 00:00:00' AND o.ordered_at < TIMESTAMP '2026-04-27 00:00:00'
     AND o.status IN ('delivered', 'cancelled')
   GROUP BY o.unit_id
 ),
@@ -50,11 +59,12 @@ session_units AS (
   SELECT
     s.unit_id,
     count(*) AS sessions,
-    sum(CAST(s.duration_s AS DOUBLE)) AS duration,
+    CAST(sum(CAST(s.duration_s AS DECIMAL(38, 10))) AS DOUBLE) AS duration,
     count(DISTINCT s.page) AS pages
   FROM sessions AS s
   JOIN eligible AS e ON e.unit_id = s.unit_id
   WHERE s.started_at >= e.trig AND s.started_at < e.trig + INTERVAL 14 DAY
+    AND s.started_at >= TIMESTAMP '2026-03-02 00:00:00' AND s.started_at < TIMESTAMP '2026-04-27 00:00:00'
   GROUP BY s.unit_id
 ),
 unit_values AS (
@@ -66,6 +76,7 @@ unit_values AS (
     CAST(coalesce(o.delivered, 0) AS DOUBLE) AS delivered,
     coalesce(o.revenue, 0) AS revenue,
     CAST(coalesce(o.cancelled_7d, 0) AS DOUBLE) AS cancelled_7d,
+    CAST(coalesce(o.delivered_pre, 0) AS DOUBLE) AS delivered_pre,
     CAST(coalesce(s.sessions, 0) AS DOUBLE) AS sessions,
     coalesce(s.duration, 0) AS duration,
     CAST(coalesce(s.pages, 0) AS DOUBLE) AS pages
@@ -80,6 +91,9 @@ SELECT
   count(*) FILTER (WHERE mature_14d) AS orders_14d__n,
   avg(delivered) FILTER (WHERE mature_14d) AS orders_14d__mean,
   var_samp(delivered) FILTER (WHERE mature_14d) AS orders_14d__var,
+  avg(delivered_pre) FILTER (WHERE mature_14d) AS orders_14d__x_mean,
+  var_samp(delivered_pre) FILTER (WHERE mature_14d) AS orders_14d__x_var,
+  covar_samp(delivered, delivered_pre) FILTER (WHERE mature_14d) AS orders_14d__yx_cov,
   count(*) FILTER (WHERE mature_14d) AS revenue_14d__n,
   avg(revenue) FILTER (WHERE mature_14d) AS revenue_14d__mean,
   var_samp(revenue) FILTER (WHERE mature_14d) AS revenue_14d__var,

@@ -89,7 +89,10 @@ func cmdCalibrate(args []string, stdout, stderr io.Writer) int {
 		return ExitEngine
 	}
 	defer conn.Close()
+	prog := newProgress(stderr)
+	prog.Stage(fmt.Sprintf("running %d re-splits in one query", *splits))
 	rows, err := engine.QueryMain(ctx, conn, q.Main, []string{compiler.ColSplit})
+	prog.Done()
 	if err != nil {
 		fmt.Fprintf(stderr, "assay: query failed: %v\n", engine.CleanError(err))
 		return ExitEngine

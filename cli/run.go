@@ -120,20 +120,26 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		defer conn.Close()
 	}
 	// --- end of engine opening ---
+	prog := newProgress(stderr)
+	defer prog.Done()
+	prog.Stage("checking sources and columns")
 	if src, cds := specText(path), engine.CheckCatalog(ctx, conn, spec, d); len(cds) > 0 {
+		prog.Pause()
 		printDiags(stderr, cds, src)
 		if cds.HasErrors() {
 			return ExitInput
 		}
 	}
+	prog.Stage("running the per-variant and health queries")
 	res, err := engine.Query(ctx, conn, q.Main, q.Health, nil)
 	if err != nil {
+		prog.Pause()
 		return queryFailed(ctx, stderr, err)
 	}
-	fmt.Fprintf(stderr, "assay: queries ran in %s\n", time.Since(start).Round(time.Millisecond))
 	ropt := report.Options{SRMAlpha: *srmAlpha, Adjust: *adjust}
 	rep, err := report.Analyze(plan, res, ropt)
 	if err != nil {
+		prog.Pause()
 		fmt.Fprintf(stderr, "assay: %v\n", err)
 		return ExitEngine
 	}
@@ -141,29 +147,35 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		for _, seg := range spec.Segments {
 			sp, ds := compiler.Compile(spec, compiler.Options{AsOf: asOfTime(plan), GroupBy: []string{seg.Name}})
 			if ds.HasErrors() {
+				prog.Pause()
 				printDiags(stderr, ds, nil)
 				return ExitInput
 			}
 			sq, err := compiler.Print(sp, d)
 			if err != nil {
+				prog.Pause()
 				fmt.Fprintf(stderr, "assay: %v\n", err)
 				return ExitInput
 			}
 			key := sp.GroupBy[0].Name
+			prog.Stage("running the breakdown by segment " + seg.Name)
 			rows, err := engine.QueryMain(ctx, conn, sq.Main, []string{key})
 			if err != nil {
+				prog.Pause()
 				return queryFailed(ctx, stderr, fmt.Errorf("segment %s: %w", seg.Name, err))
 			}
 			rep.AddSegment(sp, seg.Name, key, rows, ropt)
 		}
-		fmt.Fprintf(stderr, "assay: %d segment breakdown(s) in %s\n", len(spec.Segments), time.Since(start).Round(time.Millisecond))
 	}
 	if *save != "" && ctx.Err() == nil {
+		prog.Stage("saving " + *save)
 		if err := report.Save(*save, rep, start); err != nil {
+			prog.Pause()
 			fmt.Fprintf(stderr, "assay: %v\n", err)
 			return ExitEngine
 		}
 	}
+	prog.Done()
 	return emitReport(rep, *format, *failHarm, stdout, stderr)
 }
 

@@ -2,6 +2,7 @@ package compiler
 
 import (
 	"fmt"
+	"sort"
 	"strconv"
 	"strings"
 	"time"
@@ -68,6 +69,10 @@ type printer struct {
 	d   dialects.Dialect
 	b   strings.Builder
 	err error
+	// same maps a pass column to the earlier column of the same pass that
+	// computes exactly the same aggregate (e.g. a count that is both a
+	// mean metric and a ratio's denominator); the pass computes it once.
+	same map[string]string
 }
 
 func (pr *printer) line(indent int, format string, args ...any) {
@@ -149,7 +154,11 @@ func (pr *printer) cohort() {
 
 	pr.line(0, "WITH")
 	pr.line(0, "-- Exposure rows of %s inside the analysis window; rows without a unit or time are ignored.", oneLine(src.Name))
-	pr.line(0, "exposure_rows AS (")
+	if in, ok := pr.d.(dialects.Inliner); ok {
+		pr.line(0, "exposure_rows AS %s (", in.Inline())
+	} else {
+		pr.line(0, "exposure_rows AS (")
+	}
 	pr.line(1, "SELECT")
 	pr.line(2, "x.%s AS unit_id,", pr.id(src.Unit))
 	pr.line(2, "%s AS variant,", pr.d.Text("x."+pr.id(ex.Variant)))
@@ -170,27 +179,59 @@ func (pr *printer) cohort() {
 	}
 	pr.line(0, "),")
 
-	pr.line(0, "-- One row per exposed unit: how many variants it was seen in (more than one: crossover).")
+	// The trigger and the crossover test come from one GROUP BY over the
+	// exposure rows. Only units whose trigger variant is not implied by
+	// that aggregate (seen in more than one variant, or in rows without
+	// one) go back to their rows at the trigger time; with segments read
+	// from the exposure row, every unit does, to pick that row's values.
+	pr.line(0, "-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and")
+	pr.line(0, "-- greatest variant it was seen in (when they differ, the unit crossed over).")
 	pr.line(0, "exposed_units AS (")
-	pr.line(1, "SELECT unit_id, count(DISTINCT variant) AS variants_seen")
+	pr.line(1, "SELECT")
+	pr.line(2, "unit_id,")
+	pr.line(2, "min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,")
+	pr.line(2, "min(variant) AS variant_lo,")
+	pr.line(2, "max(variant) AS variant_hi,")
+	pr.line(2, "(count(variant) = count(*)) AS variant_always_set")
 	pr.line(1, "FROM exposure_rows")
 	pr.line(1, "GROUP BY unit_id")
 	pr.line(0, "),")
 
-	order := "ts_us, variant"
-	for _, seg := range segsOn(segs, src) {
-		order += ", " + pr.id("seg_"+seg.Name)
-	}
+	exSegs := segsOn(segs, src)
+	crossover := "coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover"
+	atTrigger := "JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies"
 	pr.line(0, "-- Trigger: each unit's first qualifying exposure%s.", filterNote(ex.Filter))
-	pr.line(0, "triggers AS (")
-	pr.line(1, "SELECT q.unit_id, q.variant, q.ts_us AS trigger_us%s", segCols(pr, segsOn(segs, src), "q"))
-	pr.line(1, "FROM (")
-	pr.line(2, "SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY %s) AS rn", prefixCols(order, "r."))
-	pr.line(2, "FROM exposure_rows AS r")
-	pr.line(2, "WHERE r.qualifies")
-	pr.line(1, ") AS q")
-	pr.line(1, "WHERE q.rn = 1")
-	pr.line(0, "),")
+	if len(exSegs) == 0 {
+		pr.line(0, "-- A unit always seen in one variant takes it; any other unit takes the least variant among")
+		pr.line(0, "-- its qualifying rows at the trigger time.")
+		pr.line(0, "triggers AS (")
+		pr.line(1, "SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover")
+		pr.line(1, "FROM exposed_units AS u")
+		pr.line(1, "WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set")
+		pr.line(1, "UNION ALL")
+		pr.line(1, "SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, %s", crossover)
+		pr.line(1, "FROM exposed_units AS u")
+		pr.line(1, "%s", atTrigger)
+		pr.line(1, "WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)")
+		pr.line(1, "GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi")
+		pr.line(0, "),")
+	} else {
+		order := "r.variant"
+		for _, seg := range exSegs {
+			order += ", r." + pr.id("seg_"+seg.Name)
+		}
+		pr.line(0, "-- Among its qualifying rows at the trigger time, the unit takes the first by %s.", strings.ReplaceAll(order, "r.", ""))
+		pr.line(0, "triggers AS (")
+		pr.line(1, "SELECT q.unit_id, q.variant, q.trigger_us, q.is_crossover%s", segCols(pr, exSegs, "q"))
+		pr.line(1, "FROM (")
+		pr.line(2, "SELECT u.unit_id, r.variant, u.trigger_us, %s%s,", crossover, segCols(pr, exSegs, "r"))
+		pr.line(3, "row_number() OVER (PARTITION BY u.unit_id ORDER BY %s) AS rn", order)
+		pr.line(2, "FROM exposed_units AS u")
+		pr.line(2, "%s", atTrigger)
+		pr.line(1, ") AS q")
+		pr.line(1, "WHERE q.rn = 1")
+		pr.line(0, "),")
+	}
 
 	for _, a := range p.Attrs {
 		pr.attribute(a)
@@ -217,13 +258,12 @@ func (pr *printer) cohort() {
 	for i, v := range p.Variants {
 		vs[i] = d.String(v)
 	}
-	pr.line(2, "(u.variants_seen > 1) AS is_crossover,")
-	pr.line(2, "(t.variant NOT IN (%s)) AS is_unknown_variant%s", strings.Join(vs, ", "), commaIf(len(p.Rules) > 0))
+	pr.line(2, "t.is_crossover,")
+	pr.line(2, "(t.variant IS NULL OR t.variant NOT IN (%s)) AS is_unknown_variant%s", strings.Join(vs, ", "), commaIf(len(p.Rules) > 0))
 	for i, r := range p.Rules {
 		pr.line(2, "(r%d.unit_id IS %sNULL) AS %s%s", i+1, notIf(!r.Absent), pr.id("fails_"+r.Name), commaIf(i < len(p.Rules)-1))
 	}
 	pr.line(1, "FROM triggers AS t")
-	pr.line(1, "JOIN exposed_units AS u ON u.unit_id = t.unit_id")
 	for _, a := range p.Attrs {
 		if segUses(segs, a) {
 			al := attrAlias(p, a)
@@ -284,14 +324,6 @@ func segCols(pr *printer, segs []*metrics.Segment, alias string) string {
 		b.WriteString(", " + alias + "." + pr.id("seg_"+s.Name))
 	}
 	return b.String()
-}
-
-func prefixCols(list, prefix string) string {
-	parts := strings.Split(list, ", ")
-	for i := range parts {
-		parts[i] = prefix + parts[i]
-	}
-	return strings.Join(parts, ", ")
 }
 
 func commaIf(b bool) string {
@@ -466,12 +498,39 @@ func (pr *printer) outcomeSources() []*metrics.Source {
 // a: inside the aggregate's window relative to the unit's trigger, and its
 // filter.
 func (pr *printer) rowCond(a *AggPlan, src *metrics.Source) string {
-	t := pr.time(src, "s")
-	cond := fmt.Sprintf("%s >= %s AND %s < %s", t, plusUS("e.trigger_us", a.From.Micros), t, plusUS("e.trigger_us", a.To.Micros))
+	cond := fmt.Sprintf("r.dt_us >= %s AND r.dt_us < %s", us(a.From.Micros), us(a.To.Micros))
 	if a.Agg.Filter != nil {
-		cond += " AND " + paren(pr.expr(a.Agg.Filter, "s"))
+		cond += " AND " + paren(pr.passExpr(a.Agg.Filter))
 	}
 	return cond
+}
+
+// passExpr renders a user expression over a pass's row r, whose source
+// columns are renamed c_<name> so that they cannot collide with the
+// pass's own unit_id and dt_us.
+func (pr *printer) passExpr(e *metrics.Expr) string {
+	return pr.d.Expr(e.Node, func(name string) string { return "r." + pr.id("c_"+name) })
+}
+
+// passColumns lists the source columns a pass's expressions read, sorted.
+func passColumns(sp *SourcePass) []string {
+	seen := map[string]bool{}
+	for _, a := range sp.Aggs {
+		for _, e := range []*metrics.Expr{a.Agg.Filter, a.Agg.Value} {
+			if e == nil {
+				continue
+			}
+			for _, c := range expr.Columns(e.Node) {
+				seen[c] = true
+			}
+		}
+	}
+	out := make([]string, 0, len(seen))
+	for c := range seen {
+		out = append(out, c)
+	}
+	sort.Strings(out)
+	return out
 }
 
 func (pr *printer) aggExpr(a *AggPlan, src *metrics.Source) string {
@@ -479,11 +538,16 @@ func (pr *printer) aggExpr(a *AggPlan, src *metrics.Source) string {
 	switch a.Agg.Func {
 	case metrics.AggSum:
 		// NaN and ±Inf would poison every mean and variance: x - x = 0 holds
-		// only for finite x (and is NULL for NULL), on every engine.
-		v := pr.d.Double(pr.expr(a.Agg.Value, "s"))
-		return fmt.Sprintf("sum(CASE WHEN %s AND %s - %s = 0 THEN %s END)", cond, v, v, v)
+		// only for finite x (and is NULL for NULL), on every engine. The
+		// sum itself is exact, over values fixed to 10 decimal places: a
+		// floating-point sum depends on the order in which a parallel
+		// engine adds the rows, and a total that is exactly a proportion's
+		// threshold (250.3 + 349.7 against 600) would otherwise fall on
+		// either side of it from one run to the next.
+		v := pr.d.Double(pr.passExpr(a.Agg.Value))
+		return pr.d.Double(fmt.Sprintf("sum(CASE WHEN %s AND %s - %s = 0 THEN %s END)", cond, v, v, pr.d.Fixed(v)))
 	case metrics.AggCountDistinct:
-		return fmt.Sprintf("count(DISTINCT CASE WHEN %s THEN %s END)", cond, pr.expr(a.Agg.Value, "s"))
+		return fmt.Sprintf("count(DISTINCT CASE WHEN %s THEN %s END)", cond, pr.passExpr(a.Agg.Value))
 	default:
 		return fmt.Sprintf("count(CASE WHEN %s THEN 1 END)", cond)
 	}
@@ -516,7 +580,7 @@ func countsNonFinite(a *AggPlan) bool { return a.Agg.Func == metrics.AggSum && a
 
 func (pr *printer) nonFiniteExpr(a *AggPlan, src *metrics.Source) string {
 	cond := pr.rowCond(a, src)
-	v := pr.d.Double(pr.expr(a.Agg.Value, "s"))
+	v := pr.d.Double(pr.passExpr(a.Agg.Value))
 	return fmt.Sprintf("count(CASE WHEN %s AND NOT (%s - %s = 0) THEN 1 END)", cond, v, v)
 }
 
@@ -547,24 +611,61 @@ func (pr *printer) passes() {
 		}
 		pr.line(0, "-- One pass over %s for: %s.", oneLine(src.Name), oneLine(strings.Join(names, ", ")))
 		pr.line(0, "%s AS (", pr.id("pass_"+src.Name))
-		pr.line(1, "SELECT")
-		pr.line(2, "e.unit_id,")
-		for i, a := range sp.Aggs {
-			pr.line(2, "-- %s: %s in [trigger %s, trigger %s)", oneLine(a.Col), aggRule(a), signed(a.From), signed(a.To))
-			pr.line(2, "%s AS %s%s", pr.aggExpr(a, src), pr.id(a.Col), commaIf(i < len(sp.Aggs)-1 || countsNonFinite(a)))
+		// Aggregates that render identically are computed once; the
+		// duplicates are read from the first in unit_values.
+		if pr.same == nil {
+			pr.same = map[string]string{}
+		}
+		first := map[string]string{}
+		var lines [][2]string // comment, aggregate
+		for _, a := range sp.Aggs {
+			e := pr.aggExpr(a, src)
+			key := fmt.Sprint(countsNonFinite(a), e)
+			if f, ok := first[key]; ok {
+				pr.same[a.Col] = f
+				lines = append(lines, [2]string{fmt.Sprintf("-- %s: %s in [trigger %s, trigger %s): the same as %s", oneLine(a.Col), aggRule(a), signed(a.From), signed(a.To), oneLine(f)), ""})
+				continue
+			}
+			first[key] = a.Col
+			lines = append(lines, [2]string{fmt.Sprintf("-- %s: %s in [trigger %s, trigger %s)", oneLine(a.Col), aggRule(a), signed(a.From), signed(a.To)), e + " AS " + pr.id(a.Col)})
 			if countsNonFinite(a) {
-				pr.line(2, "%s AS %s%s", pr.nonFiniteExpr(a, src), pr.id(a.Col+"__nonfinite"), commaIf(i < len(sp.Aggs)-1))
+				lines = append(lines, [2]string{"", pr.nonFiniteExpr(a, src) + " AS " + pr.id(a.Col+"__nonfinite")})
 			}
 		}
-		pr.line(1, "FROM eligible AS e")
-		pr.line(1, "JOIN %s AS s ON s.%s = e.unit_id", pr.from(src), pr.id(src.Unit))
-		t := pr.time(src, "s")
-		pr.line(1, "WHERE %s >= %s AND %s < %s", t, plusUS("e.trigger_us", sp.From), t, plusUS("e.trigger_us", sp.To))
+		last := 0
+		for i, l := range lines {
+			if l[1] != "" {
+				last = i
+			}
+		}
+		pr.line(1, "SELECT")
+		pr.line(2, "r.unit_id,")
+		for i, l := range lines {
+			if l[0] != "" {
+				pr.line(2, "%s", l[0])
+			}
+			if l[1] != "" {
+				pr.line(2, "%s%s", l[1], commaIf(i < last))
+			}
+		}
+		// Each joined row's time is converted and offset from the trigger
+		// once (dt_us, microseconds after it); every window test is then a
+		// comparison with a constant.
+		cols := ""
+		for _, c := range passColumns(sp) {
+			cols += fmt.Sprintf(", s.%s AS %s", pr.id(c), pr.id("c_"+c))
+		}
+		pr.line(1, "FROM (")
+		pr.line(2, "SELECT e.unit_id, %s - e.trigger_us AS dt_us%s", pr.time(src, "s"), cols)
+		pr.line(2, "FROM eligible AS e")
+		pr.line(2, "JOIN %s AS s ON s.%s = e.unit_id", pr.from(src), pr.id(src.Unit))
 		if pf := pr.prefilter(src, "s", sp.From, sp.To); pf != "" {
 			pr.line(2, "-- static range (widened by two days) so the engine can skip data early")
-			pr.line(2, "AND %s", pf)
+			pr.line(2, "WHERE %s", pf)
 		}
-		pr.line(1, "GROUP BY e.unit_id")
+		pr.line(1, ") AS r")
+		pr.line(1, "WHERE r.dt_us >= %s AND r.dt_us < %s", us(sp.From), us(sp.To))
+		pr.line(1, "GROUP BY r.unit_id")
 		pr.line(0, "),")
 	}
 }
@@ -588,9 +689,13 @@ func (pr *printer) units(more bool) {
 	var cols []string
 	for i, sp := range p.Sources {
 		for _, a := range sp.Aggs {
-			cols = append(cols, fmt.Sprintf("coalesce(p%d.%s, 0) AS %s", i+1, pr.id(a.Col), pr.id(a.Col)))
+			from := a.Col
+			if f, ok := pr.same[a.Col]; ok {
+				from = f
+			}
+			cols = append(cols, fmt.Sprintf("coalesce(p%d.%s, 0) AS %s", i+1, pr.id(from), pr.id(a.Col)))
 			if countsNonFinite(a) {
-				cols = append(cols, fmt.Sprintf("coalesce(p%d.%s, 0) AS %s", i+1, pr.id(a.Col+"__nonfinite"), pr.id(a.Col+"__nonfinite")))
+				cols = append(cols, fmt.Sprintf("coalesce(p%d.%s, 0) AS %s", i+1, pr.id(from+"__nonfinite"), pr.id(a.Col+"__nonfinite")))
 			}
 		}
 	}
@@ -972,7 +1077,7 @@ func (pr *printer) health() (string, error) {
 	pr.line(1, "UNION ALL")
 	sel(q("triggers"), "NULL", "variant", "trigger_day", "count(*)", "count(*)", "cohort", "", "variant, trigger_day")
 	pr.line(1, "UNION ALL")
-	sel(q("never_triggered"), "NULL", "NULL", "NULL", "count(*)", "count(*)", "exposed_units AS u", "NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)", "")
+	sel(q("never_triggered"), "NULL", "NULL", "NULL", "count(*)", "count(*)", "exposed_units AS u", "u.trigger_us IS NULL", "")
 	reasons := []struct{ name, col string }{{"crossover", "is_crossover"}, {"unknown_variant", "is_unknown_variant"}}
 	for _, r := range p.Rules {
 		reasons = append(reasons, struct{ name, col string }{"rule:" + r.Name, pr.id("fails_" + r.Name)})

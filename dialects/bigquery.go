@@ -65,6 +65,10 @@ func (BigQuery) Text(x string) string { return "CAST(" + x + " AS STRING)" }
 // Double implements Dialect.
 func (BigQuery) Double(x string) string { return "CAST(" + x + " AS FLOAT64)" }
 
+// Fixed implements Dialect.
+// BigQuery has no DECIMAL(38, 10); BIGNUMERIC keeps 38 decimal places.
+func (BigQuery) Fixed(x string) string { return "CAST(" + x + " AS BIGNUMERIC)" }
+
 // VarSamp implements Dialect.
 func (BigQuery) VarSamp(x string) string { return "VAR_SAMP(" + x + ")" }
 

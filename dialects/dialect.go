@@ -39,6 +39,11 @@ type Dialect interface {
 	Text(x string) string
 	// Double casts to a double-precision float: `CAST(x AS DOUBLE)`.
 	Double(x string) string
+	// Fixed casts a double to an exact decimal with 10 places, wide enough
+	// for any per-unit total below 10^28: DuckDB `CAST(x AS DECIMAL(38, 10))`,
+	// PostgreSQL `CAST(x AS NUMERIC(38, 10))`. Per-unit sums add these, so
+	// the total does not depend on the order in which the engine adds rows.
+	Fixed(x string) string
 	// VarSamp is the numerically stable sample variance (n-1): `var_samp(x)`.
 	VarSamp(x string) string
 	// CovarSamp is the numerically stable sample covariance: `covar_samp(x, y)`.
@@ -81,6 +86,18 @@ type TimeLiterals interface {
 	// TimeLiteral renders the UTC wall-clock time us (microseconds since
 	// the epoch) as a timestamp literal: DuckDB `TIMESTAMP '2026-03-02 00:00:00'`.
 	TimeLiteral(us int64) string
+}
+
+// Inliner is implemented by dialects that can be told not to materialise
+// a common table expression referenced more than once. The exposure rows
+// are read by the trigger aggregate and again, for the few units whose
+// trigger variant the aggregate does not settle, by a join; an engine
+// that pushes that join's filters into a second scan of the table does
+// less work than one that first writes every exposure row aside.
+type Inliner interface {
+	// Inline is the keyword placed between a CTE's name and AS's
+	// parenthesis: DuckDB `NOT MATERIALIZED`.
+	Inline() string
 }
 
 var registry = map[string]Dialect{}

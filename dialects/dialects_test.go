@@ -84,7 +84,7 @@ var notCalls = map[string]bool{
 	"as": true, "in": true, "exists": true, "over": true, "from": true, "join": true, "and": true, "or": true,
 	"not": true, "when": true, "then": true, "else": true, "where": true, "on": true, "cast": true, "extract": true,
 	"filter": true, "group": true, "select": true, "by": true, "varchar": true, "datetime": true, "char": true,
-	"decimal": true, "numeric": true, "values": true, "using": true, "all": true,
+	"decimal": true, "numeric": true, "number": true, "values": true, "using": true, "all": true,
 }
 
 // lexRules are a dialect's quoting rules.

@@ -77,6 +77,9 @@ func (MySQL) Text(x string) string {
 // Double implements Dialect (MySQL 8.0.17+, MariaDB 10.4+).
 func (MySQL) Double(x string) string { return "CAST(" + x + " AS DOUBLE)" }
 
+// Fixed implements Dialect.
+func (MySQL) Fixed(x string) string { return "CAST(" + x + " AS DECIMAL(38, 10))" }
+
 // VarSamp implements Dialect.
 func (MySQL) VarSamp(x string) string { return "VAR_SAMP(" + x + ")" }
 

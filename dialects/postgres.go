@@ -66,6 +66,9 @@ func (Postgres) Text(x string) string { return "CAST(" + x + " AS TEXT)" }
 // Double implements Dialect.
 func (Postgres) Double(x string) string { return "CAST(" + x + " AS DOUBLE PRECISION)" }
 
+// Fixed implements Dialect.
+func (Postgres) Fixed(x string) string { return "CAST(" + x + " AS NUMERIC(38, 10))" }
+
 // VarSamp implements Dialect.
 func (Postgres) VarSamp(x string) string { return "var_samp(" + x + ")" }
 

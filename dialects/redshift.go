@@ -63,6 +63,9 @@ func (Redshift) Text(x string) string { return "CAST(" + x + " AS VARCHAR(65535)
 // Double implements Dialect.
 func (Redshift) Double(x string) string { return "CAST(" + x + " AS DOUBLE PRECISION)" }
 
+// Fixed implements Dialect.
+func (Redshift) Fixed(x string) string { return "CAST(" + x + " AS DECIMAL(38, 10))" }
+
 // VarSamp implements Dialect.
 func (Redshift) VarSamp(x string) string { return "VAR_SAMP(" + x + ")" }
 

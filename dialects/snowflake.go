@@ -61,6 +61,9 @@ func (Snowflake) Text(x string) string { return "CAST(" + x + " AS VARCHAR)" }
 // Double implements Dialect.
 func (Snowflake) Double(x string) string { return "CAST(" + x + " AS DOUBLE)" }
 
+// Fixed implements Dialect.
+func (Snowflake) Fixed(x string) string { return "CAST(" + x + " AS NUMBER(38, 10))" }
+
 // VarSamp implements Dialect.
 func (Snowflake) VarSamp(x string) string { return "VAR_SAMP(" + x + ")" }
 

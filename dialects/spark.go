@@ -58,6 +58,9 @@ func (Spark) Text(x string) string { return "CAST(" + x + " AS STRING)" }
 // Double implements Dialect.
 func (Spark) Double(x string) string { return "CAST(" + x + " AS DOUBLE)" }
 
+// Fixed implements Dialect.
+func (Spark) Fixed(x string) string { return "CAST(" + x + " AS DECIMAL(38, 10))" }
+
 // VarSamp implements Dialect.
 func (Spark) VarSamp(x string) string { return "var_samp(" + x + ")" }
 

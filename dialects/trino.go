@@ -59,6 +59,9 @@ func (Trino) Text(x string) string { return "CAST(" + x + " AS VARCHAR)" }
 // Double implements Dialect.
 func (Trino) Double(x string) string { return "CAST(" + x + " AS DOUBLE)" }
 
+// Fixed implements Dialect.
+func (Trino) Fixed(x string) string { return "CAST(" + x + " AS DECIMAL(38, 10))" }
+
 // VarSamp implements Dialect.
 func (Trino) VarSamp(x string) string { return "var_samp(" + x + ")" }
 

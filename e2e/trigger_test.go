@@ -24,6 +24,26 @@ value = "w"
 window = ["0d", "1d"]
 `
 
+// thresholdMetrics are proportions of units whose 14-day sum of w is above
+// 0.3 and above 0.6.
+const thresholdMetrics = `
+[metrics.over_03]
+role = "secondary"
+kind = "proportion"
+source = "events"
+value = "w"
+above = 0.3
+window = ["0d", "14d"]
+
+[metrics.over_06]
+role = "secondary"
+kind = "proportion"
+source = "events"
+value = "w"
+above = 0.6
+window = ["0d", "14d"]
+`
+
 // metricCount14 counts event rows in [0d, 14d).
 const metricCount14 = `
 [metrics.events14]
@@ -306,6 +326,83 @@ filter = "tier = 'gold'"
 				checkExclusion(t, r, "crossover", 2, map[string]int64{"control": 1, "treatment": 1})
 				checkUnits(t, r, "control", 3, 2)
 				checkUnits(t, r, "treatment", 2, 1)
+			},
+		},
+		{
+			name:  "the trigger variant under ties, missing variants and non-qualifying rows",
+			parts: specParts{ExposureFilter: "surface = 'home'", Metrics: metricSumW},
+			expo: []row{
+				{"t1", "control", ts("2026-03-03 00:00:00"), "search"}, // does not qualify, but is seen
+				{"t1", "treatment", ts("2026-03-04 00:00:00"), "home"}, // trigger: crossover in treatment
+				{"t2", "treatment", ts("2026-03-05 00:00:00"), "home"},
+				{"t2", "control", ts("2026-03-05 00:00:00"), "home"}, // same instant: the least variant, control
+				{"t3", nil, ts("2026-03-03 00:00:00"), "home"},       // trigger without a variant
+				{"t3", "control", ts("2026-03-06 00:00:00"), "home"},
+				{"t4", "control", ts("2026-03-03 00:00:00"), "home"},
+				{"t4", nil, ts("2026-03-03 00:00:00"), "home"}, // same instant as a control row: control
+				{"u1", "treatment", ts("2026-03-03 00:00:00"), "home"},
+				{"c1", "control", ts("2026-03-03 00:00:00"), "home"},
+			},
+			events: []row{
+				{"t1", ts("2026-03-04 01:00:00"), 1.0},
+				{"t2", ts("2026-03-05 01:00:00"), 2.0},
+				{"t3", ts("2026-03-06 01:00:00"), 4.0},
+				{"t4", ts("2026-03-03 01:00:00"), 8.0},
+				{"u1", ts("2026-03-03 01:00:00"), 16.0},
+				{"c1", ts("2026-03-03 01:00:00"), 32.0},
+			},
+			check: func(t *testing.T, r *report) {
+				// Eligible: control t4 + c1 = 8 + 32 = 40; treatment u1 = 16.
+				// Crossovers (seen in two variants, any surface): t1
+				// (triggered in treatment), t2 (tie at its trigger, the least
+				// variant: control). t3's trigger row has no variant: it is
+				// excluded as an unknown variant, not silently dropped.
+				checkWants(t, r, []want{
+					{"w14", "control", 2, 40, 0},
+					{"w14", "treatment", 1, 16, 0},
+				})
+				checkExclusion(t, r, "crossover", 2, map[string]int64{"control": 1, "treatment": 1})
+				checkExclusion(t, r, "unknown_variant", 1, nil)
+				checkExclusion(t, r, "any", 3, map[string]int64{"control": 1, "treatment": 1})
+				checkUnits(t, r, "control", 3, 2)
+				checkUnits(t, r, "treatment", 2, 1)
+			},
+		},
+		{
+			// Source: exact decimal arithmetic, hand-worked. In binary
+			// floating point 0.1 + 0.2 = 0.30000000000000004 > 0.3 and
+			// 0.2 + 0.1 gives the same, but (0.1 + 0.2) + 0.3 and
+			// 0.1 + (0.2 + 0.3) differ (0.6000000000000001 and 0.6), so a
+			// double sum's side of a threshold can depend on the order in
+			// which the engine adds rows (IEEE 754 double rounding, from
+			// memory).
+			name:  "per-unit sums are exact decimals, so a total equal to a threshold is not above it",
+			parts: specParts{Metrics: metricSumW + thresholdMetrics},
+			expo: []row{
+				{"s1", "control", ts("2026-03-03 00:00:00"), "home"},
+				{"s2", "control", ts("2026-03-03 00:00:00"), "home"},
+				{"s3", "control", ts("2026-03-03 00:00:00"), "home"},
+				{"s4", "treatment", ts("2026-03-03 00:00:00"), "home"},
+			},
+			events: []row{
+				{"s1", ts("2026-03-03 01:00:00"), 0.1}, // s1: 0.1 + 0.2 = 0.3, not above 0.3
+				{"s1", ts("2026-03-03 02:00:00"), 0.2},
+				{"s2", ts("2026-03-03 01:00:00"), 0.1}, // s2: 0.1 + 0.2 + 0.3 = 0.6, not above 0.6
+				{"s2", ts("2026-03-03 02:00:00"), 0.2},
+				{"s2", ts("2026-03-03 03:00:00"), 0.3},
+				{"s3", ts("2026-03-03 01:00:00"), 0.4}, // s3: 0.4, above 0.3, not above 0.6
+				{"s4", ts("2026-03-03 01:00:00"), 0.7}, // s4: 0.7, above both
+			},
+			check: func(t *testing.T, r *report) {
+				// over_03: s2 and s3 of control (2/3), not s1; over_06: none of
+				// control (s2 is exactly 0.6).
+				// w14 totals: control 0.3 + 0.6 + 0.4 = 1.3; treatment 0.7.
+				checkWants(t, r, []want{
+					{"over_03", "control", 3, 2, 0},
+					{"over_06", "control", 3, 0, 0},
+					{"over_03", "treatment", 1, 1, 0},
+					{"w14", "control", 3, 1.3, 0},
+				})
 			},
 		},
 		{

@@ -4,7 +4,7 @@
 -- File paths are relative to the spec's directory.
 WITH
 -- Exposure rows of exposures inside the analysis window; rows without a unit or time are ignored.
-exposure_rows AS (
+exposure_rows AS NOT MATERIALIZED (
   SELECT
     x."customer_id" AS unit_id,
     CAST(x."variant" AS VARCHAR) AS variant,
@@ -15,21 +15,31 @@ exposure_rows AS (
     AND epoch_us(x."exposed_at") >= 1772409600000000 AND epoch_us(x."exposed_at") < 1776038400000000
     AND x."exposed_at" >= TIMESTAMP '2026-02-28 00:00:00' AND x."exposed_at" < TIMESTAMP '2026-04-15 00:00:00'
 ),
--- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over).
 exposed_units AS (
-  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi,
+    (count(variant) = count(*)) AS variant_always_set
   FROM exposure_rows
   GROUP BY unit_id
 ),
 -- Trigger: each unit's first qualifying exposure (a row qualifies when: surface = 'home').
+-- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- its qualifying rows at the trigger time.
 triggers AS (
-  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
-  FROM (
-    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
-    FROM exposure_rows AS r
-    WHERE r.qualifies
-  ) AS q
-  WHERE q.rn = 1
+  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  UNION ALL
+  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  FROM exposed_units AS u
+  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
 ),
 -- Rule recent_order: eligible when the unit has row in orders in [trigger - 60d, trigger + 0d) where status <> 'cancelled'.
 rule_1 AS (
@@ -48,11 +58,10 @@ cohort AS (
     t.variant,
     t.trigger_us,
     CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
-    (u.variants_seen > 1) AS is_crossover,
-    (t.variant NOT IN ('control', 'shelf')) AS is_unknown_variant,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'shelf')) AS is_unknown_variant,
     (r1.unit_id IS NULL) AS "fails_recent_order"
   FROM triggers AS t
-  JOIN exposed_units AS u ON u.unit_id = t.unit_id
   LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
 ),
 -- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
@@ -66,54 +75,61 @@ eligible AS (
 -- One pass over orders for: m_orders_14d, m_orders_14d__x, m_basket_value__num, m_basket_value__den, m_basket_value__x, m_converted, m_cancelled.
 "pass_orders" AS (
   SELECT
-    e.unit_id,
+    r.unit_id,
     -- m_orders_14d: count of rows where status = 'delivered' in [trigger + 0d, trigger + 14d)
-    count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN 1 END) AS "m_orders_14d",
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r."c_status" = 'delivered') THEN 1 END) AS "m_orders_14d",
     -- m_orders_14d__x: count of rows where status = 'delivered' in [trigger - 28d, trigger + 0d)
-    count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us - 2419200000000 AND epoch_us(s."ordered_at") < e.trigger_us + 0 AND (s."status" = 'delivered') THEN 1 END) AS "m_orders_14d__x",
+    count(CASE WHEN r.dt_us >= -2419200000000 AND r.dt_us < 0 AND (r."c_status" = 'delivered') THEN 1 END) AS "m_orders_14d__x",
     -- m_basket_value__num: sum of amount where status = 'delivered' in [trigger + 0d, trigger + 14d)
-    sum(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') AND CAST(s."amount" AS DOUBLE) - CAST(s."amount" AS DOUBLE) = 0 THEN CAST(s."amount" AS DOUBLE) END) AS "m_basket_value__num",
-    count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') AND NOT (CAST(s."amount" AS DOUBLE) - CAST(s."amount" AS DOUBLE) = 0) THEN 1 END) AS "m_basket_value__num__nonfinite",
-    -- m_basket_value__den: count of rows where status = 'delivered' in [trigger + 0d, trigger + 14d)
-    count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN 1 END) AS "m_basket_value__den",
+    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r."c_status" = 'delivered') AND CAST(r."c_amount" AS DOUBLE) - CAST(r."c_amount" AS DOUBLE) = 0 THEN CAST(CAST(r."c_amount" AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS "m_basket_value__num",
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r."c_status" = 'delivered') AND NOT (CAST(r."c_amount" AS DOUBLE) - CAST(r."c_amount" AS DOUBLE) = 0) THEN 1 END) AS "m_basket_value__num__nonfinite",
+    -- m_basket_value__den: count of rows where status = 'delivered' in [trigger + 0d, trigger + 14d): the same as m_orders_14d
     -- m_basket_value__x: sum of amount where status = 'delivered' in [trigger - 28d, trigger + 0d)
-    sum(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us - 2419200000000 AND epoch_us(s."ordered_at") < e.trigger_us + 0 AND (s."status" = 'delivered') AND CAST(s."amount" AS DOUBLE) - CAST(s."amount" AS DOUBLE) = 0 THEN CAST(s."amount" AS DOUBLE) END) AS "m_basket_value__x",
-    -- m_converted: count of rows where status = 'delivered' in [trigger + 0d, trigger + 14d)
-    count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'delivered') THEN 1 END) AS "m_converted",
+    CAST(sum(CASE WHEN r.dt_us >= -2419200000000 AND r.dt_us < 0 AND (r."c_status" = 'delivered') AND CAST(r."c_amount" AS DOUBLE) - CAST(r."c_amount" AS DOUBLE) = 0 THEN CAST(CAST(r."c_amount" AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS "m_basket_value__x",
+    -- m_converted: count of rows where status = 'delivered' in [trigger + 0d, trigger + 14d): the same as m_orders_14d
     -- m_cancelled: count of rows where status = 'cancelled' in [trigger + 0d, trigger + 14d)
-    count(CASE WHEN epoch_us(s."ordered_at") >= e.trigger_us + 0 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000 AND (s."status" = 'cancelled') THEN 1 END) AS "m_cancelled"
-  FROM eligible AS e
-  JOIN read_parquet('data/orders.parquet') AS s ON s."customer_id" = e.unit_id
-  WHERE epoch_us(s."ordered_at") >= e.trigger_us - 2419200000000 AND epoch_us(s."ordered_at") < e.trigger_us + 1209600000000
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r."c_status" = 'cancelled') THEN 1 END) AS "m_cancelled"
+  FROM (
+    SELECT e.unit_id, epoch_us(s."ordered_at") - e.trigger_us AS dt_us, s."amount" AS "c_amount", s."status" AS "c_status"
+    FROM eligible AS e
+    JOIN read_parquet('data/orders.parquet') AS s ON s."customer_id" = e.unit_id
     -- static range (widened by two days) so the engine can skip data early
-    AND s."ordered_at" >= TIMESTAMP '2026-01-31 00:00:00' AND s."ordered_at" < TIMESTAMP '2026-04-29 00:00:00'
-  GROUP BY e.unit_id
+    WHERE s."ordered_at" >= TIMESTAMP '2026-01-31 00:00:00' AND s."ordered_at" < TIMESTAMP '2026-04-29 00:00:00'
+  ) AS r
+  WHERE r.dt_us >= -2419200000000 AND r.dt_us < 1209600000000
+  GROUP BY r.unit_id
 ),
 -- One pass over taps for: m_shelf_taps.
 "pass_taps" AS (
   SELECT
-    e.unit_id,
+    r.unit_id,
     -- m_shelf_taps: count of rows in [trigger + 0d, trigger + 14d)
-    count(CASE WHEN epoch_us(s."tapped_at") >= e.trigger_us + 0 AND epoch_us(s."tapped_at") < e.trigger_us + 1209600000000 THEN 1 END) AS "m_shelf_taps"
-  FROM eligible AS e
-  JOIN read_parquet('data/taps.parquet') AS s ON s."customer_id" = e.unit_id
-  WHERE epoch_us(s."tapped_at") >= e.trigger_us + 0 AND epoch_us(s."tapped_at") < e.trigger_us + 1209600000000
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 THEN 1 END) AS "m_shelf_taps"
+  FROM (
+    SELECT e.unit_id, epoch_us(s."tapped_at") - e.trigger_us AS dt_us
+    FROM eligible AS e
+    JOIN read_parquet('data/taps.parquet') AS s ON s."customer_id" = e.unit_id
     -- static range (widened by two days) so the engine can skip data early
-    AND s."tapped_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."tapped_at" < TIMESTAMP '2026-04-29 00:00:00'
-  GROUP BY e.unit_id
+    WHERE s."tapped_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."tapped_at" < TIMESTAMP '2026-04-29 00:00:00'
+  ) AS r
+  WHERE r.dt_us >= 0 AND r.dt_us < 1209600000000
+  GROUP BY r.unit_id
 ),
 -- One pass over support for: m_support_contacts.
 "pass_support" AS (
   SELECT
-    e.unit_id,
+    r.unit_id,
     -- m_support_contacts: count of rows in [trigger + 0d, trigger + 14d)
-    count(CASE WHEN epoch_us(s."contacted_at") >= e.trigger_us + 0 AND epoch_us(s."contacted_at") < e.trigger_us + 1209600000000 THEN 1 END) AS "m_support_contacts"
-  FROM eligible AS e
-  JOIN read_parquet('data/support.parquet') AS s ON s."customer_id" = e.unit_id
-  WHERE epoch_us(s."contacted_at") >= e.trigger_us + 0 AND epoch_us(s."contacted_at") < e.trigger_us + 1209600000000
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 THEN 1 END) AS "m_support_contacts"
+  FROM (
+    SELECT e.unit_id, epoch_us(s."contacted_at") - e.trigger_us AS dt_us
+    FROM eligible AS e
+    JOIN read_parquet('data/support.parquet') AS s ON s."customer_id" = e.unit_id
     -- static range (widened by two days) so the engine can skip data early
-    AND s."contacted_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."contacted_at" < TIMESTAMP '2026-04-29 00:00:00'
-  GROUP BY e.unit_id
+    WHERE s."contacted_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."contacted_at" < TIMESTAMP '2026-04-29 00:00:00'
+  ) AS r
+  WHERE r.dt_us >= 0 AND r.dt_us < 1209600000000
+  GROUP BY r.unit_id
 ),
 -- One row per eligible unit; a unit without outcome rows counts as zero.
 unit_values AS (
@@ -126,9 +142,9 @@ unit_values AS (
     coalesce(p1."m_orders_14d__x", 0) AS "m_orders_14d__x",
     coalesce(p1."m_basket_value__num", 0) AS "m_basket_value__num",
     coalesce(p1."m_basket_value__num__nonfinite", 0) AS "m_basket_value__num__nonfinite",
-    coalesce(p1."m_basket_value__den", 0) AS "m_basket_value__den",
+    coalesce(p1."m_orders_14d", 0) AS "m_basket_value__den",
     coalesce(p1."m_basket_value__x", 0) AS "m_basket_value__x",
-    coalesce(p1."m_converted", 0) AS "m_converted",
+    coalesce(p1."m_orders_14d", 0) AS "m_converted",
     coalesce(p1."m_cancelled", 0) AS "m_cancelled",
     coalesce(p2."m_shelf_taps", 0) AS "m_shelf_taps",
     coalesce(p3."m_support_contacts", 0) AS "m_support_contacts"
@@ -204,7 +220,7 @@ ORDER BY u.variant
 -- File paths are relative to the spec's directory.
 WITH
 -- Exposure rows of exposures inside the analysis window; rows without a unit or time are ignored.
-exposure_rows AS (
+exposure_rows AS NOT MATERIALIZED (
   SELECT
     x."customer_id" AS unit_id,
     CAST(x."variant" AS VARCHAR) AS variant,
@@ -215,21 +231,31 @@ exposure_rows AS (
     AND epoch_us(x."exposed_at") >= 1772409600000000 AND epoch_us(x."exposed_at") < 1776038400000000
     AND x."exposed_at" >= TIMESTAMP '2026-02-28 00:00:00' AND x."exposed_at" < TIMESTAMP '2026-04-15 00:00:00'
 ),
--- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over).
 exposed_units AS (
-  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi,
+    (count(variant) = count(*)) AS variant_always_set
   FROM exposure_rows
   GROUP BY unit_id
 ),
 -- Trigger: each unit's first qualifying exposure (a row qualifies when: surface = 'home').
+-- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- its qualifying rows at the trigger time.
 triggers AS (
-  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
-  FROM (
-    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
-    FROM exposure_rows AS r
-    WHERE r.qualifies
-  ) AS q
-  WHERE q.rn = 1
+  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  UNION ALL
+  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  FROM exposed_units AS u
+  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
 ),
 -- Rule recent_order: eligible when the unit has row in orders in [trigger - 60d, trigger + 0d) where status <> 'cancelled'.
 rule_1 AS (
@@ -248,11 +274,10 @@ cohort AS (
     t.variant,
     t.trigger_us,
     CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
-    (u.variants_seen > 1) AS is_crossover,
-    (t.variant NOT IN ('control', 'shelf')) AS is_unknown_variant,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'shelf')) AS is_unknown_variant,
     (r1.unit_id IS NULL) AS "fails_recent_order"
   FROM triggers AS t
-  JOIN exposed_units AS u ON u.unit_id = t.unit_id
   LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
 ),
 -- Exposure rows outside the analysis window, or without a unit or time.
@@ -290,7 +315,7 @@ SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   UNION ALL
   SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM exposed_units AS u
-  WHERE NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)
+  WHERE u.trigger_us IS NULL
   UNION ALL
   SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort

@@ -131,7 +131,7 @@ func cmdMeasure(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	var ef engineFlags
 	ef.register(fs)
 	dbPath := fs.String("db", "", "benchmark database file (opened read-only)")
-	list := fs.String("approach", "a", "a, b, c, d, a1, a2 or compile50; several, comma-separated, are timed round by round")
+	list := fs.String("approach", "a", "a, b, c, d, a1, a2, a2c or compile50; several, comma-separated, are timed round by round")
 	runs := fs.Int("runs", 5, "timed runs after one warm-up")
 	if err := fs.Parse(args); err != nil {
 		return 1
@@ -212,7 +212,7 @@ func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	ef.register(fs)
 	sizes := fs.String("sizes", "10m", "comma-separated data set sizes")
 	runs := fs.Int("runs", 5, "timed runs per approach after one warm-up (medians are reported)")
-	list := fs.String("approaches", "a,b,c,d,a1,a2,compile50", "approaches to measure")
+	list := fs.String("approaches", "a,b,c,d,a1,a2,a2c,compile50", "approaches to measure")
 	clean := fs.Bool("clean", false, "delete each data set after measuring it")
 	jsonOut := fs.String("json", "", "also write all measurements to this file")
 	if err := fs.Parse(args); err != nil {
@@ -350,9 +350,10 @@ func printSize(w io.Writer, r *sizeResult, ef engineFlags) bool {
 	}
 	tw.Flush()
 	med := func(a bench.Approach) time.Duration { return r.By[a].Median }
-	fmt.Fprintf(w, "(a)/(b) = %s   (a)/(c) = %s   (d)/(a) = %s   10 metrics/1 metric (a)/(a1) = %s   10 metrics/1 per source (a)/(a2) = %s\n",
+	fmt.Fprintf(w, "(a)/(b) = %s   (a)/(c) = %s   (d)/(a) = %s   10 metrics/1 metric (a)/(a1) = %s   10 metrics/1 per source (a)/(a2) = %s   10 metrics/1 per source with CUPED (a)/(a2c) = %s\n",
 		ratio(med(bench.Assay), med(bench.Bound)), ratio(med(bench.Assay), med(bench.Reference)),
-		ratio(med(bench.Notebook), med(bench.Assay)), ratio(med(bench.Assay), med(bench.AssayOne)), ratio(med(bench.Assay), med(bench.AssayTwo)))
+		ratio(med(bench.Notebook), med(bench.Assay)), ratio(med(bench.Assay), med(bench.AssayOne)), ratio(med(bench.Assay), med(bench.AssayTwo)),
+		ratio(med(bench.Assay), med(bench.AssayCov)))
 	ok := true
 	base := r.By[bench.Assay].Decode()
 	for _, a := range []bench.Approach{bench.Reference, bench.Notebook} {

@@ -13,21 +13,31 @@ exposure_rows AS (
   WHERE x.`account_id` IS NOT NULL AND x.`ts` IS NOT NULL
     AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', x.`ts`) >= 1780272000000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', x.`ts`) < 1782864000000000
 ),
--- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over).
 exposed_units AS (
-  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi,
+    (count(variant) = count(*)) AS variant_always_set
   FROM exposure_rows
   GROUP BY unit_id
 ),
 -- Trigger: each unit's first qualifying exposure (a row qualifies when: page IN ('cart', 'checkout')).
+-- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- its qualifying rows at the trigger time.
 triggers AS (
-  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
-  FROM (
-    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
-    FROM exposure_rows AS r
-    WHERE r.qualifies
-  ) AS q
-  WHERE q.rn = 1
+  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  UNION ALL
+  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  FROM exposed_units AS u
+  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
 ),
 -- Every triggered unit with the reasons it may be excluded.
 cohort AS (
@@ -36,10 +46,9 @@ cohort AS (
     t.variant,
     t.trigger_us,
     DATE(TIMESTAMPADD(MICROSECOND, t.trigger_us, TIMESTAMP '1970-01-01 00:00:00')) AS trigger_day,
-    (u.variants_seen > 1) AS is_crossover,
-    (t.variant NOT IN ('control', 'threshold_30', 'threshold_40')) AS is_unknown_variant
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'threshold_30', 'threshold_40')) AS is_unknown_variant
   FROM triggers AS t
-  JOIN exposed_units AS u ON u.unit_id = t.unit_id
 ),
 -- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
 eligible AS (
@@ -51,35 +60,41 @@ eligible AS (
 -- One pass over orders for: m_revenue_per_session__num, m_big_spender, m_revenue, m_distinct_orders.
 `pass_orders` AS (
   SELECT
-    e.unit_id,
+    r.unit_id,
     -- m_revenue_per_session__num: sum of gross - coalesce(discount, 0) in [trigger + 0d, trigger + 14d)
-    sum(CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) >= e.trigger_us + 0 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) < e.trigger_us + 1209600000000 AND CAST(s.`gross` - COALESCE(s.`discount`, 0) AS DOUBLE) - CAST(s.`gross` - COALESCE(s.`discount`, 0) AS DOUBLE) = 0 THEN CAST(s.`gross` - COALESCE(s.`discount`, 0) AS DOUBLE) END) AS `m_revenue_per_session__num`,
-    count(CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) >= e.trigger_us + 0 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) < e.trigger_us + 1209600000000 AND NOT (CAST(s.`gross` - COALESCE(s.`discount`, 0) AS DOUBLE) - CAST(s.`gross` - COALESCE(s.`discount`, 0) AS DOUBLE) = 0) THEN 1 END) AS `m_revenue_per_session__num__nonfinite`,
+    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND CAST(r.`c_gross` - COALESCE(r.`c_discount`, 0) AS DOUBLE) - CAST(r.`c_gross` - COALESCE(r.`c_discount`, 0) AS DOUBLE) = 0 THEN CAST(CAST(r.`c_gross` - COALESCE(r.`c_discount`, 0) AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS `m_revenue_per_session__num`,
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND NOT (CAST(r.`c_gross` - COALESCE(r.`c_discount`, 0) AS DOUBLE) - CAST(r.`c_gross` - COALESCE(r.`c_discount`, 0) AS DOUBLE) = 0) THEN 1 END) AS `m_revenue_per_session__num__nonfinite`,
     -- m_big_spender: sum of gross in [trigger + 0d, trigger + 14d)
-    sum(CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) >= e.trigger_us + 0 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) < e.trigger_us + 1209600000000 AND CAST(s.`gross` AS DOUBLE) - CAST(s.`gross` AS DOUBLE) = 0 THEN CAST(s.`gross` AS DOUBLE) END) AS `m_big_spender`,
-    count(CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) >= e.trigger_us + 0 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) < e.trigger_us + 1209600000000 AND NOT (CAST(s.`gross` AS DOUBLE) - CAST(s.`gross` AS DOUBLE) = 0) THEN 1 END) AS `m_big_spender__nonfinite`,
+    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND CAST(r.`c_gross` AS DOUBLE) - CAST(r.`c_gross` AS DOUBLE) = 0 THEN CAST(CAST(r.`c_gross` AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS `m_big_spender`,
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND NOT (CAST(r.`c_gross` AS DOUBLE) - CAST(r.`c_gross` AS DOUBLE) = 0) THEN 1 END) AS `m_big_spender__nonfinite`,
     -- m_revenue: sum of gross in [trigger + 0d, trigger + 7d)
-    sum(CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) >= e.trigger_us + 0 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) < e.trigger_us + 604800000000 AND CAST(s.`gross` AS DOUBLE) - CAST(s.`gross` AS DOUBLE) = 0 THEN CAST(s.`gross` AS DOUBLE) END) AS `m_revenue`,
-    count(CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) >= e.trigger_us + 0 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) < e.trigger_us + 604800000000 AND NOT (CAST(s.`gross` AS DOUBLE) - CAST(s.`gross` AS DOUBLE) = 0) THEN 1 END) AS `m_revenue__nonfinite`,
+    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 604800000000 AND CAST(r.`c_gross` AS DOUBLE) - CAST(r.`c_gross` AS DOUBLE) = 0 THEN CAST(CAST(r.`c_gross` AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS `m_revenue`,
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 604800000000 AND NOT (CAST(r.`c_gross` AS DOUBLE) - CAST(r.`c_gross` AS DOUBLE) = 0) THEN 1 END) AS `m_revenue__nonfinite`,
     -- m_distinct_orders: distinct values of order_id where sku_count >= 1 in [trigger + 0d, trigger + 36h)
-    count(DISTINCT CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) >= e.trigger_us + 0 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) < e.trigger_us + 129600000000 AND (s.`sku_count` >= 1) THEN s.`order_id` END) AS `m_distinct_orders`
-  FROM eligible AS e
-  JOIN `orders` AS s ON s.`account_id` = e.unit_id
-  WHERE TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) >= e.trigger_us + 0 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) < e.trigger_us + 1209600000000
-  GROUP BY e.unit_id
+    count(DISTINCT CASE WHEN r.dt_us >= 0 AND r.dt_us < 129600000000 AND (r.`c_sku_count` >= 1) THEN r.`c_order_id` END) AS `m_distinct_orders`
+  FROM (
+    SELECT e.unit_id, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`created_at`) - e.trigger_us AS dt_us, s.`discount` AS `c_discount`, s.`gross` AS `c_gross`, s.`order_id` AS `c_order_id`, s.`sku_count` AS `c_sku_count`
+    FROM eligible AS e
+    JOIN `orders` AS s ON s.`account_id` = e.unit_id
+  ) AS r
+  WHERE r.dt_us >= 0 AND r.dt_us < 1209600000000
+  GROUP BY r.unit_id
 ),
 -- One pass over sessions for: m_revenue_per_session__den, m_long_sessions.
 `pass_sessions` AS (
   SELECT
-    e.unit_id,
+    r.unit_id,
     -- m_revenue_per_session__den: count of rows in [trigger + 0d, trigger + 14d)
-    count(CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`started_at`) >= e.trigger_us + 0 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`started_at`) < e.trigger_us + 1209600000000 THEN 1 END) AS `m_revenue_per_session__den`,
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 THEN 1 END) AS `m_revenue_per_session__den`,
     -- m_long_sessions: count of rows where duration_s BETWEEN 600 AND 7200 in [trigger + 1h, trigger + 14d)
-    count(CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`started_at`) >= e.trigger_us + 3600000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`started_at`) < e.trigger_us + 1209600000000 AND (s.`duration_s` BETWEEN 600 AND 7200) THEN 1 END) AS `m_long_sessions`
-  FROM eligible AS e
-  JOIN `sessions` AS s ON s.`account_id` = e.unit_id
-  WHERE TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`started_at`) >= e.trigger_us + 0 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`started_at`) < e.trigger_us + 1209600000000
-  GROUP BY e.unit_id
+    count(CASE WHEN r.dt_us >= 3600000000 AND r.dt_us < 1209600000000 AND (r.`c_duration_s` BETWEEN 600 AND 7200) THEN 1 END) AS `m_long_sessions`
+  FROM (
+    SELECT e.unit_id, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`started_at`) - e.trigger_us AS dt_us, s.`duration_s` AS `c_duration_s`
+    FROM eligible AS e
+    JOIN `sessions` AS s ON s.`account_id` = e.unit_id
+  ) AS r
+  WHERE r.dt_us >= 0 AND r.dt_us < 1209600000000
+  GROUP BY r.unit_id
 ),
 -- One row per eligible unit; a unit without outcome rows counts as zero.
 unit_values AS (
@@ -173,21 +188,31 @@ exposure_rows AS (
   WHERE x.`account_id` IS NOT NULL AND x.`ts` IS NOT NULL
     AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', x.`ts`) >= 1780272000000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', x.`ts`) < 1782864000000000
 ),
--- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over).
 exposed_units AS (
-  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi,
+    (count(variant) = count(*)) AS variant_always_set
   FROM exposure_rows
   GROUP BY unit_id
 ),
 -- Trigger: each unit's first qualifying exposure (a row qualifies when: page IN ('cart', 'checkout')).
+-- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- its qualifying rows at the trigger time.
 triggers AS (
-  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
-  FROM (
-    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
-    FROM exposure_rows AS r
-    WHERE r.qualifies
-  ) AS q
-  WHERE q.rn = 1
+  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  UNION ALL
+  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  FROM exposed_units AS u
+  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
 ),
 -- Every triggered unit with the reasons it may be excluded.
 cohort AS (
@@ -196,10 +221,9 @@ cohort AS (
     t.variant,
     t.trigger_us,
     DATE(TIMESTAMPADD(MICROSECOND, t.trigger_us, TIMESTAMP '1970-01-01 00:00:00')) AS trigger_day,
-    (u.variants_seen > 1) AS is_crossover,
-    (t.variant NOT IN ('control', 'threshold_30', 'threshold_40')) AS is_unknown_variant
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'threshold_30', 'threshold_40')) AS is_unknown_variant
   FROM triggers AS t
-  JOIN exposed_units AS u ON u.unit_id = t.unit_id
 ),
 -- Exposure rows outside the analysis window, or without a unit or time.
 ignored_rows AS (
@@ -231,7 +255,7 @@ SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   UNION ALL
   SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM exposed_units AS u
-  WHERE NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)
+  WHERE u.trigger_us IS NULL
   UNION ALL
   SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort

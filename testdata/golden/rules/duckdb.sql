@@ -4,7 +4,7 @@
 -- File paths are relative to the spec's directory.
 WITH
 -- Exposure rows of flags inside the analysis window; rows without a unit or time are ignored.
-exposure_rows AS (
+exposure_rows AS NOT MATERIALIZED (
   SELECT
     x."account" AS unit_id,
     CAST(x."variant" AS VARCHAR) AS variant,
@@ -15,21 +15,31 @@ exposure_rows AS (
     AND epoch_us(x."seen_at") >= 1769904000000000 AND epoch_us(x."seen_at") < 1772323200000000
     AND x."seen_at" >= TIMESTAMP '2026-01-30 00:00:00' AND x."seen_at" < TIMESTAMP '2026-03-03 00:00:00'
 ),
--- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over).
 exposed_units AS (
-  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi,
+    (count(variant) = count(*)) AS variant_always_set
   FROM exposure_rows
   GROUP BY unit_id
 ),
 -- Trigger: each unit's first qualifying exposure (a row qualifies when: screen = 'billing' AND platform <> 'test').
+-- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- its qualifying rows at the trigger time.
 triggers AS (
-  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
-  FROM (
-    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
-    FROM exposure_rows AS r
-    WHERE r.qualifies
-  ) AS q
-  WHERE q.rn = 1
+  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  UNION ALL
+  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  FROM exposed_units AS u
+  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
 ),
 -- Rule active: eligible when the unit has row in logins in [trigger - 30d, trigger + 0d).
 rule_1 AS (
@@ -77,14 +87,13 @@ cohort AS (
     t.variant,
     t.trigger_us,
     CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
-    (u.variants_seen > 1) AS is_crossover,
-    (t.variant NOT IN ('control', 'reminder')) AS is_unknown_variant,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'reminder')) AS is_unknown_variant,
     (r1.unit_id IS NULL) AS "fails_active",
     (r2.unit_id IS NOT NULL) AS "fails_no_open_ticket",
     (r3.unit_id IS NULL) AS "fails_not_internal",
     (r4.unit_id IS NULL) AS "fails_paying"
   FROM triggers AS t
-  JOIN exposed_units AS u ON u.unit_id = t.unit_id
   LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
   LEFT JOIN rule_2 AS r2 ON r2.unit_id = t.unit_id
   LEFT JOIN rule_3 AS r3 ON r3.unit_id = t.unit_id
@@ -104,28 +113,34 @@ eligible AS (
 -- One pass over logins for: m_logins_30d.
 "pass_logins" AS (
   SELECT
-    e.unit_id,
+    r.unit_id,
     -- m_logins_30d: count of rows in [trigger + 0d, trigger + 30d)
-    count(CASE WHEN epoch_us(s."at") >= e.trigger_us + 0 AND epoch_us(s."at") < e.trigger_us + 2592000000000 THEN 1 END) AS "m_logins_30d"
-  FROM eligible AS e
-  JOIN read_parquet('logins.parquet') AS s ON s."account" = e.unit_id
-  WHERE epoch_us(s."at") >= e.trigger_us + 0 AND epoch_us(s."at") < e.trigger_us + 2592000000000
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 2592000000000 THEN 1 END) AS "m_logins_30d"
+  FROM (
+    SELECT e.unit_id, epoch_us(s."at") - e.trigger_us AS dt_us
+    FROM eligible AS e
+    JOIN read_parquet('logins.parquet') AS s ON s."account" = e.unit_id
     -- static range (widened by two days) so the engine can skip data early
-    AND s."at" >= TIMESTAMP '2026-01-30 00:00:00' AND s."at" < TIMESTAMP '2026-04-02 00:00:00'
-  GROUP BY e.unit_id
+    WHERE s."at" >= TIMESTAMP '2026-01-30 00:00:00' AND s."at" < TIMESTAMP '2026-04-02 00:00:00'
+  ) AS r
+  WHERE r.dt_us >= 0 AND r.dt_us < 2592000000000
+  GROUP BY r.unit_id
 ),
 -- One pass over tickets for: m_tickets_30d.
 "pass_tickets" AS (
   SELECT
-    e.unit_id,
+    r.unit_id,
     -- m_tickets_30d: count of rows in [trigger + 0d, trigger + 30d)
-    count(CASE WHEN epoch_us(s."opened_at") >= e.trigger_us + 0 AND epoch_us(s."opened_at") < e.trigger_us + 2592000000000 THEN 1 END) AS "m_tickets_30d"
-  FROM eligible AS e
-  JOIN read_parquet('tickets.parquet') AS s ON s."account" = e.unit_id
-  WHERE epoch_us(s."opened_at") >= e.trigger_us + 0 AND epoch_us(s."opened_at") < e.trigger_us + 2592000000000
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 2592000000000 THEN 1 END) AS "m_tickets_30d"
+  FROM (
+    SELECT e.unit_id, epoch_us(s."opened_at") - e.trigger_us AS dt_us
+    FROM eligible AS e
+    JOIN read_parquet('tickets.parquet') AS s ON s."account" = e.unit_id
     -- static range (widened by two days) so the engine can skip data early
-    AND s."opened_at" >= TIMESTAMP '2026-01-30 00:00:00' AND s."opened_at" < TIMESTAMP '2026-04-02 00:00:00'
-  GROUP BY e.unit_id
+    WHERE s."opened_at" >= TIMESTAMP '2026-01-30 00:00:00' AND s."opened_at" < TIMESTAMP '2026-04-02 00:00:00'
+  ) AS r
+  WHERE r.dt_us >= 0 AND r.dt_us < 2592000000000
+  GROUP BY r.unit_id
 ),
 -- One row per eligible unit; a unit without outcome rows counts as zero.
 unit_values AS (
@@ -172,7 +187,7 @@ ORDER BY u.variant
 -- File paths are relative to the spec's directory.
 WITH
 -- Exposure rows of flags inside the analysis window; rows without a unit or time are ignored.
-exposure_rows AS (
+exposure_rows AS NOT MATERIALIZED (
   SELECT
     x."account" AS unit_id,
     CAST(x."variant" AS VARCHAR) AS variant,
@@ -183,21 +198,31 @@ exposure_rows AS (
     AND epoch_us(x."seen_at") >= 1769904000000000 AND epoch_us(x."seen_at") < 1772323200000000
     AND x."seen_at" >= TIMESTAMP '2026-01-30 00:00:00' AND x."seen_at" < TIMESTAMP '2026-03-03 00:00:00'
 ),
--- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over).
 exposed_units AS (
-  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi,
+    (count(variant) = count(*)) AS variant_always_set
   FROM exposure_rows
   GROUP BY unit_id
 ),
 -- Trigger: each unit's first qualifying exposure (a row qualifies when: screen = 'billing' AND platform <> 'test').
+-- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- its qualifying rows at the trigger time.
 triggers AS (
-  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
-  FROM (
-    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
-    FROM exposure_rows AS r
-    WHERE r.qualifies
-  ) AS q
-  WHERE q.rn = 1
+  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  UNION ALL
+  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  FROM exposed_units AS u
+  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
 ),
 -- Rule active: eligible when the unit has row in logins in [trigger - 30d, trigger + 0d).
 rule_1 AS (
@@ -245,14 +270,13 @@ cohort AS (
     t.variant,
     t.trigger_us,
     CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
-    (u.variants_seen > 1) AS is_crossover,
-    (t.variant NOT IN ('control', 'reminder')) AS is_unknown_variant,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'reminder')) AS is_unknown_variant,
     (r1.unit_id IS NULL) AS "fails_active",
     (r2.unit_id IS NOT NULL) AS "fails_no_open_ticket",
     (r3.unit_id IS NULL) AS "fails_not_internal",
     (r4.unit_id IS NULL) AS "fails_paying"
   FROM triggers AS t
-  JOIN exposed_units AS u ON u.unit_id = t.unit_id
   LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
   LEFT JOIN rule_2 AS r2 ON r2.unit_id = t.unit_id
   LEFT JOIN rule_3 AS r3 ON r3.unit_id = t.unit_id
@@ -288,7 +312,7 @@ SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   UNION ALL
   SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM exposed_units AS u
-  WHERE NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)
+  WHERE u.trigger_us IS NULL
   UNION ALL
   SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort

@@ -13,21 +13,31 @@ exposure_rows AS (
   WHERE x.`user id` IS NOT NULL AND x.`sent at` IS NOT NULL
     AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) >= 1772319600000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) < 1774994400000000
 ),
--- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over).
 exposed_units AS (
-  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi,
+    (count(variant) = count(*)) AS variant_always_set
   FROM exposure_rows
   GROUP BY unit_id
 ),
 -- Trigger: each unit's first qualifying exposure (a row qualifies when: "länd" = 'NL' OR "länd" = 'BE').
+-- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- its qualifying rows at the trigger time.
 triggers AS (
-  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
-  FROM (
-    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
-    FROM exposure_rows AS r
-    WHERE r.qualifies
-  ) AS q
-  WHERE q.rn = 1
+  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  UNION ALL
+  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  FROM exposed_units AS u
+  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
 ),
 -- Every triggered unit with the reasons it may be excluded.
 cohort AS (
@@ -36,10 +46,9 @@ cohort AS (
     t.variant,
     t.trigger_us,
     DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, t.trigger_us, TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'Europe/Amsterdam')) AS trigger_day,
-    (u.variants_seen > 1) AS is_crossover,
-    (t.variant NOT IN ('nine o''clock', 'seven')) AS is_unknown_variant
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('nine o''clock', 'seven')) AS is_unknown_variant
   FROM triggers AS t
-  JOIN exposed_units AS u ON u.unit_id = t.unit_id
 ),
 -- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
 eligible AS (
@@ -51,13 +60,16 @@ eligible AS (
 -- One pass over opens for: m_opens_3d.
 `pass_opens` AS (
   SELECT
-    e.unit_id,
+    r.unit_id,
     -- m_opens_3d: count of rows where client <> 'proxy''s' in [trigger + 0d, trigger + 3d)
-    count(CASE WHEN TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(s.`opened at`, 'Europe/Amsterdam', '+00:00')) >= e.trigger_us + 0 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(s.`opened at`, 'Europe/Amsterdam', '+00:00')) < e.trigger_us + 259200000000 AND (s.`client` <> _utf8mb4'proxy''s' COLLATE utf8mb4_bin) THEN 1 END) AS `m_opens_3d`
-  FROM eligible AS e
-  JOIN `mail`.`opens` AS s ON s.`user id` = e.unit_id
-  WHERE TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(s.`opened at`, 'Europe/Amsterdam', '+00:00')) >= e.trigger_us + 0 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(s.`opened at`, 'Europe/Amsterdam', '+00:00')) < e.trigger_us + 259200000000
-  GROUP BY e.unit_id
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 259200000000 AND (r.`c_client` <> _utf8mb4'proxy''s' COLLATE utf8mb4_bin) THEN 1 END) AS `m_opens_3d`
+  FROM (
+    SELECT e.unit_id, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(s.`opened at`, 'Europe/Amsterdam', '+00:00')) - e.trigger_us AS dt_us, s.`client` AS `c_client`
+    FROM eligible AS e
+    JOIN `mail`.`opens` AS s ON s.`user id` = e.unit_id
+  ) AS r
+  WHERE r.dt_us >= 0 AND r.dt_us < 259200000000
+  GROUP BY r.unit_id
 ),
 -- One row per eligible unit; a unit without outcome rows counts as zero.
 unit_values AS (
@@ -106,21 +118,31 @@ exposure_rows AS (
   WHERE x.`user id` IS NOT NULL AND x.`sent at` IS NOT NULL
     AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) >= 1772319600000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`sent at`, 'Europe/Amsterdam', '+00:00')) < 1774994400000000
 ),
--- One row per exposed unit: how many variants it was seen in (more than one: crossover).
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over).
 exposed_units AS (
-  SELECT unit_id, count(DISTINCT variant) AS variants_seen
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi,
+    (count(variant) = count(*)) AS variant_always_set
   FROM exposure_rows
   GROUP BY unit_id
 ),
 -- Trigger: each unit's first qualifying exposure (a row qualifies when: "länd" = 'NL' OR "länd" = 'BE').
+-- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- its qualifying rows at the trigger time.
 triggers AS (
-  SELECT q.unit_id, q.variant, q.ts_us AS trigger_us
-  FROM (
-    SELECT r.*, row_number() OVER (PARTITION BY r.unit_id ORDER BY r.ts_us, r.variant) AS rn
-    FROM exposure_rows AS r
-    WHERE r.qualifies
-  ) AS q
-  WHERE q.rn = 1
+  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  UNION ALL
+  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  FROM exposed_units AS u
+  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
 ),
 -- Every triggered unit with the reasons it may be excluded.
 cohort AS (
@@ -129,10 +151,9 @@ cohort AS (
     t.variant,
     t.trigger_us,
     DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, t.trigger_us, TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'Europe/Amsterdam')) AS trigger_day,
-    (u.variants_seen > 1) AS is_crossover,
-    (t.variant NOT IN ('nine o''clock', 'seven')) AS is_unknown_variant
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('nine o''clock', 'seven')) AS is_unknown_variant
   FROM triggers AS t
-  JOIN exposed_units AS u ON u.unit_id = t.unit_id
 ),
 -- Exposure rows outside the analysis window, or without a unit or time.
 ignored_rows AS (
@@ -159,7 +180,7 @@ SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   UNION ALL
   SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM exposed_units AS u
-  WHERE NOT EXISTS (SELECT 1 FROM triggers AS t WHERE t.unit_id = u.unit_id)
+  WHERE u.trigger_us IS NULL
   UNION ALL
   SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
