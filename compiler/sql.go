@@ -1056,7 +1056,10 @@ func (pr *printer) health() (string, error) {
 	for i, o := range outcome {
 		pr.line(0, "-- Rows of %s that no metric or rule can use: no unit or no time.", oneLine(o.Name))
 		pr.line(0, "nulls_%d AS (", i+1)
-		pr.line(1, "SELECT count(CASE WHEN s.%s IS NULL THEN 1 END) AS null_unit, count(CASE WHEN s.%s IS NULL THEN 1 END) AS null_time", pr.id(o.Unit), pr.id(o.Time))
+		// count(*) - count(x) rather than a CASE per row: an engine that
+		// keeps NULL statistics per block (DuckDB does) answers it without
+		// reading a column that holds no NULLs.
+		pr.line(1, "SELECT count(*) - count(s.%s) AS null_unit, count(*) - count(s.%s) AS null_time", pr.id(o.Unit), pr.id(o.Time))
 		pr.line(1, "FROM %s AS s", pr.from(o))
 		pr.line(0, ")%s", commaIf(i < len(outcome)-1))
 	}

@@ -236,12 +236,12 @@ ignored_rows AS (
 ),
 -- Rows of orders that no metric or rule can use: no unit or no time.
 nulls_1 AS (
-  SELECT count(CASE WHEN s."account_id" IS NULL THEN 1 END) AS null_unit, count(CASE WHEN s."created_at" IS NULL THEN 1 END) AS null_time
+  SELECT count(*) - count(s."account_id") AS null_unit, count(*) - count(s."created_at") AS null_time
   FROM "orders" AS s
 ),
 -- Rows of sessions that no metric or rule can use: no unit or no time.
 nulls_2 AS (
-  SELECT count(CASE WHEN s."account_id" IS NULL THEN 1 END) AS null_unit, count(CASE WHEN s."started_at" IS NULL THEN 1 END) AS null_time
+  SELECT count(*) - count(s."account_id") AS null_unit, count(*) - count(s."started_at") AS null_time
   FROM "sessions" AS s
 )
 SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
