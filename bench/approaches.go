@@ -46,39 +46,37 @@ func NotebookSQL() string {
 	return referenceSQL[:i] + "SELECT unit_id, variant, mature_14d, mature_7d, delivered, revenue, cancelled_7d, sessions, duration, pages, delivered_pre\nFROM unit_values\n"
 }
 
-// covariateLine is Spec10's CUPED covariate, left out of Spec1 and Spec2 so
-// that they hold the fewest aggregates.
+// covariateLine is Spec10's CUPED covariate (on orders_14d).
 const covariateLine = "covariate = { window = [\"-28d\", \"0d\"] }\n"
 
-// Spec1 is Spec10 with only its primary metric (one metric, one source,
-// without its covariate).
-func Spec1() []byte {
-	s := strings.Replace(string(Spec10), covariateLine, "", 1)
-	head := s[:strings.Index(s, "[metrics.")]
-	m := s[strings.Index(s, "[metrics.orders_14d]"):strings.Index(s, "[metrics.revenue_14d]")]
-	return []byte(head + m)
+// subSpec is Spec10 with only the named metrics, each with its whole
+// table, and without orders_14d's covariate unless withCov.
+func subSpec(withCov bool, names ...string) []byte {
+	s := string(Spec10)
+	if !withCov {
+		s = strings.Replace(s, covariateLine, "", 1)
+	}
+	out := s[:strings.Index(s, "[metrics.")]
+	for _, n := range names {
+		i := strings.Index(s, "[metrics."+n+"]")
+		j := i + 1 + strings.Index(s[i+1:], "\n[") + 1
+		out += s[i:j]
+	}
+	return []byte(out)
 }
+
+// Spec1 is Spec10 with only its primary metric, without its covariate (one
+// metric, one source).
+func Spec1() []byte { return subSpec(false, "orders_14d") }
 
 // Spec2 is Spec10 with one metric per source (orders_14d without its
 // covariate, and sessions_14d): the same two scans as Spec10, with the
 // fewest metrics.
-func Spec2() []byte {
-	s := strings.Replace(string(Spec10), covariateLine, "", 1)
-	head := s[:strings.Index(s, "[metrics.")]
-	m1 := s[strings.Index(s, "[metrics.orders_14d]"):strings.Index(s, "[metrics.revenue_14d]")]
-	m2 := s[strings.Index(s, "[metrics.sessions_14d]"):strings.Index(s, "[metrics.time_spent]")]
-	return []byte(head + m1 + m2)
-}
+func Spec2() []byte { return subSpec(false, "orders_14d", "sessions_14d") }
 
 // Spec2Cov is Spec2 with orders_14d's CUPED covariate kept: the same two
 // scans over the same time windows as Spec10, with the fewest metrics.
-func Spec2Cov() []byte {
-	s := string(Spec10)
-	head := s[:strings.Index(s, "[metrics.")]
-	m1 := s[strings.Index(s, "[metrics.orders_14d]"):strings.Index(s, "[metrics.revenue_14d]")]
-	m2 := s[strings.Index(s, "[metrics.sessions_14d]"):strings.Index(s, "[metrics.time_spent]")]
-	return []byte(head + m1 + m2)
-}
+func Spec2Cov() []byte { return subSpec(true, "orders_14d", "sessions_14d") }
 
 // Spec50 is a 50-metric spec: Spec10's metrics five times over, renamed and
 // with different windows.
