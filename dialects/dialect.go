@@ -95,7 +95,7 @@ type TimeLiterals interface {
 // that pushes that join's filters into a second scan of the table does
 // less work than one that first writes every exposure row aside.
 type Inliner interface {
-	// Inline is the keyword placed between a CTE's name and AS's
+	// Inline is the keyword placed between a CTE's AS and its opening
 	// parenthesis: DuckDB `NOT MATERIALIZED`.
 	Inline() string
 }

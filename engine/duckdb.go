@@ -73,7 +73,11 @@ func OpenDuckDB(opt DuckDBOptions) (*sql.DB, error) {
 func cleanDuckErr(err error) error {
 	var de *duckdb.Error
 	if errors.As(err, &de) {
-		return fmt.Errorf("duckdb: %s", de.Msg)
+		msg := de.Msg
+		if strings.Contains(msg, "DECIMAL(38,10)") {
+			msg += "\nhint: assay adds each unit's values exactly, as decimals with 10 places; a value or a unit's total of 10^28 or more does not fit. Scale the value down in the metric's `value` expression (for example amount / 1000)."
+		}
+		return fmt.Errorf("duckdb: %s", msg)
 	}
 	return err
 }
