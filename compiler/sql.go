@@ -494,10 +494,10 @@ func (pr *printer) outcomeSources() []*metrics.Source {
 	return out
 }
 
-// rowCond renders the test a source row must pass to count for aggregate
-// a: inside the aggregate's window relative to the unit's trigger, and its
-// filter.
-func (pr *printer) rowCond(a *AggPlan, src *metrics.Source) string {
+// rowCond renders the test a pass row r must pass to count for aggregate
+// a: its offset from the unit's trigger (r.dt_us) inside the aggregate's
+// window, and its filter.
+func (pr *printer) rowCond(a *AggPlan) string {
 	cond := fmt.Sprintf("r.dt_us >= %s AND r.dt_us < %s", us(a.From.Micros), us(a.To.Micros))
 	if a.Agg.Filter != nil {
 		cond += " AND " + paren(pr.passExpr(a.Agg.Filter))
@@ -533,8 +533,8 @@ func passColumns(sp *SourcePass) []string {
 	return out
 }
 
-func (pr *printer) aggExpr(a *AggPlan, src *metrics.Source) string {
-	cond := pr.rowCond(a, src)
+func (pr *printer) aggExpr(a *AggPlan) string {
+	cond := pr.rowCond(a)
 	switch a.Agg.Func {
 	case metrics.AggSum:
 		// NaN and ±Inf would poison every mean and variance: x - x = 0 holds
@@ -578,8 +578,8 @@ func (pr *printer) prefilter(src *metrics.Source, alias string, from, to int64) 
 // is NaN or infinite (and therefore left out of the sum).
 func countsNonFinite(a *AggPlan) bool { return a.Agg.Func == metrics.AggSum && a.Part != "x" }
 
-func (pr *printer) nonFiniteExpr(a *AggPlan, src *metrics.Source) string {
-	cond := pr.rowCond(a, src)
+func (pr *printer) nonFiniteExpr(a *AggPlan) string {
+	cond := pr.rowCond(a)
 	v := pr.d.Double(pr.passExpr(a.Agg.Value))
 	return fmt.Sprintf("count(CASE WHEN %s AND NOT (%s - %s = 0) THEN 1 END)", cond, v, v)
 }
@@ -619,7 +619,7 @@ func (pr *printer) passes() {
 		first := map[string]string{}
 		var lines [][2]string // comment, aggregate
 		for _, a := range sp.Aggs {
-			e := pr.aggExpr(a, src)
+			e := pr.aggExpr(a)
 			key := fmt.Sprint(countsNonFinite(a), e)
 			if f, ok := first[key]; ok {
 				pr.same[a.Col] = f
@@ -629,7 +629,7 @@ func (pr *printer) passes() {
 			first[key] = a.Col
 			lines = append(lines, [2]string{fmt.Sprintf("-- %s: %s in [trigger %s, trigger %s)", oneLine(a.Col), aggRule(a), signed(a.From), signed(a.To)), e + " AS " + pr.id(a.Col)})
 			if countsNonFinite(a) {
-				lines = append(lines, [2]string{"", pr.nonFiniteExpr(a, src) + " AS " + pr.id(a.Col+"__nonfinite")})
+				lines = append(lines, [2]string{"", pr.nonFiniteExpr(a) + " AS " + pr.id(a.Col+"__nonfinite")})
 			}
 		}
 		last := 0
