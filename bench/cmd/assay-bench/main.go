@@ -402,9 +402,10 @@ func printAcross(w io.Writer, rs []*sizeResult) {
 	for i := 1; i < len(rs); i++ {
 		p, q := rs[i-1], rs[i]
 		pa, qa := p.By[bench.Assay], q.By[bench.Assay]
-		fmt.Fprintf(w, "\n%s/%s: rows x%.0f, units x%.0f; (a) time x%s, (c) time x%s; Go heap after analysis x%.2f (%s -> %s)\n",
+		fmt.Fprintf(w, "\n%s/%s: rows x%.0f, units x%.0f; (a) time x%s, (b) time x%s, (c) time x%s; Go heap after analysis x%.2f (%s -> %s)\n",
 			q.Size.Name, p.Size.Name, float64(q.Size.Rows)/float64(p.Size.Rows), float64(q.Size.Units)/float64(p.Size.Units),
-			ratio(qa.Median, pa.Median), ratio(q.By[bench.Reference].Median, p.By[bench.Reference].Median),
+			ratio(qa.Median, pa.Median), ratio(q.By[bench.Bound].Median, p.By[bench.Bound].Median),
+			ratio(q.By[bench.Reference].Median, p.By[bench.Reference].Median),
 			float64(qa.HeapInUse)/float64(max(pa.HeapInUse, 1)), mib(int64(pa.HeapInUse)), mib(int64(qa.HeapInUse)))
 	}
 }
