@@ -124,7 +124,9 @@ type Aggregates map[string]map[string]float64
 
 // QueryAggregates runs q and reads one row per variant; the column named
 // "variant" is the key and every other column a number.
-func QueryAggregates(ctx context.Context, db *sql.DB, q string) (Aggregates, error) {
+func QueryAggregates(ctx context.Context, db interface {
+	QueryContext(context.Context, string, ...any) (*sql.Rows, error)
+}, q string) (Aggregates, error) {
 	rs, err := db.QueryContext(ctx, q)
 	if err != nil {
 		return nil, engine.CleanError(err)
@@ -190,15 +192,34 @@ func toFloat(v any) float64 {
 
 // RunAssay is approach (a): assay's compiled main query, read back as
 // aggregates.
+// With a staging dialect it runs, as assay does, the setup statement
+// first and the cleanup last, on one connection, and the time includes
+// them.
 func RunAssay(ctx context.Context, db *sql.DB, q compiler.Queries) (Aggregates, error) {
-	return QueryAggregates(ctx, db, q.Main)
+	c, err := db.Conn(ctx)
+	if err != nil {
+		return nil, err
+	}
+	defer c.Close()
+	if q.Setup != "" {
+		if _, err := c.ExecContext(ctx, q.Setup); err != nil {
+			return nil, engine.CleanError(err)
+		}
+	}
+	agg, err := QueryAggregates(ctx, c, q.Main)
+	if q.Cleanup != "" {
+		if _, cerr := c.ExecContext(ctx, q.Cleanup); cerr != nil && err == nil {
+			err = cerr
+		}
+	}
+	return agg, err
 }
 
 // RunAssayReport is the whole of assay run after compilation: both queries
 // through engine.Query, then report.Analyze. It returns the report, so the
 // caller can measure the heap the analysis keeps, and the aggregates.
 func RunAssayReport(ctx context.Context, db *sql.DB, plan *compiler.Plan, q compiler.Queries) (*report.Report, Aggregates, error) {
-	res, err := engine.Query(ctx, db, q.Main, q.Health, nil)
+	res, err := engine.Query(ctx, db, q, nil)
 	if err != nil {
 		return nil, nil, engine.CleanError(err)
 	}

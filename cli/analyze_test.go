@@ -52,6 +52,14 @@ func exportDemo(t *testing.T) map[string]string {
 		}
 		files[name] = path
 	}
+	// The export runs on one connection, after the setup statement that
+	// stores the cohort table the queries read.
+	db.SetMaxOpenConns(1)
+	if q.Setup != "" {
+		if _, err := db.Exec(q.Setup); err != nil {
+			t.Fatalf("setup: %v", err)
+		}
+	}
 	copyTo("main.csv", q.Main, "HEADER")
 	copyTo("health.csv", q.Health, "HEADER")
 	copyTo("main.json", q.Main, "FORMAT json, ARRAY true")

@@ -91,7 +91,7 @@ func cmdCalibrate(args []string, stdout, stderr io.Writer) int {
 	defer conn.Close()
 	prog := newProgress(stderr)
 	prog.Stage(fmt.Sprintf("running %d re-splits in one query", *splits))
-	rows, err := engine.QueryMain(ctx, conn, q.Main, []string{compiler.ColSplit})
+	rows, err := engine.QueryMain(ctx, conn, q, []string{compiler.ColSplit})
 	prog.Done()
 	if err != nil {
 		fmt.Fprintf(stderr, "assay: query failed: %v\n", engine.CleanError(err))

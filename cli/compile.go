@@ -110,15 +110,17 @@ func cmdCompile(args []string, stdout, stderr io.Writer) int {
 	return ExitOK
 }
 
-// queryText is what compile prints for --query which.
+// queryText is what compile prints for --query which: the statements a
+// run executes, in order, with the dialect's setup and cleanup statements
+// (the cohort table) around the named queries.
 func queryText(q compiler.Queries, which string) (string, bool) {
 	switch which {
 	case "main":
-		return q.Main + ";\n", true
+		return q.Script(true, false), true
 	case "health":
-		return q.Health + ";\n", true
+		return q.Script(false, true), true
 	case "both":
-		return q.Main + ";\n\n" + q.Health + ";\n", true
+		return q.Script(true, true), true
 	}
 	return "", false
 }

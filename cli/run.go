@@ -131,7 +131,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		}
 	}
 	prog.Stage("running the per-variant and health queries")
-	res, err := engine.Query(ctx, conn, q.Main, q.Health, nil)
+	res, err := engine.Query(ctx, conn, q, nil)
 	if err != nil {
 		prog.Pause()
 		return queryFailed(ctx, stderr, err)
@@ -159,7 +159,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 			}
 			key := sp.GroupBy[0].Name
 			prog.Stage("running the breakdown by segment " + seg.Name)
-			rows, err := engine.QueryMain(ctx, conn, sq.Main, []string{key})
+			rows, err := engine.QueryMain(ctx, conn, sq, []string{key})
 			if err != nil {
 				prog.Pause()
 				return queryFailed(ctx, stderr, fmt.Errorf("segment %s: %w", seg.Name, err))

@@ -72,7 +72,7 @@ func compileText(t *testing.T, spec string, d dialects.Dialect) string {
 		}
 		t.Fatal(err)
 	}
-	return q.Main + ";\n\n" + q.Health + ";\n"
+	return q.Script(true, true)
 }
 
 func usesFiles(s *metrics.Spec) bool {

@@ -45,14 +45,56 @@ const (
 func StatColumn(metric, stat string) string { return metric + "__" + stat }
 
 // Queries is the SQL text of one experiment.
+//
+// With a dialect that implements dialects.Stager, Setup stores the cohort
+// in a temporary table, Main and Health read it, and Cleanup drops it: the
+// four run in that order on one connection (engine.Query does this). With
+// any other dialect Setup and Cleanup are empty and Main and Health each
+// compute the cohort themselves.
 type Queries struct {
-	Main   string // one row per variant (and grouping key) with sufficient statistics
-	Health string // exposure and exclusion counts
+	Setup   string // creates the cohort table; empty when the dialect does not stage
+	Main    string // one row per variant (and grouping key) with sufficient statistics
+	Health  string // exposure and exclusion counts
+	Cleanup string // drops the cohort table; empty when Setup is
 }
 
-// Print renders both queries of p in dialect d.
+// Script is the statements of q that a run executes, in order, each ended
+// by a semicolon: Setup, the named queries (main, health or both), Cleanup.
+func (q Queries) Script(main, health bool) string {
+	var parts []string
+	add := func(s string) {
+		if s != "" {
+			// The semicolon goes on a line of its own, so that no
+			// trailing comment can swallow it.
+			parts = append(parts, strings.TrimRight(s, "\n")+"\n;\n")
+		}
+	}
+	add(q.Setup)
+	if main {
+		add(q.Main)
+	}
+	if health {
+		add(q.Health)
+	}
+	add(q.Cleanup)
+	return strings.Join(parts, "\n")
+}
+
+// StagedTable is the name of the temporary cohort table of a staged run.
+const StagedTable = "assay_cohort"
+
+// Print renders the queries of p in dialect d.
 func Print(p *Plan, d dialects.Dialect) (Queries, error) {
 	pr := &printer{p: p, d: d}
+	var q Queries
+	if st, ok := d.(dialects.Stager); ok {
+		pr.stage = st
+		setup, err := pr.setup()
+		if err != nil {
+			return Queries{}, err
+		}
+		q.Setup, q.Cleanup = setup, st.DropTemp(StagedTable)+"\n"
+	}
 	main, err := pr.main()
 	if err != nil {
 		return Queries{}, err
@@ -61,7 +103,8 @@ func Print(p *Plan, d dialects.Dialect) (Queries, error) {
 	if err != nil {
 		return Queries{}, err
 	}
-	return Queries{Main: main, Health: health}, nil
+	q.Main, q.Health = main, health
+	return q, nil
 }
 
 type printer struct {
@@ -73,6 +116,10 @@ type printer struct {
 	// computes exactly the same aggregate (e.g. a count that is both a
 	// mean metric and a ratio's denominator); the pass computes it once.
 	same map[string]string
+	// stage is set when the cohort is computed once, by Setup, into a
+	// temporary table; cohortCols are its columns, as printed.
+	stage      dialects.Stager
+	cohortCols []string
 }
 
 func (pr *printer) line(indent int, format string, args ...any) {
@@ -144,15 +191,59 @@ func oneLine(s string) string {
 	return strings.ReplaceAll(s, "*/", "* /")
 }
 
-// cohort prints the CTEs shared by both queries: exposures in the window,
-// triggers, eligibility rules and the cohort with one row per triggered unit.
+// cohort prints the CTEs that find the cohort: exposures in the window,
+// triggers, eligibility rules and the cohort with one row per triggered
+// unit. The setup statement prints them once when the dialect stages the
+// cohort; otherwise both queries print them.
 func (pr *printer) cohort() {
-	p, s, d := pr.p, pr.p.Spec, pr.d
+	pr.line(0, "WITH")
+	pr.exposureRows()
+	pr.cohortCTEs()
+}
+
+// setup prints the statement that stores the cohort in the temporary
+// table: every triggered unit with its exclusion reasons, and every
+// exposed unit that never triggered, with no trigger time.
+func (pr *printer) setup() (string, error) {
+	pr.b.Reset()
+	pr.header("cohort table")
+	pr.line(0, "-- Computed once per run; the per-variant and health queries read it.")
+	pr.line(0, "%s", pr.stage.CreateTemp(StagedTable))
+	pr.cohort()
+	pr.line(0, "-- Exposed units without a qualifying exposure, kept with no trigger for the health counts.")
+	pr.line(0, "never_triggered AS (")
+	pr.line(1, "SELECT u.unit_id FROM exposed_units AS u WHERE u.trigger_us IS NULL")
+	pr.line(0, ")")
+	pr.line(0, "SELECT %s", strings.Join(pr.cohortCols, ", "))
+	pr.line(0, "FROM cohort")
+	pr.line(0, "UNION ALL")
+	nulls := []string{"n.unit_id"}
+	for _, c := range pr.cohortCols[1:] {
+		nulls = append(nulls, "NULL AS "+c)
+	}
+	pr.line(0, "SELECT %s", strings.Join(nulls, ", "))
+	pr.line(0, "FROM never_triggered AS n")
+	return pr.b.String(), pr.err
+}
+
+// stagedCohort prints the cohort CTE of a staged query: the triggered
+// units of the setup statement's table.
+func (pr *printer) stagedCohort() {
+	pr.line(0, "-- Every triggered unit with the reasons it may be excluded, from the cohort table.")
+	pr.line(0, "cohort AS (")
+	pr.line(1, "SELECT %s", strings.Join(pr.cohortCols, ", "))
+	pr.line(1, "FROM %s", pr.stage.TempRef(StagedTable))
+	pr.line(1, "WHERE trigger_us IS NOT NULL")
+	pr.line(0, "),")
+}
+
+// exposureRows prints the exposure_rows CTE.
+func (pr *printer) exposureRows() {
+	p, s := pr.p, pr.p.Spec
 	ex := s.Exposure
 	src := ex.Source
 	segs := p.Segments
 
-	pr.line(0, "WITH")
 	pr.line(0, "-- Exposure rows of %s inside the analysis window; rows without a unit or time are ignored.", oneLine(src.Name))
 	if in, ok := pr.d.(dialects.Inliner); ok {
 		pr.line(0, "exposure_rows AS %s (", in.Inline())
@@ -178,6 +269,15 @@ func (pr *printer) cohort() {
 		pr.line(2, "AND %s", pf)
 	}
 	pr.line(0, "),")
+}
+
+// cohortCTEs prints the CTEs from the trigger aggregate to the cohort, and
+// records the cohort's columns.
+func (pr *printer) cohortCTEs() {
+	p, s, d := pr.p, pr.p.Spec, pr.d
+	ex := s.Exposure
+	src := ex.Source
+	segs := p.Segments
 
 	// The trigger and the crossover test come from one GROUP BY over the
 	// exposure rows. Only units whose trigger variant is not implied by
@@ -247,12 +347,14 @@ func (pr *printer) cohort() {
 	pr.line(2, "t.variant,")
 	pr.line(2, "t.trigger_us,")
 	pr.line(2, "%s AS trigger_day,", d.Day("t.trigger_us", p.TZ))
+	pr.cohortCols = []string{"unit_id", "variant", "trigger_us", "trigger_day"}
 	for _, seg := range segs {
 		alias := "t"
 		if seg.Source != src {
 			alias = attrAlias(p, seg.Source)
 		}
 		pr.line(2, "%s.%s AS %s,", alias, pr.id("seg_"+seg.Name), pr.id("seg_"+seg.Name))
+		pr.cohortCols = append(pr.cohortCols, pr.id("seg_"+seg.Name))
 	}
 	vs := make([]string, len(p.Variants))
 	for i, v := range p.Variants {
@@ -260,8 +362,10 @@ func (pr *printer) cohort() {
 	}
 	pr.line(2, "t.is_crossover,")
 	pr.line(2, "(t.variant IS NULL OR t.variant NOT IN (%s)) AS is_unknown_variant%s", strings.Join(vs, ", "), commaIf(len(p.Rules) > 0))
+	pr.cohortCols = append(pr.cohortCols, "is_crossover", "is_unknown_variant")
 	for i, r := range p.Rules {
 		pr.line(2, "(r%d.unit_id IS %sNULL) AS %s%s", i+1, notIf(!r.Absent), pr.id("fails_"+r.Name), commaIf(i < len(p.Rules)-1))
+		pr.cohortCols = append(pr.cohortCols, pr.id("fails_"+r.Name))
 	}
 	pr.line(1, "FROM triggers AS t")
 	for _, a := range p.Attrs {
@@ -812,8 +916,15 @@ func (pr *printer) indicator(mp *MetricPlan) string {
 
 func (pr *printer) main() (string, error) {
 	p := pr.p
+	pr.b.Reset()
 	pr.header("per-variant statistics")
-	pr.cohort()
+	if pr.stage != nil {
+		pr.line(0, "-- Reads the cohort table of the setup statement.")
+		pr.line(0, "WITH")
+		pr.stagedCohort()
+	} else {
+		pr.cohort()
+	}
 	pr.eligible()
 	pr.passes()
 	var segKeys []GroupKey
@@ -1041,7 +1152,16 @@ func (pr *printer) health() (string, error) {
 	p := pr.p
 	src := p.Spec.Exposure.Source
 	pr.header("health")
-	pr.cohort()
+	neverFrom := "exposed_units AS u"
+	if pr.stage != nil {
+		pr.line(0, "-- Reads the cohort table of the setup statement.")
+		pr.line(0, "WITH")
+		pr.exposureRows()
+		pr.stagedCohort()
+		neverFrom = pr.stage.TempRef(StagedTable) + " AS u"
+	} else {
+		pr.cohort()
+	}
 	pr.line(0, "-- Exposure rows outside the analysis window, or without a unit or time.")
 	pr.line(0, "ignored_rows AS (")
 	pr.line(1, "SELECT")
@@ -1080,7 +1200,7 @@ func (pr *printer) health() (string, error) {
 	pr.line(1, "UNION ALL")
 	sel(q("triggers"), "NULL", "variant", "trigger_day", "count(*)", "count(*)", "cohort", "", "variant, trigger_day")
 	pr.line(1, "UNION ALL")
-	sel(q("never_triggered"), "NULL", "NULL", "NULL", "count(*)", "count(*)", "exposed_units AS u", "u.trigger_us IS NULL", "")
+	sel(q("never_triggered"), "NULL", "NULL", "NULL", "count(*)", "count(*)", neverFrom, "u.trigger_us IS NULL", "")
 	reasons := []struct{ name, col string }{{"crossover", "is_crossover"}, {"unknown_variant", "is_unknown_variant"}}
 	for _, r := range p.Rules {
 		reasons = append(reasons, struct{ name, col string }{"rule:" + r.Name, pr.id("fails_" + r.Name)})

@@ -304,7 +304,7 @@ func result(t *testing.T, e *engineRun, spec string) (*compiler.Plan, *engine.Re
 	if err != nil {
 		t.Fatal(err)
 	}
-	res, err := engine.Query(context.Background(), e.open(t), q.Main, q.Health, nil)
+	res, err := engine.Query(context.Background(), e.open(t), q, nil)
 	if err != nil {
 		t.Fatalf("%s: query failed: %v", e.name, engine.CleanError(err))
 	}

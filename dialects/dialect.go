@@ -100,6 +100,21 @@ type Inliner interface {
 	Inline() string
 }
 
+// Stager is implemented by dialects whose engine keeps a temporary table
+// for the length of a connection. assay then computes the cohort (every
+// exposed unit, its trigger, variant and exclusion reasons) once per run,
+// in a setup statement, and the main and health queries read it, instead
+// of each query computing it again.
+type Stager interface {
+	// CreateTemp is the statement prefix that creates, or replaces, the
+	// temporary table name from the query that follows it.
+	CreateTemp(name string) string
+	// TempRef is how a query refers to the temporary table name.
+	TempRef(name string) string
+	// DropTemp is the statement that drops it, if it exists.
+	DropTemp(name string) string
+}
+
 var registry = map[string]Dialect{}
 
 // Register makes a dialect available by name; engine files call it from init.

@@ -82,6 +82,20 @@ func (DuckDB) Double(x string) string { return "CAST(" + x + " AS DOUBLE)" }
 // took the main query to ×0.88 of its time.
 func (DuckDB) Inline() string { return "NOT MATERIALIZED" }
 
+// CreateTemp implements Stager. A temporary table lives in DuckDB's temp
+// catalog, in memory (spilling like any table), and is allowed on a
+// database opened read-only.
+func (d DuckDB) CreateTemp(name string) string {
+	return "CREATE OR REPLACE TEMPORARY TABLE " + d.Ident(name) + " AS"
+}
+
+// TempRef implements Stager: qualified by the temp catalog, so that a
+// table of the same name in the user's database is never read instead.
+func (d DuckDB) TempRef(name string) string { return "temp.main." + d.Ident(name) }
+
+// DropTemp implements Stager.
+func (d DuckDB) DropTemp(name string) string { return "DROP TABLE IF EXISTS " + d.TempRef(name) }
+
 // Fixed implements Dialect.
 func (DuckDB) Fixed(x string) string { return "CAST(" + x + " AS DECIMAL(38, 10))" }
 

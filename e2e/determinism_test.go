@@ -64,11 +64,12 @@ func TestSemicolonScanner(t *testing.T) {
 	}
 }
 
-// TestCompileDeterministicSingleStatement compiles the same spec several
-// times (map iteration order varies between runs of a loop) and checks
-// the text is byte-identical and each printed query is one statement
-// that DuckDB can plan.
-func TestCompileDeterministicSingleStatement(t *testing.T) {
+// TestCompileDeterministicStatements compiles the same spec several times
+// (map iteration order varies between runs of a loop) and checks the text
+// is byte-identical, that each printed query is one statement between the
+// setup and cleanup of the cohort table (so a separator inside user text
+// cannot split it), and that DuckDB can plan it.
+func TestCompileDeterministicStatements(t *testing.T) {
 	// A fixture whose filters put ';' inside string literals.
 	dir := t.TempDir()
 	writeParquet(t, dir, "exposures.parquet", exposureCols, []row{
@@ -108,14 +109,22 @@ window = ["0d", "7d"]
 						t.Fatalf("compile run %d differs from run 1:\n%s", i+1, firstDiff([]byte(first), []byte(out)))
 					}
 				}
+				// DuckDB stages the cohort: a setup statement, the query and
+				// a cleanup, each ended by a separator and nothing after.
 				body := strings.TrimRight(first, " \n")
 				semis := semicolons(body)
-				if len(semis) != 1 || semis[0] != len(body)-1 {
-					t.Fatalf("statement separators at %v, want only the final one at %d", semis, len(body)-1)
+				if len(semis) != 3 || semis[2] != len(body)-1 {
+					t.Fatalf("statement separators at %v, want three, the last at %d", semis, len(body)-1)
 				}
-				stmt := strings.TrimSuffix(body, ";")
+				st := statements(body)
+				if !strings.Contains(st[0], "CREATE OR REPLACE TEMPORARY TABLE") || !strings.HasPrefix(st[2], "DROP TABLE IF EXISTS temp.main.") {
+					t.Fatalf("want a setup that creates the temporary cohort table and a cleanup that drops it:\n%s\n...\n%s", st[0], st[2])
+				}
 				db := dirDB(t, filepath.Dir(spec))
-				if rows := queryMaps(t, db, "EXPLAIN "+stmt); len(rows) == 0 {
+				if _, err := db.Exec(st[0]); err != nil {
+					t.Fatalf("setup: %v", err)
+				}
+				if rows := queryMaps(t, db, "EXPLAIN "+st[1]); len(rows) == 0 {
 					t.Errorf("EXPLAIN returned no plan")
 				}
 			})

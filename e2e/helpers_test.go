@@ -256,6 +256,44 @@ func dirDB(t testing.TB, dir string) *sql.DB {
 	return db
 }
 
+// statements splits a compiled script at its statement separators (outside
+// quotes and comments) and drops the separators.
+func statements(script string) []string {
+	var out []string
+	last := 0
+	for _, i := range semicolons(script) {
+		out = append(out, strings.TrimSpace(script[last:i]))
+		last = i + 1
+	}
+	if rest := strings.TrimSpace(script[last:]); rest != "" {
+		out = append(out, rest)
+	}
+	return out
+}
+
+// runScript runs the script that assay compile prints for one query on db
+// (which holds one connection): the setup statement and the cleanup, if
+// the dialect stages the cohort, around the query, whose rows it returns.
+func runScript(t testing.TB, db *sql.DB, script string) []map[string]any {
+	t.Helper()
+	st := statements(script)
+	switch len(st) {
+	case 1:
+		return queryMaps(t, db, st[0])
+	case 3:
+		if _, err := db.Exec(st[0]); err != nil {
+			t.Fatalf("setup statement: %v\n%s", err, st[0])
+		}
+		rows := queryMaps(t, db, st[1])
+		if _, err := db.Exec(st[2]); err != nil {
+			t.Fatalf("cleanup statement: %v\n%s", err, st[2])
+		}
+		return rows
+	}
+	t.Fatalf("got %d statements, want a query alone or setup, query and cleanup", len(st))
+	return nil
+}
+
 // queryMaps runs q on db and returns its rows as column → value maps.
 func queryMaps(t testing.TB, db *sql.DB, q string) []map[string]any {
 	t.Helper()
@@ -295,11 +333,9 @@ func queryMaps(t testing.TB, db *sql.DB, q string) []map[string]any {
 // by variant.
 func mainAggregates(t testing.TB, spec string) map[string]map[string]any {
 	t.Helper()
-	q := strings.TrimSpace(compileMain(t, spec))
-	q = strings.TrimSuffix(q, ";")
 	db := dirDB(t, filepath.Dir(spec))
 	out := map[string]map[string]any{}
-	for _, r := range queryMaps(t, db, q) {
+	for _, r := range runScript(t, db, compileMain(t, spec)) {
 		v, _ := r["variant"].(string)
 		out[v] = r
 	}

@@ -14,6 +14,8 @@ import (
 	"strconv"
 	"strings"
 	"time"
+
+	"github.com/assay-dev/assay/compiler"
 )
 
 // Row is one row of the main query: a variant (and grouping keys) with the
@@ -38,27 +40,69 @@ type Result struct {
 	Health []HealthRow
 }
 
-// Query runs main and health on db and reads their rows. keys are the
-// grouping key columns of the main query.
-func Query(ctx context.Context, db *sql.DB, main, health string, keys []string) (*Result, error) {
-	rows, err := readMain(ctx, db, main, keys)
-	if err != nil {
-		return nil, err
-	}
-	h, err := readHealth(ctx, db, health)
-	if err != nil {
-		return nil, err
-	}
-	return &Result{Rows: rows, Health: h}, nil
+// Query runs q on one connection of db (q.Setup, q.Main, q.Health, then
+// q.Cleanup, whatever happens) and reads the rows of main and health.
+// keys are the grouping key columns of the main query.
+func Query(ctx context.Context, db *sql.DB, q compiler.Queries, keys []string) (*Result, error) {
+	var res *Result
+	err := staged(ctx, db, q, func(c *sql.Conn) error {
+		rows, err := readMain(ctx, c, q.Main, keys)
+		if err != nil {
+			return err
+		}
+		h, err := readHealth(ctx, c, q.Health)
+		if err != nil {
+			return err
+		}
+		res = &Result{Rows: rows, Health: h}
+		return nil
+	})
+	return res, err
 }
 
-// QueryMain runs only a main query, e.g. one grouped by a segment, and
-// reads its rows; keys are its grouping key columns.
-func QueryMain(ctx context.Context, db *sql.DB, main string, keys []string) ([]Row, error) {
-	return readMain(ctx, db, main, keys)
+// QueryMain runs only q's main query (with q.Setup and q.Cleanup), e.g.
+// one grouped by a segment, and reads its rows; keys are its grouping key
+// columns.
+func QueryMain(ctx context.Context, db *sql.DB, q compiler.Queries, keys []string) ([]Row, error) {
+	var rows []Row
+	err := staged(ctx, db, q, func(c *sql.Conn) (err error) {
+		rows, err = readMain(ctx, c, q.Main, keys)
+		return err
+	})
+	return rows, err
 }
 
-func readMain(ctx context.Context, db *sql.DB, q string, keys []string) ([]Row, error) {
+// staged runs f on one connection of db between q.Setup and q.Cleanup: a
+// temporary table lives only as long as the connection that made it. The
+// cleanup runs even when ctx is cancelled, under its own short deadline.
+func staged(ctx context.Context, db *sql.DB, q compiler.Queries, f func(*sql.Conn) error) error {
+	c, err := db.Conn(ctx)
+	if err != nil {
+		return err
+	}
+	defer c.Close()
+	if q.Setup != "" {
+		_, err = c.ExecContext(ctx, q.Setup)
+	}
+	if err == nil {
+		err = f(c)
+	}
+	if q.Cleanup != "" {
+		cctx, cancel := context.WithTimeout(context.WithoutCancel(ctx), 30*time.Second)
+		defer cancel()
+		if _, cerr := c.ExecContext(cctx, q.Cleanup); cerr != nil && err == nil {
+			err = cerr
+		}
+	}
+	return err
+}
+
+// querier is what readMain and readHealth need of a connection.
+type querier interface {
+	QueryContext(ctx context.Context, query string, args ...any) (*sql.Rows, error)
+}
+
+func readMain(ctx context.Context, db querier, q string, keys []string) ([]Row, error) {
 	rs, err := db.QueryContext(ctx, q)
 	if err != nil {
 		return nil, err
@@ -102,7 +146,7 @@ func readMain(ctx context.Context, db *sql.DB, q string, keys []string) ([]Row, 
 	return out, rs.Err()
 }
 
-func readHealth(ctx context.Context, db *sql.DB, q string) ([]HealthRow, error) {
+func readHealth(ctx context.Context, db querier, q string) ([]HealthRow, error) {
 	rs, err := db.QueryContext(ctx, q)
 	if err != nil {
 		return nil, err

@@ -291,7 +291,23 @@ func TestHostileNamesCompile(t *testing.T) {
 				t.Fatalf("%s: %v", name, err)
 			}
 			checked++
-			for _, text := range []string{q.Main, q.Health} {
+			texts := []string{q.Main, q.Health}
+			if st, ok := d.(dialects.Stager); ok {
+				// The cleanup is the dialect's constant DROP of assay's own
+				// temporary table, with no user text in it; the setup is
+				// the dialect's constant CREATE prefix and then one query,
+				// which is checked like the others.
+				if want := st.DropTemp(compiler.StagedTable) + "\n"; q.Cleanup != want {
+					t.Errorf("%s: cleanup %q, want %q", name, q.Cleanup, want)
+				}
+				prefix := st.CreateTemp(compiler.StagedTable) + "\n"
+				i := strings.Index(q.Setup, prefix)
+				if i < 0 {
+					t.Fatalf("%s: setup without the prefix %q:\n%s", name, prefix, q.Setup)
+				}
+				texts = append(texts, q.Setup[i+len(prefix):])
+			}
+			for _, text := range texts {
 				n, toks, err := safety.Statements(text, safety.EngineRules[name])
 				if err != nil {
 					t.Errorf("%s: %v", name, err)

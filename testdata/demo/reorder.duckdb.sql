@@ -1,7 +1,9 @@
--- assay 0.1.0 per-variant statistics query for experiment reorder-shelf-2026-03 (spec fingerprint 29a70e58dcc0a2ef)
+-- assay 0.1.0 cohort table query for experiment reorder-shelf-2026-03 (spec fingerprint 29a70e58dcc0a2ef)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
+-- Computed once per run; the per-variant and health queries read it.
+CREATE OR REPLACE TEMPORARY TABLE "assay_cohort" AS
 WITH
 -- Exposure rows of exposures inside the analysis window; rows without a unit or time are ignored.
 exposure_rows AS NOT MATERIALIZED (
@@ -63,6 +65,29 @@ cohort AS (
     (r1.unit_id IS NULL) AS "fails_recent_order"
   FROM triggers AS t
   LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
+),
+-- Exposed units without a qualifying exposure, kept with no trigger for the health counts.
+never_triggered AS (
+  SELECT u.unit_id FROM exposed_units AS u WHERE u.trigger_us IS NULL
+)
+SELECT unit_id, variant, trigger_us, trigger_day, is_crossover, is_unknown_variant, "fails_recent_order"
+FROM cohort
+UNION ALL
+SELECT n.unit_id, NULL AS variant, NULL AS trigger_us, NULL AS trigger_day, NULL AS is_crossover, NULL AS is_unknown_variant, NULL AS "fails_recent_order"
+FROM never_triggered AS n
+;
+
+-- assay 0.1.0 per-variant statistics query for experiment reorder-shelf-2026-03 (spec fingerprint 29a70e58dcc0a2ef)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
+-- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
+-- File paths are relative to the spec's directory.
+-- Reads the cohort table of the setup statement.
+WITH
+-- Every triggered unit with the reasons it may be excluded, from the cohort table.
+cohort AS (
+  SELECT unit_id, variant, trigger_us, trigger_day, is_crossover, is_unknown_variant, "fails_recent_order"
+  FROM temp.main."assay_cohort"
+  WHERE trigger_us IS NOT NULL
 ),
 -- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
 eligible AS (
@@ -218,6 +243,7 @@ ORDER BY u.variant
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
+-- Reads the cohort table of the setup statement.
 WITH
 -- Exposure rows of exposures inside the analysis window; rows without a unit or time are ignored.
 exposure_rows AS NOT MATERIALIZED (
@@ -231,54 +257,11 @@ exposure_rows AS NOT MATERIALIZED (
     AND epoch_us(x."exposed_at") >= 1772409600000000 AND epoch_us(x."exposed_at") < 1776038400000000
     AND x."exposed_at" >= TIMESTAMP '2026-02-28 00:00:00' AND x."exposed_at" < TIMESTAMP '2026-04-15 00:00:00'
 ),
--- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
--- greatest variant it was seen in (when they differ, the unit crossed over).
-exposed_units AS (
-  SELECT
-    unit_id,
-    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
-    min(variant) AS variant_lo,
-    max(variant) AS variant_hi,
-    (count(variant) = count(*)) AS variant_always_set
-  FROM exposure_rows
-  GROUP BY unit_id
-),
--- Trigger: each unit's first qualifying exposure (a row qualifies when: surface = 'home').
--- A unit always seen in one variant takes it; any other unit takes the least variant among
--- its qualifying rows at the trigger time.
-triggers AS (
-  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
-  FROM exposed_units AS u
-  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
-  UNION ALL
-  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
-  FROM exposed_units AS u
-  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
-  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
-  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
-),
--- Rule recent_order: eligible when the unit has row in orders in [trigger - 60d, trigger + 0d) where status <> 'cancelled'.
-rule_1 AS (
-  SELECT DISTINCT t.unit_id
-  FROM triggers AS t
-  JOIN read_parquet('data/orders.parquet') AS s ON s."customer_id" = t.unit_id
-  WHERE epoch_us(s."ordered_at") >= t.trigger_us - 5184000000000
-    AND epoch_us(s."ordered_at") < t.trigger_us + 0
-    AND s."ordered_at" >= TIMESTAMP '2025-12-30 00:00:00' AND s."ordered_at" < TIMESTAMP '2026-04-15 00:00:00'
-    AND coalesce(s."status" <> 'cancelled', FALSE)
-),
--- Every triggered unit with the reasons it may be excluded.
+-- Every triggered unit with the reasons it may be excluded, from the cohort table.
 cohort AS (
-  SELECT
-    t.unit_id,
-    t.variant,
-    t.trigger_us,
-    CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
-    t.is_crossover,
-    (t.variant IS NULL OR t.variant NOT IN ('control', 'shelf')) AS is_unknown_variant,
-    (r1.unit_id IS NULL) AS "fails_recent_order"
-  FROM triggers AS t
-  LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
+  SELECT unit_id, variant, trigger_us, trigger_day, is_crossover, is_unknown_variant, "fails_recent_order"
+  FROM temp.main."assay_cohort"
+  WHERE trigger_us IS NOT NULL
 ),
 -- Exposure rows outside the analysis window, or without a unit or time.
 ignored_rows AS (
@@ -314,7 +297,7 @@ SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   GROUP BY variant, trigger_day
   UNION ALL
   SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
-  FROM exposed_units AS u
+  FROM temp.main."assay_cohort" AS u
   WHERE u.trigger_us IS NULL
   UNION ALL
   SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
@@ -368,4 +351,7 @@ SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   FROM nulls_3
 ) AS h
 ORDER BY h.kind, h.reason, h.variant, h.day
+;
+
+DROP TABLE IF EXISTS temp.main."assay_cohort"
 ;

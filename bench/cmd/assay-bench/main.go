@@ -27,6 +27,7 @@ import (
 	"time"
 
 	"github.com/assay-dev/assay/bench"
+	"github.com/assay-dev/assay/compiler"
 	"github.com/assay-dev/assay/engine"
 )
 
@@ -429,10 +430,13 @@ func cmdSQL(args []string, stdout, stderr io.Writer) int {
 		return 2
 	}
 	switch *which {
+	// The setup statement, when there is one, comes first and the cleanup
+	// is left out, so that the text runs as one file whose last statement
+	// returns the rows (the next setup replaces the table).
 	case "main":
-		fmt.Fprint(stdout, q.Main)
+		fmt.Fprint(stdout, withSetup(q, q.Main))
 	case "health":
-		fmt.Fprint(stdout, q.Health)
+		fmt.Fprint(stdout, withSetup(q, q.Health))
 	case "reference":
 		fmt.Fprint(stdout, bench.ReferenceSQL())
 	case "notebook":
@@ -546,4 +550,12 @@ func cmdExplain(ctx context.Context, args []string, stdout, stderr io.Writer) in
 		fmt.Fprintln(stdout, v)
 	}
 	return 0
+}
+
+// withSetup is query preceded by q's setup statement, if any.
+func withSetup(q compiler.Queries, query string) string {
+	if q.Setup == "" {
+		return query
+	}
+	return strings.TrimRight(q.Setup, "\n") + ";\n\n" + query
 }

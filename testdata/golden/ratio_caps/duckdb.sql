@@ -1,6 +1,8 @@
--- assay 0.1.0 per-variant statistics query for experiment ratio-caps (spec fingerprint 70f84f6c6f917d36)
+-- assay 0.1.0 cohort table query for experiment ratio-caps (spec fingerprint 70f84f6c6f917d36)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-06-01T00:00:00Z, 2026-07-01T00:00:00Z); outcome windows must have ended by 2026-07-01T00:00:00Z.
+-- Computed once per run; the per-variant and health queries read it.
+CREATE OR REPLACE TEMPORARY TABLE "assay_cohort" AS
 WITH
 -- Exposure rows of exposures inside the analysis window; rows without a unit or time are ignored.
 exposure_rows AS NOT MATERIALIZED (
@@ -50,6 +52,28 @@ cohort AS (
     t.is_crossover,
     (t.variant IS NULL OR t.variant NOT IN ('control', 'threshold_30', 'threshold_40')) AS is_unknown_variant
   FROM triggers AS t
+),
+-- Exposed units without a qualifying exposure, kept with no trigger for the health counts.
+never_triggered AS (
+  SELECT u.unit_id FROM exposed_units AS u WHERE u.trigger_us IS NULL
+)
+SELECT unit_id, variant, trigger_us, trigger_day, is_crossover, is_unknown_variant
+FROM cohort
+UNION ALL
+SELECT n.unit_id, NULL AS variant, NULL AS trigger_us, NULL AS trigger_day, NULL AS is_crossover, NULL AS is_unknown_variant
+FROM never_triggered AS n
+;
+
+-- assay 0.1.0 per-variant statistics query for experiment ratio-caps (spec fingerprint 70f84f6c6f917d36)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
+-- Exposures are read in [2026-06-01T00:00:00Z, 2026-07-01T00:00:00Z); outcome windows must have ended by 2026-07-01T00:00:00Z.
+-- Reads the cohort table of the setup statement.
+WITH
+-- Every triggered unit with the reasons it may be excluded, from the cohort table.
+cohort AS (
+  SELECT unit_id, variant, trigger_us, trigger_day, is_crossover, is_unknown_variant
+  FROM temp.main."assay_cohort"
+  WHERE trigger_us IS NOT NULL
 ),
 -- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
 eligible AS (
@@ -181,6 +205,7 @@ ORDER BY u.variant
 -- assay 0.1.0 health query for experiment ratio-caps (spec fingerprint 70f84f6c6f917d36)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-06-01T00:00:00Z, 2026-07-01T00:00:00Z); outcome windows must have ended by 2026-07-01T00:00:00Z.
+-- Reads the cohort table of the setup statement.
 WITH
 -- Exposure rows of exposures inside the analysis window; rows without a unit or time are ignored.
 exposure_rows AS NOT MATERIALIZED (
@@ -194,42 +219,11 @@ exposure_rows AS NOT MATERIALIZED (
     AND epoch_us(x."ts") >= 1780272000000000 AND epoch_us(x."ts") < 1782864000000000
     AND x."ts" >= TIMESTAMP '2026-05-30 00:00:00' AND x."ts" < TIMESTAMP '2026-07-03 00:00:00'
 ),
--- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
--- greatest variant it was seen in (when they differ, the unit crossed over).
-exposed_units AS (
-  SELECT
-    unit_id,
-    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
-    min(variant) AS variant_lo,
-    max(variant) AS variant_hi,
-    (count(variant) = count(*)) AS variant_always_set
-  FROM exposure_rows
-  GROUP BY unit_id
-),
--- Trigger: each unit's first qualifying exposure (a row qualifies when: page IN ('cart', 'checkout')).
--- A unit always seen in one variant takes it; any other unit takes the least variant among
--- its qualifying rows at the trigger time.
-triggers AS (
-  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
-  FROM exposed_units AS u
-  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
-  UNION ALL
-  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
-  FROM exposed_units AS u
-  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
-  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
-  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
-),
--- Every triggered unit with the reasons it may be excluded.
+-- Every triggered unit with the reasons it may be excluded, from the cohort table.
 cohort AS (
-  SELECT
-    t.unit_id,
-    t.variant,
-    t.trigger_us,
-    CAST(make_timestamp(t.trigger_us) AS DATE) AS trigger_day,
-    t.is_crossover,
-    (t.variant IS NULL OR t.variant NOT IN ('control', 'threshold_30', 'threshold_40')) AS is_unknown_variant
-  FROM triggers AS t
+  SELECT unit_id, variant, trigger_us, trigger_day, is_crossover, is_unknown_variant
+  FROM temp.main."assay_cohort"
+  WHERE trigger_us IS NOT NULL
 ),
 -- Exposure rows outside the analysis window, or without a unit or time.
 ignored_rows AS (
@@ -260,7 +254,7 @@ SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   GROUP BY variant, trigger_day
   UNION ALL
   SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
-  FROM exposed_units AS u
+  FROM temp.main."assay_cohort" AS u
   WHERE u.trigger_us IS NULL
   UNION ALL
   SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
@@ -303,4 +297,7 @@ SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
   FROM nulls_2
 ) AS h
 ORDER BY h.kind, h.reason, h.variant, h.day
+;
+
+DROP TABLE IF EXISTS temp.main."assay_cohort"
 ;
