@@ -191,28 +191,16 @@ func toFloat(v any) float64 {
 }
 
 // RunAssay is approach (a): assay's compiled main query, read back as
-// aggregates.
-// With a staging dialect it runs, as assay does, the setup statement
-// first and the cleanup last, on one connection, and the time includes
+// aggregates. As in assay run, the setup statement (the cohort table)
+// runs first and the cleanup last, on one connection; the time includes
 // them.
 func RunAssay(ctx context.Context, db *sql.DB, q compiler.Queries) (Aggregates, error) {
-	c, err := db.Conn(ctx)
-	if err != nil {
-		return nil, err
-	}
-	defer c.Close()
-	if q.Setup != "" {
-		if _, err := c.ExecContext(ctx, q.Setup); err != nil {
-			return nil, engine.CleanError(err)
-		}
-	}
-	agg, err := QueryAggregates(ctx, c, q.Main)
-	if q.Cleanup != "" {
-		if _, cerr := c.ExecContext(ctx, q.Cleanup); cerr != nil && err == nil {
-			err = cerr
-		}
-	}
-	return agg, err
+	var agg Aggregates
+	err := engine.Staged(ctx, db, q, func(c *sql.Conn) (err error) {
+		agg, err = QueryAggregates(ctx, c, q.Main)
+		return err
+	})
+	return agg, engine.CleanError(err)
 }
 
 // RunAssayReport is the whole of assay run after compilation: both queries

@@ -45,7 +45,7 @@ type Result struct {
 // keys are the grouping key columns of the main query.
 func Query(ctx context.Context, db *sql.DB, q compiler.Queries, keys []string) (*Result, error) {
 	var res *Result
-	err := staged(ctx, db, q, func(c *sql.Conn) error {
+	err := Staged(ctx, db, q, func(c *sql.Conn) error {
 		rows, err := readMain(ctx, c, q.Main, keys)
 		if err != nil {
 			return err
@@ -65,17 +65,17 @@ func Query(ctx context.Context, db *sql.DB, q compiler.Queries, keys []string) (
 // columns.
 func QueryMain(ctx context.Context, db *sql.DB, q compiler.Queries, keys []string) ([]Row, error) {
 	var rows []Row
-	err := staged(ctx, db, q, func(c *sql.Conn) (err error) {
+	err := Staged(ctx, db, q, func(c *sql.Conn) (err error) {
 		rows, err = readMain(ctx, c, q.Main, keys)
 		return err
 	})
 	return rows, err
 }
 
-// staged runs f on one connection of db between q.Setup and q.Cleanup: a
+// Staged runs f on one connection of db between q.Setup and q.Cleanup: a
 // temporary table lives only as long as the connection that made it. The
 // cleanup runs even when ctx is cancelled, under its own short deadline.
-func staged(ctx context.Context, db *sql.DB, q compiler.Queries, f func(*sql.Conn) error) error {
+func Staged(ctx context.Context, db *sql.DB, q compiler.Queries, f func(*sql.Conn) error) error {
 	c, err := db.Conn(ctx)
 	if err != nil {
 		return err
