@@ -117,9 +117,8 @@ type printer struct {
 	// mean metric and a ratio's denominator); the pass computes it once.
 	same map[string]string
 	// stage is set when the cohort is computed once, by Setup, into a
-	// temporary table; cohortCols are its columns, as printed.
-	stage      dialects.Stager
-	cohortCols []string
+	// temporary table.
+	stage dialects.Stager
 }
 
 func (pr *printer) line(indent int, format string, args ...any) {
@@ -214,11 +213,12 @@ func (pr *printer) setup() (string, error) {
 	pr.line(0, "never_triggered AS (")
 	pr.line(1, "SELECT u.unit_id FROM exposed_units AS u WHERE u.trigger_us IS NULL")
 	pr.line(0, ")")
-	pr.line(0, "SELECT %s", strings.Join(pr.cohortCols, ", "))
+	cols := pr.cohortCols()
+	pr.line(0, "SELECT %s", strings.Join(cols, ", "))
 	pr.line(0, "FROM cohort")
 	pr.line(0, "UNION ALL")
 	nulls := []string{"n.unit_id"}
-	for _, c := range pr.cohortCols[1:] {
+	for _, c := range cols[1:] {
 		nulls = append(nulls, "NULL AS "+c)
 	}
 	pr.line(0, "SELECT %s", strings.Join(nulls, ", "))
@@ -231,7 +231,7 @@ func (pr *printer) setup() (string, error) {
 func (pr *printer) stagedCohort() {
 	pr.line(0, "-- Every triggered unit with the reasons it may be excluded, from the cohort table.")
 	pr.line(0, "cohort AS (")
-	pr.line(1, "SELECT %s", strings.Join(pr.cohortCols, ", "))
+	pr.line(1, "SELECT %s", strings.Join(pr.cohortCols(), ", "))
 	pr.line(1, "FROM %s", pr.stage.TempRef(StagedTable))
 	pr.line(1, "WHERE trigger_us IS NOT NULL")
 	pr.line(0, "),")
@@ -271,8 +271,20 @@ func (pr *printer) exposureRows() {
 	pr.line(0, "),")
 }
 
-// cohortCTEs prints the CTEs from the trigger aggregate to the cohort, and
-// records the cohort's columns.
+// cohortCols lists the cohort CTE's columns, as cohortCTEs prints them.
+func (pr *printer) cohortCols() []string {
+	cols := []string{"unit_id", "variant", "trigger_us", "trigger_day"}
+	for _, seg := range pr.p.Segments {
+		cols = append(cols, pr.id("seg_"+seg.Name))
+	}
+	cols = append(cols, "is_crossover", "is_unknown_variant")
+	for _, r := range pr.p.Rules {
+		cols = append(cols, pr.id("fails_"+r.Name))
+	}
+	return cols
+}
+
+// cohortCTEs prints the CTEs from the trigger aggregate to the cohort.
 func (pr *printer) cohortCTEs() {
 	p, s, d := pr.p, pr.p.Spec, pr.d
 	ex := s.Exposure
@@ -347,14 +359,12 @@ func (pr *printer) cohortCTEs() {
 	pr.line(2, "t.variant,")
 	pr.line(2, "t.trigger_us,")
 	pr.line(2, "%s AS trigger_day,", d.Day("t.trigger_us", p.TZ))
-	pr.cohortCols = []string{"unit_id", "variant", "trigger_us", "trigger_day"}
 	for _, seg := range segs {
 		alias := "t"
 		if seg.Source != src {
 			alias = attrAlias(p, seg.Source)
 		}
 		pr.line(2, "%s.%s AS %s,", alias, pr.id("seg_"+seg.Name), pr.id("seg_"+seg.Name))
-		pr.cohortCols = append(pr.cohortCols, pr.id("seg_"+seg.Name))
 	}
 	vs := make([]string, len(p.Variants))
 	for i, v := range p.Variants {
@@ -362,10 +372,8 @@ func (pr *printer) cohortCTEs() {
 	}
 	pr.line(2, "t.is_crossover,")
 	pr.line(2, "(t.variant IS NULL OR t.variant NOT IN (%s)) AS is_unknown_variant%s", strings.Join(vs, ", "), commaIf(len(p.Rules) > 0))
-	pr.cohortCols = append(pr.cohortCols, "is_crossover", "is_unknown_variant")
 	for i, r := range p.Rules {
 		pr.line(2, "(r%d.unit_id IS %sNULL) AS %s%s", i+1, notIf(!r.Absent), pr.id("fails_"+r.Name), commaIf(i < len(p.Rules)-1))
-		pr.cohortCols = append(pr.cohortCols, pr.id("fails_"+r.Name))
 	}
 	pr.line(1, "FROM triggers AS t")
 	for _, a := range p.Attrs {

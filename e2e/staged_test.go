@@ -2,6 +2,7 @@ package e2e
 
 import (
 	"context"
+	"database/sql"
 	"math"
 	"path/filepath"
 	"testing"
@@ -11,6 +12,24 @@ import (
 	"github.com/assay-dev/assay/engine"
 	"github.com/assay-dev/assay/metrics"
 )
+
+// demoEngine loads the demo spec and opens assay's DuckDB engine on its
+// data directory.
+func demoEngine(t *testing.T) (*metrics.Spec, *sql.DB) {
+	t.Helper()
+	spec := filepath.Join("..", "testdata", "demo", "reorder.toml")
+	s, _, ds := metrics.LoadFile(spec)
+	if ds.HasErrors() {
+		t.Fatal(ds)
+	}
+	dir, _ := filepath.Abs(filepath.Dir(spec))
+	db, err := engine.OpenDuckDB(engine.DuckDBOptions{FileDir: dir})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { db.Close() })
+	return s, db
+}
 
 // oneStatement is the DuckDB dialect without its optional interfaces: the
 // printer then writes each query as one self-contained statement that
@@ -25,17 +44,7 @@ type oneStatement struct{ dialects.Dialect }
 // last bits; common practice): staging moves where the cohort is computed,
 // not what it is.
 func TestStagedCohortSameResults(t *testing.T) {
-	spec := filepath.Join("..", "testdata", "demo", "reorder.toml")
-	s, _, ds := metrics.LoadFile(spec)
-	if ds.HasErrors() {
-		t.Fatal(ds)
-	}
-	dir, _ := filepath.Abs(filepath.Dir(spec))
-	db, err := engine.OpenDuckDB(engine.DuckDBOptions{FileDir: dir})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
+	s, db := demoEngine(t)
 	duck, _ := dialects.Lookup("duckdb")
 	if _, ok := duck.(dialects.Stager); !ok {
 		t.Fatal("the DuckDB dialect does not stage the cohort")
@@ -105,17 +114,7 @@ func TestStagedCohortSameResults(t *testing.T) {
 // TestStagedCohortCleanedUp checks that a run leaves no temporary table
 // behind on the connection, after success and after a failed query.
 func TestStagedCohortCleanedUp(t *testing.T) {
-	spec := filepath.Join("..", "testdata", "demo", "reorder.toml")
-	s, _, ds := metrics.LoadFile(spec)
-	if ds.HasErrors() {
-		t.Fatal(ds)
-	}
-	dir, _ := filepath.Abs(filepath.Dir(spec))
-	db, err := engine.OpenDuckDB(engine.DuckDBOptions{FileDir: dir})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
+	s, db := demoEngine(t)
 	p, ds := compiler.Compile(s, compiler.Options{})
 	if ds.HasErrors() {
 		t.Fatal(ds)
