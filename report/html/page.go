@@ -346,6 +346,9 @@ var funcs = template.FuncMap{
 		return template.HTML("</h" + strconv.Itoa(min(max(h.Level, 3), 6)) + ">")
 	},
 	"anchor": func(s string) template.URL { return template.URL(s) },
+	// t escapes text for a text node with the same escaper as the SVG text,
+	// so signs print as typed ("+1.20%") rather than as "&#43;".
+	"t": func(s string) template.HTML { return template.HTML(esc(s)) },
 }
 
 const css = `
@@ -388,22 +391,22 @@ var pageTmpl = template.Must(template.New("page").Funcs(funcs).Parse(`<!DOCTYPE 
 <meta charset="utf-8">
 <meta name="viewport" content="width=device-width, initial-scale=1">
 <meta http-equiv="Content-Security-Policy" content="default-src 'none'; style-src 'unsafe-inline'">
-<title>{{.Title}}</title>
+<title>{{t .Title}}</title>
 <style>` + css + `</style>
 </head>
 <body>
-<h1>{{.Title}}</h1>
+<h1>{{t .Title}}</h1>
 {{- $nav := false}}{{range .Sections}}{{if .ID}}{{$nav = true}}{{end}}{{end}}
 {{- if $nav}}
 <nav aria-label="Contents"><ol>
 {{- range .Sections}}{{if .ID}}
-<li><a href="{{anchor (printf "#%s" .ID)}}">{{.Heading}}</a></li>
+<li><a href="{{anchor (printf "#%s" .ID)}}">{{t .Heading}}</a></li>
 {{- end}}{{end}}
 </ol></nav>
 {{- end}}
 {{- range .Sections}}
 <section{{if .ID}} id="{{.ID}}"{{end}}>
-<h2>{{.Heading}}</h2>
+<h2>{{t .Heading}}</h2>
 {{- template "blocks" .Blocks}}
 </section>
 {{- end}}
@@ -411,28 +414,28 @@ var pageTmpl = template.Must(template.New("page").Funcs(funcs).Parse(`<!DOCTYPE 
 </html>
 {{define "blocks"}}{{range .}}{{$k := kind .}}
 {{- if eq $k "heading"}}
-{{hopen .}}{{.Text}}{{hclose .}}
+{{hopen .}}{{t .Text}}{{hclose .}}
 {{- else if eq $k "para"}}
-<p>{{.Text}}</p>
+<p>{{t .Text}}</p>
 {{- else if eq $k "table"}}{{template "table" .}}
 {{- else if eq $k "details"}}
 <details{{if .Open}} open{{end}}>
-<summary>{{.Summary}}</summary>
+<summary>{{t .Summary}}</summary>
 {{- template "blocks" .Blocks}}
 </details>
 {{- else if eq $k "sql"}}
 <figure class="sql-listing"{{if .ID}} id="{{.ID}}"{{end}}>
 {{- if .Caption}}
-<figcaption>{{.Caption}}</figcaption>
+<figcaption>{{t .Caption}}</figcaption>
 {{- end}}
 <pre class="sql"><code>
-{{- range .Fragments}}<span class="frag"{{if .ID}} id="{{.ID}}"{{end}}>{{if .Name}}<span class="frag-name">-- {{.Name}}</span>
-{{end}}{{.Text}}</span>{{end -}}
+{{- range .Fragments}}<span class="frag"{{if .ID}} id="{{.ID}}"{{end}}>{{if .Name}}<span class="frag-name">-- {{t .Name}}</span>
+{{end}}{{t .Text}}</span>{{end -}}
 </code></pre>
 </figure>
 {{- else if eq $k "figure"}}{{with figure .}}
 <figure id="{{.ID}}">
-<figcaption>{{.Title}}</figcaption>
+<figcaption>{{t .Title}}</figcaption>
 {{.SVG}}
 {{- template "table" .Table}}
 </figure>
@@ -442,14 +445,14 @@ var pageTmpl = template.Must(template.New("page").Funcs(funcs).Parse(`<!DOCTYPE 
 {{define "table"}}
 <table{{if .ID}} id="{{.ID}}"{{end}}>
 {{- if .Caption}}
-<caption>{{.Caption}}</caption>
+<caption>{{t .Caption}}</caption>
 {{- end}}
 {{- if .Header}}
-<thead><tr>{{range .Header}}<th scope="col">{{.}}</th>{{end}}</tr></thead>
+<thead><tr>{{range .Header}}<th scope="col">{{t .}}</th>{{end}}</tr></thead>
 {{- end}}
 <tbody>
 {{- range .Rows}}
-<tr>{{range .}}<td{{if .ID}} id="{{.ID}}"{{end}}{{if .Numeric}} class="num"{{end}}>{{if .Link}}<a href="{{anchor .Link}}">{{.Text}}</a>{{else}}{{.Text}}{{end}}</td>{{end}}</tr>
+<tr>{{range .}}<td{{if .ID}} id="{{.ID}}"{{end}}{{if .Numeric}} class="num"{{end}}>{{if .Link}}<a href="{{anchor .Link}}">{{t .Text}}</a>{{else}}{{t .Text}}{{end}}</td>{{end}}</tr>
 {{- end}}
 </tbody>
 </table>
