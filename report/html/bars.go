@@ -169,7 +169,7 @@ func (f Funnel) withID(id string) Block { f.ID = id; return f }
 const (
 	funnelW     = 760.0
 	funnelL     = 130.0
-	funnelR     = 600.0
+	funnelR     = 620.0
 	funnelTop   = 32.0
 	funnelBarH  = 18.0
 	funnelGap   = 14.0
@@ -201,11 +201,20 @@ func (f Funnel) SVG() string {
 			}
 		}
 	}
+	// Leave room right of the longest bar for the longest label (about
+	// 6.8 px per character at 12 px).
+	longest := 0
+	for _, s := range f.Series {
+		for st := range f.Stages {
+			longest = max(longest, len([]rune(s.Name+" "+fmtCount(s.at(st))+" ("+fmtShare(s.at(st), s.at(0))+")")))
+		}
+	}
+	right := math.Max(funnelL+200, math.Min(funnelR, funnelW-8-funnelLabel-6.8*float64(longest)))
 	w := func(v float64) float64 {
 		if !(hi > 0) || !(v > 0) {
 			return 0
 		}
-		return v / hi * (funnelR - funnelL)
+		return v / hi * (right - funnelL)
 	}
 	for st, name := range f.Stages {
 		top := funnelTop + stageH*float64(st)
@@ -223,7 +232,7 @@ func (f Funnel) SVG() string {
 	}
 	line(&b, funnelL, funnelTop-4, funnelL, h-10, axisColour, 1, "")
 	if len(f.Stages) == 0 {
-		text(&b, (funnelL+funnelR)/2, funnelTop+20, "middle", "muted", "no stages")
+		text(&b, (funnelL+right)/2, funnelTop+20, "middle", "muted", "no stages")
 	}
 	b.WriteString("</svg>")
 	return b.String()

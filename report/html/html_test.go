@@ -3,7 +3,10 @@
 // Layout: testdata/page.golden.html is the rendered demo page (demo_test.go,
 // an invented scenario); testdata/page.numbers.txt lists, one per line,
 // numbers that must appear in it, written by hand from the demo's inputs
-// (scripts/browser-check reads the same file to check the rendered DOM).
+// (percentages by shifting the decimal point; funnel shares such as
+// 9875/15944 = 61.9% from python3 -c "print(9875/15944)"), never from the
+// code under test. scripts/browser-check reads the same file to check the
+// DOM a browser renders.
 // Refresh the golden file with
 //
 //	go test ./report/html/ -update
@@ -285,5 +288,27 @@ func TestEdgeCases(t *testing.T) {
 	}
 	if strings.Contains(out, "NaN") || strings.Contains(out, "Inf") {
 		t.Errorf("page prints NaN or Inf")
+	}
+}
+
+// TestAnchors checks that numbers link to the SQL fragments that produced
+// them and that every fragment with a name has its CTEID anchor.
+func TestAnchors(t *testing.T) {
+	out := render(t, demoPage())
+	for _, want := range []string{
+		`<span class="frag" id="cte-cohort">`,
+		`<span class="frag" id="cte-per_unit">`,
+		`<span class="frag" id="final-select">`,
+		`<a href="#cte-per_unit">0.1184</a>`,
+		`<a href="#cte-latency">812.40</a>`,
+		`<td id="eff-signups" class="num">+1.98%</td>`,
+		`<a href="#health">Exposure and health</a>`,
+	} {
+		if !strings.Contains(out, want) {
+			t.Errorf("page lacks %s", want)
+		}
+	}
+	if got, want := CTEID("daily users"), "cte-daily-users"; got != want {
+		t.Errorf("CTEID: got %q, want %q", got, want)
 	}
 }
