@@ -12,13 +12,14 @@
 // anchors, so a number in a table can always be followed to the CTE that
 // produced it.
 //
-// Plots are drawn by hand as SVG rather than with gonum/plot: gonum/plot
-// brings its own font handling (it names or embeds TrueType fonts, which
-// either depend on the reader's machine or add hundreds of kilobytes), emits
-// absolute-positioned glyph runs that screen readers cannot read, and knows
-// nothing of <title>/<desc> or patterns. The four plots needed here are a few
-// hundred lines of plain SVG with text the browser lays out in the reader's
-// own sans-serif font.
+// Plots are drawn by hand as SVG rather than with gonum/plot: that would add
+// the gonum.org/v1/plot module and its font and drawing packages to the build
+// for four simple charts; its SVG names the Liberation fonts by default,
+// which a reader's machine may lack, or embeds them, which adds their bytes
+// to every report; and accessible names, descriptions and fill patterns would
+// have to be patched into its output. Plain SVG with <text> lets the browser
+// lay out labels in the reader's own sans-serif font, and keeps the markup
+// small and reviewable in golden files.
 //
 // Every plot is followed by a table of the numbers it draws, so no value is
 // conveyed by a picture alone. Colour is never the only cue: marker kinds have
