@@ -8,6 +8,8 @@ import (
 
 // Series is one arm's values, one per group (Bars) or stage (Funnel).
 // Missing values (a shorter slice) and NaN are not drawn and print "n/a".
+// Six series have distinct colours and patterns; a seventh repeats the
+// first's look (its name still tells it apart).
 type Series struct {
 	Name   string
 	Values []float64

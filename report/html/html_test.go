@@ -291,6 +291,30 @@ func TestEdgeCases(t *testing.T) {
 	}
 }
 
+// TestEscaping checks that text is escaped exactly once in every context.
+func TestEscaping(t *testing.T) {
+	s := `a<b> & "c" 'd'`
+	want := `a&lt;b&gt; &amp; &#34;c&#34; &#39;d&#39;`
+	out := render(t, Page{Title: s, Sections: []Section{{ID: "s", Heading: s, Blocks: []Block{
+		Paragraph{Text: s},
+		Table{Caption: s, Header: []string{s}, Rows: [][]Cell{{{Text: s, Link: "#s"}}}},
+		Details{Summary: s},
+		SQL{Caption: s, Fragments: []SQLFragment{{Name: s, Text: s}}},
+		Forest{Title: s, Rows: []ForestRow{{Label: s, Estimate: 0.1, Low: 0, High: 0.2, Marker: s, Note: s}}},
+	}}}})
+	// Title, h1, nav, h2, p, caption, th, td, summary, SQL caption, fragment
+	// name and text, figure caption, svg aria-label, svg title, row title,
+	// row label, kind, table caption (prefixed), cells for label, kind, note.
+	if got := strings.Count(out, want); got < 20 {
+		t.Errorf("got %d escaped copies of the text, want at least 20", got)
+	}
+	for _, bad := range []string{"<b>", "&amp;lt;", "&amp;#"} {
+		if strings.Contains(out, bad) {
+			t.Errorf("page contains %q: text escaped zero or two times", bad)
+		}
+	}
+}
+
 // TestAnchors checks that numbers link to the SQL fragments that produced
 // them and that every fragment with a name has its CTEID anchor.
 func TestAnchors(t *testing.T) {

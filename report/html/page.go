@@ -334,7 +334,6 @@ var funcs = template.FuncMap{
 		// The SVG is built by this package with every text escaped by esc.
 		return figure{ID: p.id(), Title: title, SVG: template.HTML(p.SVG()), Table: p.Table()}
 	},
-	"level": func(h Heading) int { return min(max(h.Level, 3), 6) },
 	"hopen": func(h Heading) template.HTML {
 		l := strconv.Itoa(min(max(h.Level, 3), 6))
 		if h.ID != "" {
