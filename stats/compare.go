@@ -97,6 +97,13 @@ func compareEstimates(c Comparison, base, treat Estimate, df float64) Comparison
 		c.StdError, c.TestStdError = math.NaN(), math.NaN()
 		return c
 	}
+	return finishDiff(c)
+}
+
+// finishDiff fills the statistic, p-value and interval of c from its
+// Difference, StdError, DF and Level.
+func finishDiff(c Comparison) Comparison {
+	df := c.DF
 	if c.StdError == 0 {
 		c.Reason = reasonZeroSE
 		return c

@@ -128,7 +128,11 @@ func TestEdgeCases(t *testing.T) {
 		{"cuped constant covariate", func() (string, []chk) {
 			c := CUPEDWelch(CovariateMoments{N: 10, MeanY: 1, MeanX: 1, VarY: 1},
 				CovariateMoments{N: 10, MeanY: 2, MeanX: 1, VarY: 1}, 0.95)
-			return c.Reason, []chk{val("Unadjusted.Difference", c.Unadjusted.Difference, 1), defined("Unadjusted.PValue", c.Unadjusted.PValue)}
+			if c.Adjusted || !strings.Contains(c.AdjustReason, "covariate does not vary") || c.Reason != "" {
+				return "want the unadjusted fallback, got AdjustReason " + c.AdjustReason, nil
+			}
+			return c.AdjustReason, []chk{val("Unadjusted.Difference", c.Unadjusted.Difference, 1), defined("Unadjusted.PValue", c.Unadjusted.PValue),
+				val("Difference", c.Difference, 1), defined("PValue", c.PValue)}
 		}, "covariate does not vary"},
 		{"cuped ratio den 0", func() (string, []chk) {
 			c := CUPEDRatio(RatioCovariateMoments{N: 10, MeanX: 1, VarX: 1},
