@@ -79,7 +79,8 @@ func TestFiellerShapes(t *testing.T) {
 // the two-sided p-value is below 1 − level. Welch uses t critical values
 // with the Welch df, RatioDiff the normal (both Fieller); TwoProportion
 // uses the Koopman score set, whose statistic at ratio 1 is the pooled z of
-// the test. Source: the algebra in Fieller's and Koopman's doc comments,
+// the test; CUPEDWelch uses Fieller with the covariance of the two adjusted
+// means and the Welch df. Source: the algebra in Fieller's and Koopman's doc comments,
 // checked on 3000 seeded random cases per kind; cases within 1e-9 of the
 // boundary (p = 1 − level exactly) are not counted.
 func TestRelativeSetAgreesWithTest(t *testing.T) {
@@ -120,9 +121,17 @@ func TestRelativeSetAgreesWithTest(t *testing.T) {
 		x1 := math.Round(n1 * p)
 		x2 := math.Round(n2 * math.Min(1, math.Max(0, p+0.15*rng.NormFloat64())))
 		check("proportion", TwoProportion(Moments{N: n1, Mean: x1 / n1}, Moments{N: n2, Mean: x2 / n2}, level))
+		// CUPED: correlated adjusted means (covariance from the shared θ
+		// and covariate centre) with Welch df.
+		cm := func(n, my float64) CovariateMoments {
+			vx, vy := math.Exp(rng.NormFloat64()), math.Exp(rng.NormFloat64())
+			rho := 0.95 * (2*rng.Float64() - 1)
+			return CovariateMoments{N: n, MeanY: my, MeanX: 5 + rng.NormFloat64()*0.3, VarY: vy, VarX: vx, CovYX: rho * math.Sqrt(vx*vy)}
+		}
+		check("cuped", CUPEDWelch(cm(nb, mb), cm(nt, mt), level).Comparison)
 	}
 	t.Logf("cases: %v", checked)
-	for _, kind := range []string{"welch", "ratio", "proportion"} {
+	for _, kind := range []string{"welch", "ratio", "proportion", "cuped"} {
 		if checked[kind] < 2000 {
 			t.Errorf("%s: only %d usable cases, want at least 2000", kind, checked[kind])
 		}
