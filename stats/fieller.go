@@ -199,3 +199,42 @@ func withRelSet(c Comparison, base, treat Estimate, cov float64, in relInputs) C
 	}
 	return c
 }
+
+// relPivot returns the signed test statistic of the hypothesis that the
+// ratio treatment/baseline equals theta0, positive when the estimate lies
+// above theta0, and its degrees of freedom (+Inf: normal). For Fieller's
+// set it is sign(b)·(a − θ₀b)/√(seA² − 2θ₀·cov + θ₀²·seB²); for two
+// proportions the signed root of the Koopman score statistic. The
+// comparison's relative set at a two-sided level is exactly the θ₀ whose
+// |statistic| does not exceed the critical value.
+func (c Comparison) relPivot(theta0 float64) (stat, df float64) {
+	in := c.rel
+	if !in.ok || !finite(theta0) {
+		return math.NaN(), math.NaN()
+	}
+	if in.score {
+		if theta0 <= 0 {
+			return math.NaN(), math.NaN()
+		}
+		z2 := koopmanZ2(theta0, in.xt, in.nt, in.xb, in.nb)
+		d := in.xt/in.nt - theta0*in.xb/in.nb
+		return math.Copysign(math.Sqrt(z2), d), math.Inf(1)
+	}
+	v := in.seA*in.seA - 2*theta0*in.cov + theta0*theta0*in.seB*in.seB
+	if !(v > 0) || in.b == 0 {
+		return math.NaN(), math.NaN()
+	}
+	return math.Copysign(1, in.b) * (in.a - theta0*in.b) / math.Sqrt(v), in.df
+}
+
+// lowerTail returns P(T_df ≤ t), with df = +Inf for the normal.
+func lowerTail(t, df float64) float64 {
+	if math.IsNaN(t) || math.IsNaN(df) {
+		return math.NaN()
+	}
+	half := TwoSidedTP(t, df) / 2
+	if t < 0 {
+		return half
+	}
+	return 1 - half
+}

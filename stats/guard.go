@@ -192,8 +192,14 @@ type GuardVerdict struct {
 	// HarmP is the one-sided p-value of the comparison's test against "no
 	// change" in the harmful direction; HarmP < 1 − Level exactly when the
 	// bound on the favourable side excludes 0.
-	HarmP  float64
-	Reason string // why the verdict is undefined or inconclusive by shape; empty otherwise
+	HarmP float64
+	// NoHarmP is the one-sided non-inferiority p-value: of the hypothesis
+	// that the relative change is at or beyond the margin on the harmful
+	// side (≥ m for "increase", ≤ −m for "decrease"), from the same pivot
+	// as the relative set. NoHarmP < 1 − Level exactly when the bound on
+	// the harmful side is inside the margin. NaN unless the set is bounded.
+	NoHarmP float64
+	Reason  string // why the verdict is undefined or inconclusive by shape; empty otherwise
 }
 
 // Guard decides a guard metric's verdict from a comparison's relative
@@ -218,7 +224,7 @@ type GuardVerdict struct {
 // set, bad direction, margin or level gives VerdictUndefined.
 func Guard(c Comparison, harm string, margin, level float64) GuardVerdict {
 	nan := math.NaN()
-	g := GuardVerdict{Verdict: VerdictUndefined, Harm: harm, Margin: margin, Level: level, Lower: nan, Upper: nan, HarmP: nan}
+	g := GuardVerdict{Verdict: VerdictUndefined, Harm: harm, Margin: margin, Level: level, Lower: nan, Upper: nan, HarmP: nan, NoHarmP: nan}
 	switch {
 	case harm != HarmIncrease && harm != HarmDecrease:
 		g.Reason = `harmful direction must be "increase" or "decrease"`
@@ -255,6 +261,13 @@ func Guard(c Comparison, harm string, margin, level float64) GuardVerdict {
 		return g
 	}
 	g.Lower, g.Upper = set.Low, set.High
+	if harm == HarmIncrease {
+		z, df := c.relPivot(1 + margin)
+		g.NoHarmP = lowerTail(z, df)
+	} else {
+		z, df := c.relPivot(1 - margin)
+		g.NoHarmP = lowerTail(-z, df)
+	}
 	// Map "decrease" onto "increase" by flipping the sign.
 	lo, hi := g.Lower, g.Upper
 	if harm == HarmDecrease {

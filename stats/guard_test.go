@@ -2,6 +2,7 @@ package stats
 
 import (
 	"math"
+	"math/rand/v2"
 	"testing"
 )
 
@@ -123,5 +124,72 @@ func TestGuardUndefined(t *testing.T) {
 				t.Errorf("got %q reason %q, want %q with a reason", g.Verdict, g.Reason, tt.want)
 			}
 		})
+	}
+}
+
+func TestGuardSameLevelBothDirections(t *testing.T) {
+	// Source: the duality of a confidence set and its tests (Fieller 1954;
+	// Koopman 1984): at one one-sided level L, harm is shown exactly when
+	// the one-sided p-value against "no change" is below 1 − L, and harm
+	// beyond the margin is ruled out exactly when the non-inferiority
+	// p-value is below 1 − L. Checked on 2000 seeded random comparisons of
+	// each kind (Welch, two proportions, CUPED), both harm directions.
+	rng := rand.New(rand.NewPCG(4242, 7))
+	used, harmShown, noHarm := 0, 0, 0
+	for range 2000 {
+		level := []float64{0.9, 0.95, 0.975}[rng.IntN(3)]
+		margin := []float64{0, 0.01, 0.05}[rng.IntN(3)]
+		n := float64(20 + rng.IntN(2000))
+		mb := 50 + 10*rng.NormFloat64()
+		mt := mb * (1 + 0.03*rng.NormFloat64())
+		v := math.Exp(2 + 2*rng.NormFloat64())
+		n1, n2 := float64(50+rng.IntN(3000)), float64(50+rng.IntN(3000))
+		p := 0.02 + 0.5*rng.Float64()
+		x1, x2 := math.Round(n1*p), math.Round(n2*p*(1+0.1*rng.NormFloat64()))
+		cs := []Comparison{
+			Welch(Moments{N: n, Mean: mb, Var: v}, Moments{N: n, Mean: mt, Var: v * 1.3}, level),
+			TwoProportion(Moments{N: n1, Mean: x1 / n1}, Moments{N: n2, Mean: math.Min(1, x2/n2)}, level),
+			CUPEDWelch(CovariateMoments{N: n, MeanY: mb, MeanX: 10, VarY: v, VarX: 4, CovYX: 0.5 * math.Sqrt(4*v)},
+				CovariateMoments{N: n, MeanY: mt, MeanX: 10.1, VarY: v, VarX: 4, CovYX: 0.5 * math.Sqrt(4*v)}, level).Comparison,
+		}
+		for _, c := range cs {
+			for _, harm := range []string{HarmIncrease, HarmDecrease} {
+				g := Guard(c, harm, margin, level)
+				if g.Verdict == VerdictUndefined || math.IsNaN(g.Lower) {
+					continue
+				}
+				alpha := 1 - level
+				if math.Abs(g.HarmP-alpha) < 1e-9 || math.Abs(g.NoHarmP-alpha) < 1e-9 {
+					continue
+				}
+				used++
+				lo, hi := g.Lower, g.Upper
+				if harm == HarmDecrease {
+					lo, hi = -g.Upper, -g.Lower
+				}
+				if lo > 0 {
+					harmShown++
+				}
+				if hi < margin {
+					noHarm++
+				}
+				if (lo > 0) != (g.HarmP < alpha) {
+					t.Errorf("%s %s: lower %v but HarmP %v at alpha %v", c.Method, harm, lo, g.HarmP, alpha)
+				}
+				if (hi < margin) != (g.NoHarmP < alpha) {
+					t.Errorf("%s %s: upper %v margin %v but NoHarmP %v at alpha %v", c.Method, harm, hi, margin, g.NoHarmP, alpha)
+				}
+			}
+		}
+	}
+	if used < 6000 {
+		t.Errorf("only %d usable cases, want at least 6000", used)
+	}
+	// Both outcomes of both claims must be well represented.
+	t.Logf("used %d, harm shown %d, no harm beyond margin %d", used, harmShown, noHarm)
+	for name, k := range map[string]int{"harm shown": harmShown, "no harm beyond margin": noHarm} {
+		if k < 500 || used-k < 500 {
+			t.Errorf("%s in %d of %d cases, want at least 500 of each outcome", name, k, used)
+		}
 	}
 }
