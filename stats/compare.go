@@ -281,8 +281,9 @@ func TwoProportion(base, treat Moments, level float64) Comparison {
 //	CI = d ± z_{(1+level)/2}·SE
 //
 // with a normal p-value (DF = +Inf), since the delta method is an
-// asymptotic approximation. The relative lift R̂_t/R̂_b − 1 uses the ratio
-// estimates and their standard errors as in RelativeLift.
+// asymptotic approximation. The relative lift R̂_t/R̂_b − 1 has Fieller's
+// set (Fieller) from the ratio estimates and their standard errors with
+// the normal critical value, so it excludes 0 exactly when p < 1 − level.
 //
 // Preconditions: both N ≥ 2, both MeanDen ≠ 0, 0 < level < 1.
 func RatioDiff(base, treat RatioMoments, level float64) Comparison {

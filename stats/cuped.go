@@ -128,8 +128,9 @@ func CovariateMean(groups ...CovariateMoments) float64 {
 //	SE(Ȳ_cv) = √( Var(Y − θX)/n )
 //
 // where μ_X is the covariate centre shared by all variants (CovariateMean)
-// and θ is treated as fixed (its sampling error is of smaller order, as in
-// the paper). VarianceReduction is 1 − Var(Y − θX)/Var(Y); with the
+// and θ and μ_X are treated as known, as in the paper. CUPEDWelch and
+// CUPEDRatio replace this standard error by one that accounts for
+// estimating both (cupedPair); AdjustedVar keeps Var(Y − θX). VarianceReduction is 1 − Var(Y − θX)/Var(Y); with the
 // variant's own θ = Cov/Var(X) it equals ρ², the squared correlation of Y
 // and X.
 //
