@@ -29,11 +29,21 @@ type Comparison struct {
 
 	Relative    float64 // treatment/baseline - 1
 	RelStdError float64 // delta-method standard error of Relative
-	RelCILow    float64 // normal interval Relative ± z·RelStdError
-	RelCIHigh   float64
+	// RelCILow and RelCIHigh are the confidence set for Relative at Level
+	// that agrees with the test: Fieller's set (Fieller), or the Koopman
+	// score set for two proportions (KoopmanRatio). They hold the ends when
+	// RelShape is ShapeBounded or ShapeUnbounded (an infinite end for an
+	// unbounded set) and NaN otherwise; RelSet has the full description.
+	// The set excludes 0 exactly when PValue < 1 − Level.
+	RelCILow  float64
+	RelCIHigh float64
+	RelShape  string        // ShapeBounded, ShapeUnbounded, ShapeComplement; empty when undefined
+	RelSet    RatioInterval // the relative confidence set, on the Relative scale
 
 	Reason    string // why Difference/PValue are undefined, empty when fine
-	RelReason string // why Relative is undefined (e.g. baseline mean is zero)
+	RelReason string // why Relative or its set is undefined or not bounded (e.g. baseline mean is zero)
+
+	rel relInputs // inputs of the relative set, for RelativeSetAt
 }
 
 // nanComparison returns a Comparison with every float undefined.
@@ -43,6 +53,7 @@ func nanComparison(method string, level float64) Comparison {
 		Method: method, Difference: nan, StdError: nan, TestStdError: nan,
 		CILow: nan, CIHigh: nan, Statistic: nan, DF: nan, PValue: nan, Level: level,
 		Relative: nan, RelStdError: nan, RelCILow: nan, RelCIHigh: nan,
+		RelSet: nanRatioInterval(""),
 	}
 }
 
@@ -86,6 +97,13 @@ func compareEstimates(c Comparison, base, treat Estimate, df float64) Comparison
 		c.StdError, c.TestStdError = math.NaN(), math.NaN()
 		return c
 	}
+	return finishDiff(c)
+}
+
+// finishDiff fills the statistic, p-value and interval of c from its
+// Difference, StdError, DF and Level.
+func finishDiff(c Comparison) Comparison {
+	df := c.DF
 	if c.StdError == 0 {
 		c.Reason = reasonZeroSE
 		return c
@@ -126,6 +144,12 @@ func compareEstimates(c Comparison, base, treat Estimate, df float64) Comparison
 // and the normal interval L ± z_{(1+level)/2}·√Var(L). The estimates may be
 // means, proportions or ratios. The string is a reason, empty when every
 // value is defined; a zero baseline value leaves everything NaN.
+//
+// Deprecated: the interval is centred at the observed ratio and can exclude
+// 0 while the test of the difference does not reject. Use Fieller (or the
+// RelCILow, RelCIHigh and RelSet fields of a Comparison) for the interval;
+// rel and se remain correct as a point estimate and delta-method standard
+// error.
 func RelativeLift(base, treat Estimate, level float64) (rel, se, lo, hi float64, reason string) {
 	nan := math.NaN()
 	rel, se, lo, hi = nan, nan, nan, nan
@@ -160,10 +184,10 @@ func RelativeLift(base, treat Estimate, level float64) (rel, se, lo, hi float64,
 	return rel, se, rel - q*se, rel + q*se, ""
 }
 
-// withRelative fills the relative-lift fields of c.
+// withRelative fills the relative-lift fields of c for independent
+// estimates, with the Fieller set at the comparison's critical value.
 func withRelative(c Comparison, base, treat Estimate) Comparison {
-	c.Relative, c.RelStdError, c.RelCILow, c.RelCIHigh, c.RelReason = RelativeLift(base, treat, c.Level)
-	return c
+	return withRelSet(c, base, treat, 0, relInputs{df: c.DF})
 }
 
 // Welch compares two means with Welch's unequal-variance t test
@@ -176,8 +200,8 @@ func withRelative(c Comparison, base, treat Estimate) Comparison {
 //
 // with ν the Welch–Satterthwaite degrees of freedom (Satterthwaite 1946)
 // and a two-sided p-value from Student's t with ν degrees of freedom.
-// The relative lift and its interval are as in RelativeLift (normal,
-// delta method).
+// The relative lift is x̄_t/x̄_b − 1 with the Fieller set (Fieller) at the
+// same t critical value, so it excludes 0 exactly when p < 1 − level.
 //
 // Preconditions: both N ≥ 2, variances ≥ 0 and not both zero,
 // 0 < level < 1. Otherwise the undefined fields are NaN and Reason says
@@ -194,10 +218,9 @@ func Welch(base, treat Moments, level float64) Comparison {
 }
 
 // TwoProportion compares two proportions (Mean is the share of units with
-// outcome 1; Var is ignored). Two standard errors are used, the usual
-// textbook pairing (Fleiss, Levin & Paik 2003, "Statistical Methods for
-// Rates and Proportions", 3rd ed., chapter 2; Agresti 2013, "Categorical
-// Data Analysis", 3rd ed.):
+// outcome 1; Var is ignored). Agresti 2013, "Categorical Data Analysis",
+// 3rd ed., chapter 2, and Fleiss, Levin & Paik 2003, "Statistical Methods
+// for Rates and Proportions", 3rd ed., chapter 2, give the test:
 //
 // The p-value uses the pooled standard error, which is the standard error
 // under the null hypothesis p_t = p_b; its square is the Pearson
@@ -206,40 +229,47 @@ func Welch(base, treat Moments, level float64) Comparison {
 //	p̄ = (n_b·p_b + n_t·p_t)/(n_b + n_t)
 //	z = (p_t − p_b) / √( p̄(1−p̄)(1/n_b + 1/n_t) )
 //
-// The confidence interval is the unpooled Wald interval, which does not
-// assume the null:
+// The confidence interval for the difference is Newcombe's hybrid score
+// interval (NewcombeDiff, Newcombe 1998 method 10), which stays inside
+// [−1, 1] and behaves well near 0 and 1. StdError is the unpooled
+// standard error √( p_b(1−p_b)/n_b + p_t(1−p_t)/n_t ) (for uses that need
+// one standard error) and TestStdError the pooled one; DF is +Inf. The
+// relative change p_t/p_b − 1 has the Koopman score set (KoopmanRatio),
+// which excludes 0 exactly when the pooled z test rejects.
 //
-//	CI = (p_t − p_b) ± z_{(1+level)/2}·√( p_b(1−p_b)/n_b + p_t(1−p_t)/n_t )
-//
-// StdError is the unpooled and TestStdError the pooled standard error;
-// DF is +Inf. The relative lift uses the unpooled per-group standard
-// errors (RelativeLift).
-//
-// Preconditions: both N > 0, both means in [0, 1], 0 < level < 1. When
-// every unit in both groups has the same outcome the test is undefined.
+// Preconditions: both N ≥ 2 (the same minimum as for means), both means
+// in [0, 1], 0 < level < 1. When every unit in both groups has the same
+// outcome the test is undefined.
 func TwoProportion(base, treat Moments, level float64) Comparison {
 	c := nanComparison(MethodTwoProportion, level)
 	be, te := ProportionEstimate(base), ProportionEstimate(treat)
-	c = compareEstimates(c, be, te, math.Inf(1))
-	if math.IsNaN(c.Difference) {
-		return withRelative(c, be, te)
+	c.DF = math.Inf(1)
+	c.Difference = te.Value - be.Value
+	c.Reason = firstReason(be, te)
+	if c.Reason != "" {
+		if be.Reason != reasonOneUnit && te.Reason != reasonOneUnit {
+			c.Difference = math.NaN()
+		}
+		return withRelSet(c, be, te, 0, relInputs{df: c.DF})
 	}
-	// Replace the test statistic by the pooled z.
 	nb, nt := base.N, treat.N
+	c.StdError = math.Sqrt(be.StdError*be.StdError + te.StdError*te.StdError)
 	pbar := (nb*base.Mean + nt*treat.Mean) / (nb + nt)
 	se0 := math.Sqrt(pbar * (1 - pbar) * (1/nb + 1/nt))
 	c.TestStdError = se0
 	if se0 == 0 {
-		c.Statistic, c.PValue = math.NaN(), math.NaN()
 		c.Reason = "every unit in both groups has the same outcome"
 	} else {
 		c.Statistic = c.Difference / se0
 		c.PValue = TwoSidedNormalP(c.Statistic)
-		if c.StdError == 0 {
-			c.Reason = "unpooled standard error is zero (each group has a single outcome); interval undefined"
-		}
 	}
-	return withRelative(c, be, te)
+	if !validLevel(level) {
+		c.Reason = reasonBadLevel
+	} else {
+		c.CILow, c.CIHigh = NewcombeDiff(te.Value, nt, be.Value, nb, level)
+	}
+	return withRelSet(c, be, te, 0, relInputs{df: c.DF, score: true,
+		xt: treat.Mean * nt, nt: nt, xb: base.Mean * nb, nb: nb})
 }
 
 // RatioDiff compares two ratio metrics sum(num)/sum(den) analysed at the
@@ -251,8 +281,9 @@ func TwoProportion(base, treat Moments, level float64) Comparison {
 //	CI = d ± z_{(1+level)/2}·SE
 //
 // with a normal p-value (DF = +Inf), since the delta method is an
-// asymptotic approximation. The relative lift R̂_t/R̂_b − 1 uses the ratio
-// estimates and their standard errors as in RelativeLift.
+// asymptotic approximation. The relative lift R̂_t/R̂_b − 1 has Fieller's
+// set (Fieller) from the ratio estimates and their standard errors with
+// the normal critical value, so it excludes 0 exactly when p < 1 − level.
 //
 // Preconditions: both N ≥ 2, both MeanDen ≠ 0, 0 < level < 1.
 func RatioDiff(base, treat RatioMoments, level float64) Comparison {

@@ -45,8 +45,25 @@ func TestWelchSleep(t *testing.T) {
 			checkNear(t, tt.name, tt.got, tt.want, 1e-6)
 		})
 	}
-	if c.Reason != "" || c.RelReason != "" || c.Method != MethodWelch {
-		t.Errorf("got Method %q Reason %q RelReason %q, want %q and empty reasons", c.Method, c.Reason, c.RelReason, MethodWelch)
+	if c.Reason != "" || c.Method != MethodWelch {
+		t.Errorf("got Method %q Reason %q, want %q and empty reason", c.Method, c.Reason, MethodWelch)
+	}
+	// The baseline mean 0.75 is not significantly different from 0
+	// (t = 0.75/√(3.200556/10) = 1.33 < t_{0.975, 17.78}), so Fieller's set
+	// for the relative change is the complement of a gap.
+	// Source: R 4.2, Fieller's quadratic written out (/tmp script):
+	//   A <- b^2 - q^2*vb; B <- a*b - q^2*cov; C <- a^2 - q^2*va; D <- B^2 - A*C
+	//   with a, b the group means, va, vb = var/10, cov = 0,
+	//   q = qt(0.975, t.test(s2, s1)$parameter):
+	//   A = -0.852734570259, D = 6.171510915224, roots 0.863988177021 and
+	//   -4.962567174396, so relative gap (-5.9625671744, -0.136011822979).
+	if c.RelShape != ShapeComplement || c.RelSet.Shape != ShapeComplement || !math.IsNaN(c.RelCILow) {
+		t.Errorf("got RelShape %q RelCILow %v, want %q and NaN", c.RelShape, c.RelCILow, ShapeComplement)
+	}
+	checkNear(t, "RelSet.Low", c.RelSet.Low, -5.9625671744, 1e-6)
+	checkNear(t, "RelSet.High", c.RelSet.High, -0.136011822979, 1e-6)
+	if c.RelReason == "" || !c.RelSet.Contains(0) {
+		t.Errorf("got RelReason %q, contains 0 %v; want a reason and 0 inside (p = 0.079)", c.RelReason, c.RelSet.Contains(0))
 	}
 }
 
@@ -239,8 +256,16 @@ func TestTwoProportionEqualsChiSquare(t *testing.T) {
 			checkNear(t, "PValue", c.PValue, distuv.ChiSquared{K: 1}.Survival(x2), 1e-9)
 			checkNear(t, "independence PValue", ind.PValue, distuv.ChiSquared{K: 1}.Survival(x2), 1e-9)
 			se := math.Sqrt(pb*(1-pb)/tt.nb + pt*(1-pt)/tt.nt)
-			checkAbs(t, "CILow", c.CILow, pt-pb-1.959964*se, 1e-8)
-			checkAbs(t, "CIHigh", c.CIHigh, pt-pb+1.959964*se, 1e-8)
+			checkAbs(t, "StdError", c.StdError, se, 1e-15)
+			// Source: statsmodels Newcombe interval (propRefs, same tables).
+			for _, r := range propRefs {
+				if r.xb == tt.xb && r.nb == tt.nb && r.xt == tt.xt && r.nt == tt.nt {
+					checkAbs(t, "CILow", c.CILow, r.newLo, 1e-12)
+					checkAbs(t, "CIHigh", c.CIHigh, r.newHi, 1e-12)
+					checkNear(t, "RelCILow", c.RelCILow, r.koopLo-1, 1e-6)
+					checkNear(t, "RelCIHigh", c.RelCIHigh, r.koopHi-1, 1e-6)
+				}
+			}
 			if c.Reason != "" {
 				t.Errorf("got Reason %q, want empty", c.Reason)
 			}

@@ -41,12 +41,18 @@ type CUPEDEstimate struct {
 // CUPEDComparison is a covariate-adjusted treatment-versus-baseline
 // comparison.
 type CUPEDComparison struct {
-	Comparison                      // comparison of the adjusted means
+	Comparison                      // comparison of the adjusted means (the unadjusted one when Adjusted is false)
 	Theta             float64       // pooled adjustment coefficient
 	MeanX             float64       // covariate centre used by the adjustment
 	Base, Treat       CUPEDEstimate // per-variant adjusted means
 	Unadjusted        Comparison    // the same comparison without adjustment
 	VarianceReduction float64       // 1 − StdError²/Unadjusted.StdError²
+	// Adjusted reports whether the covariate adjustment was applied. When
+	// θ is undefined (e.g. the covariate is constant or zero for every
+	// unit) the comparison falls back to the unadjusted one and
+	// AdjustReason says why.
+	Adjusted     bool
+	AdjustReason string
 }
 
 // CUPEDTheta returns the adjustment coefficient pooled across variants,
@@ -95,20 +101,22 @@ func CUPEDTheta(groups ...CovariateMoments) (float64, string) {
 }
 
 // CovariateMean returns the unit-weighted mean of the covariate over all
-// groups, Σ n_g·X̄_g / Σ n_g, the centre used by CUPEDWelch. It returns NaN
-// when there are no units.
+// groups, Σ n_g·X̄_g / Σ n_g, the centre used by CUPEDWelch. It is
+// accumulated as a running mean (μ ← μ + n_g/N_g·(X̄_g − μ)), so groups
+// with equal means give exactly that mean. It returns NaN when there are
+// no units.
 func CovariateMean(groups ...CovariateMoments) float64 {
-	var s, n float64
+	var mu, n float64
 	for _, g := range groups {
 		if g.N > 0 {
-			s += g.N * g.MeanX
 			n += g.N
+			mu += g.N / n * (g.MeanX - mu)
 		}
 	}
 	if n == 0 {
 		return math.NaN()
 	}
-	return s / n
+	return mu
 }
 
 // CUPEDAdjust returns a variant's covariate-adjusted mean (Deng, Xu,
@@ -120,8 +128,9 @@ func CovariateMean(groups ...CovariateMoments) float64 {
 //	SE(Ȳ_cv) = √( Var(Y − θX)/n )
 //
 // where μ_X is the covariate centre shared by all variants (CovariateMean)
-// and θ is treated as fixed (its sampling error is of smaller order, as in
-// the paper). VarianceReduction is 1 − Var(Y − θX)/Var(Y); with the
+// and θ and μ_X are treated as known, as in the paper. CUPEDWelch and
+// CUPEDRatio replace this standard error by one that accounts for
+// estimating both (cupedPair); AdjustedVar keeps Var(Y − θX). VarianceReduction is 1 − Var(Y − θX)/Var(Y); with the
 // variant's own θ = Cov/Var(X) it equals ρ², the squared correlation of Y
 // and X.
 //
@@ -171,16 +180,16 @@ func CUPEDAdjust(m CovariateMoments, theta, meanX float64) CUPEDEstimate {
 }
 
 // CUPEDWelch compares covariate-adjusted means of two variants, with θ
-// pooled over the two variants (CUPEDTheta) and the covariate centred at
-// their unit-weighted mean (CovariateMean). For experiments with more than
-// two variants use CUPEDWelchWith and pool θ over all of them.
+// pooled over the compared pair only (CUPEDTheta) and the covariate
+// centred at the pair's unit-weighted mean (CovariateMean), so a
+// treatment-versus-baseline result does not depend on any other variant.
+// The adjusted means and difference are as in CUPEDWelchWith; the
+// standard errors account for the estimation of θ and of the covariate
+// centre (cupedPair). With three or more variants call it once per pair.
+// When θ is undefined (the covariate does not vary) the result is the
+// unadjusted Welch comparison with Adjusted false and AdjustReason set.
 func CUPEDWelch(base, treat CovariateMoments, level float64) CUPEDComparison {
-	theta, reason := CUPEDTheta(base, treat)
-	c := CUPEDWelchWith(base, treat, theta, CovariateMean(base, treat), level)
-	if reason != "" && (c.Reason == "" || strings.HasSuffix(c.Reason, reasonNoTheta)) {
-		c.Reason = reason
-	}
-	return c
+	return cupedPair(MethodCUPED, base, treat, level, false)
 }
 
 // CUPEDWelchWith compares covariate-adjusted means (CUPEDAdjust) with
@@ -194,14 +203,22 @@ func CUPEDWelch(base, treat CovariateMoments, level float64) CUPEDComparison {
 // variances. d does not depend on meanX; the relative lift
 // Ȳ_cv,t/Ȳ_cv,b − 1 does, and is meaningful when meanX is the centre
 // shared by all variants. VarianceReduction compares SE² with the
-// unadjusted Welch SE².
+// unadjusted Welch SE². When θ is not finite the result falls back to the
+// unadjusted comparison (Adjusted false, AdjustReason set).
+//
+// Deprecated: the standard errors treat θ and meanX as known, and a θ
+// pooled over more than two variants makes a pair's result depend on the
+// other variants. Use CUPEDWelch for each compared pair.
 func CUPEDWelchWith(base, treat CovariateMoments, theta, meanX, level float64) CUPEDComparison {
 	return cupedCompare(MethodCUPED, base, treat, theta, meanX, level, false)
 }
 
 // cupedCompare is the shared body of the mean and ratio CUPED comparisons.
 func cupedCompare(method string, base, treat CovariateMoments, theta, meanX, level float64, normal bool) CUPEDComparison {
-	out := CUPEDComparison{Theta: theta, MeanX: meanX, VarianceReduction: math.NaN()}
+	out := CUPEDComparison{Theta: theta, MeanX: meanX, VarianceReduction: math.NaN(), Adjusted: true}
+	if !finite(theta) {
+		return cupedFallback(method, base, treat, theta, meanX, level, normal, reasonNoTheta)
+	}
 	out.Base = CUPEDAdjust(base, theta, meanX)
 	out.Treat = CUPEDAdjust(treat, theta, meanX)
 	be, te := out.Base.Estimate, out.Treat.Estimate
@@ -272,19 +289,25 @@ func LinearizeCovariate(r RatioCovariateMoments) (CovariateMoments, string) {
 //	SE(R̂_cv)² = ( Var(l) − 2θ·Cov(l, x) + θ²·Var(x) )/n
 //
 // (Deng, Knoblich & Lu 2018 for the linearisation; Deng, Xu, Kohavi &
-// Walker 2013 for the adjustment). For more than two variants use
-// CUPEDRatioWith with θ pooled over all linearised variants.
+// Walker 2013 for the adjustment). θ and the covariate centre are pooled
+// over the compared pair only, and the standard errors account for their
+// estimation as in CUPEDWelch (cupedPair). With three or more variants
+// call it once per pair. When θ is undefined the result is the unadjusted
+// RatioDiff comparison with Adjusted false and AdjustReason set.
 func CUPEDRatio(base, treat RatioCovariateMoments, level float64) CUPEDComparison {
 	lb, rb := LinearizeCovariate(base)
 	lt, rt := LinearizeCovariate(treat)
-	theta, reason := CUPEDTheta(lb, lt)
-	c := cupedCompare(MethodCUPEDRatio, lb, lt, theta, CovariateMean(lb, lt), level, true)
-	return ratioReasons(c, rb, rt, reason)
+	c := cupedPair(MethodCUPEDRatio, lb, lt, level, true)
+	return ratioReasons(c, rb, rt, "")
 }
 
 // CUPEDRatioWith is CUPEDRatio with θ and the covariate centre supplied by
 // the caller, typically CUPEDTheta and CovariateMean over the linearised
 // moments of every variant.
+//
+// Deprecated: the standard errors treat θ and meanX as known, and a θ
+// pooled over more than two variants makes a pair's result depend on the
+// other variants. Use CUPEDRatio for each compared pair.
 func CUPEDRatioWith(base, treat RatioCovariateMoments, theta, meanX, level float64) CUPEDComparison {
 	lb, rb := LinearizeCovariate(base)
 	lt, rt := LinearizeCovariate(treat)
@@ -306,4 +329,132 @@ func ratioReasons(c CUPEDComparison, rb, rt, theta string) CUPEDComparison {
 		c.RelReason = "baseline ratio is zero"
 	}
 	return c
+}
+
+// cupedFallback returns the unadjusted comparison dressed as a
+// CUPEDComparison with Adjusted false.
+func cupedFallback(method string, base, treat CovariateMoments, theta, meanX, level float64, normal bool, why string) CUPEDComparison {
+	ub := MeanEstimate(Moments{N: base.N, Mean: base.MeanY, Var: base.VarY})
+	ut := MeanEstimate(Moments{N: treat.N, Mean: treat.MeanY, Var: treat.VarY})
+	u := nanComparison(MethodWelch, level)
+	if normal {
+		u.Method = MethodDelta
+		u = compareEstimates(u, ub, ut, math.Inf(1))
+	} else {
+		u = compareEstimates(u, ub, ut, welchDF(ub.StdError*ub.StdError, ut.StdError*ut.StdError, base.N, treat.N))
+		if math.IsNaN(u.StdError) || u.StdError == 0 {
+			u.DF = math.NaN()
+		}
+	}
+	u = withRelative(u, ub, ut)
+	est := func(e Estimate, m CovariateMoments) CUPEDEstimate {
+		return CUPEDEstimate{Estimate: e, Unadjusted: e, AdjustedVar: m.VarY, VarianceReduction: 0}
+	}
+	return CUPEDComparison{
+		Comparison: u, Theta: theta, MeanX: meanX,
+		Base: est(ub, base), Treat: est(ut, treat),
+		Unadjusted: u, VarianceReduction: 0,
+		Adjusted: false, AdjustReason: "covariate adjustment not applied: " + why,
+	}
+}
+
+// cupedPair compares two variants' covariate-adjusted means with θ and the
+// covariate centre μ̂ = (n_b·X̄_b + n_t·X̄_t)/N pooled over the pair, and
+// standard errors that account for estimating both. With s_g² the
+// per-variant sample variance of Y − θX (CUPEDAdjust), S_g = (n_g − 1)·
+// Var_g(X) and S = S_b + S_t:
+//
+//	d = (Ȳ_t − Ȳ_b) − θ̂·(X̄_t − X̄_b)
+//	Var(θ̂)  = (s_b²·S_b + s_t²·S_t) / S²
+//	Var(d)  = s_b²/n_b + s_t²/n_t + (X̄_t − X̄_b)²·Var(θ̂)
+//	Var(μ̂)  = (n_b·Var_b(X) + n_t·Var_t(X)) / N²
+//	Var(Ȳ_cv,g) = s_g²/n_g + (X̄_g − μ̂)²·Var(θ̂) + θ̂²·Var(μ̂)
+//	              + 2θ̂·(Cov_g(Y, X) − θ̂·Var_g(X))/N
+//
+// Var(d) is the regression-adjustment variance of the treatment effect in
+// Y ~ 1 + treatment + X (Snedecor & Cochran 1989, "Statistical Methods",
+// 8th ed., analysis of covariance: the (X̄_t − X̄_b)²/S term is the
+// slope's estimation error), with a residual variance per variant as in
+// Welch's test; with one residual variance s² = SSR/(N − 3) it is the
+// classical least-squares standard error of the treatment coefficient.
+// The per-variant terms add the sampling variance of the covariate centre
+// by the delta method (Deng, Xu, Kohavi & Walker 2013, "Improving the
+// Sensitivity of Online Controlled Experiments by Utilizing Pre-Experiment
+// Data", WSDM, adjust with the centre and θ treated as known). The two
+// adjusted means are correlated; their covariance
+// (Var_b + Var_t − Var(d))/2 enters the Fieller relative set, which
+// therefore agrees with the test of d. Degrees of freedom are
+// Welch–Satterthwaite on s_b²/n_b and s_t²/n_t (normal = false), or +Inf.
+func cupedPair(method string, base, treat CovariateMoments, level float64, normal bool) CUPEDComparison {
+	theta, reason := CUPEDTheta(base, treat)
+	meanX := CovariateMean(base, treat)
+	if reason != "" {
+		return cupedFallback(method, base, treat, theta, meanX, level, normal, reason)
+	}
+	out := cupedCompare(method, base, treat, theta, meanX, level, normal)
+	c := out.Comparison
+	if c.Reason != "" || !finite(c.StdError) || out.Base.Reason != "" || out.Treat.Reason != "" {
+		return out
+	}
+	nb, nt := base.N, treat.N
+	N := nb + nt
+	sb2, st2 := out.Base.AdjustedVar, out.Treat.AdjustedVar
+	Sb, St := (nb-1)*base.VarX, (nt-1)*treat.VarX
+	S := Sb + St
+	vTheta := (sb2*Sb + st2*St) / (S * S)
+	vMu := (nb*base.VarX + nt*treat.VarX) / (N * N)
+	dx := treat.MeanX - base.MeanX
+	vd := sb2/nb + st2/nt + dx*dx*vTheta
+	arm := func(m CovariateMoments, s2 float64) float64 {
+		e := m.MeanX - meanX
+		v := s2/m.N + e*e*vTheta + theta*theta*vMu + 2*theta*(m.CovYX-theta*m.VarX)/N
+		return math.Max(0, v)
+	}
+	vb, vt := arm(base, sb2), arm(treat, st2)
+	out.Base.StdError, out.Treat.StdError = math.Sqrt(vb), math.Sqrt(vt)
+	c = nanComparison(method, level)
+	c.Difference = out.Treat.Value - out.Base.Value
+	c.StdError = math.Sqrt(vd)
+	c.TestStdError = c.StdError
+	if normal {
+		c.DF = math.Inf(1)
+	} else {
+		c.DF = welchDF(sb2/nb, st2/nt, nb, nt)
+		if c.StdError == 0 {
+			c.DF = math.NaN()
+		}
+	}
+	c = finishDiff(c)
+	out.Comparison = withRelSet(c, out.Base.Estimate, out.Treat.Estimate, (vb+vt-vd)/2, relInputs{df: c.DF})
+	if u := out.Unadjusted.StdError; u > 0 && finite(vd) {
+		out.VarianceReduction = 1 - vd/(u*u)
+	}
+	return out
+}
+
+// CUPEDWelchEach compares every variant after the first (the baseline)
+// with the baseline by CUPEDWelch, so each pair pools θ and the covariate
+// centre over its own two variants only; element i−1 is variant i against
+// variant 0. It returns nil for fewer than two variants.
+func CUPEDWelchEach(variants []CovariateMoments, level float64) []CUPEDComparison {
+	if len(variants) < 2 {
+		return nil
+	}
+	out := make([]CUPEDComparison, 0, len(variants)-1)
+	for _, v := range variants[1:] {
+		out = append(out, CUPEDWelch(variants[0], v, level))
+	}
+	return out
+}
+
+// CUPEDRatioEach is CUPEDWelchEach for ratio metrics (CUPEDRatio).
+func CUPEDRatioEach(variants []RatioCovariateMoments, level float64) []CUPEDComparison {
+	if len(variants) < 2 {
+		return nil
+	}
+	out := make([]CUPEDComparison, 0, len(variants)-1)
+	for _, v := range variants[1:] {
+		out = append(out, CUPEDRatio(variants[0], v, level))
+	}
+	return out
 }

@@ -25,4 +25,22 @@
 // (2·Φ(−|z|)) and from the regularised incomplete beta and gamma functions
 // for t and chi-square, so very small p-values are reported accurately
 // rather than rounded to zero.
+//
+// Intervals are chosen to agree with the tests they sit beside:
+//
+//   - Relative changes (Comparison.RelCILow, RelCIHigh, RelSet) use
+//     Fieller's set for a ratio (Fieller 1954) at the test's own critical
+//     value, or for two proportions the Koopman (1984) score set, so the
+//     relative set excludes 0 exactly when the p-value is below 1 − level.
+//     When the baseline is not significantly different from 0 the set is
+//     unbounded or the complement of a gap (RelShape says which).
+//   - A difference of two proportions has Newcombe's (1998) hybrid score
+//     interval built from Wilson intervals; it stays inside [−1, 1].
+//   - Guard verdicts (Guard) read both one-sided bounds of the relative set
+//     at one one-sided level against 0 and the margin.
+//   - CUPED pools θ and the covariate centre within each compared pair and
+//     its standard errors include the estimation of both (cupedPair); a
+//     covariate that does not vary leaves the comparison unadjusted.
+//   - The always-valid boundary is tuned to each comparison's planned size
+//     (SequentialTarget).
 package stats

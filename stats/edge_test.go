@@ -86,9 +86,10 @@ func TestEdgeCases(t *testing.T) {
 		}, ""},
 		{"proportions 0 vs 1", func() (string, []chk) {
 			c := TwoProportion(Moments{N: 100, Mean: 0}, Moments{N: 100, Mean: 1}, 0.95)
-			// Pooled p = 0.5: z = 1/√(0.25·0.02).
-			return c.Reason, []chk{val("Statistic", c.Statistic, 1/math.Sqrt(0.005)), defined("PValue", c.PValue)}
-		}, "interval undefined"},
+			// Pooled p = 0.5: z = 1/√(0.25·0.02). The Newcombe interval is
+			// defined even though the unpooled standard error is 0.
+			return c.Reason, []chk{val("Statistic", c.Statistic, 1/math.Sqrt(0.005)), defined("PValue", c.PValue), defined("CILow", c.CILow)}
+		}, ""},
 		{"proportion empty", func() (string, []chk) {
 			c := TwoProportion(Moments{N: 100, Mean: 0.1}, Moments{}, 0.95)
 			return c.Reason, nil
@@ -127,7 +128,11 @@ func TestEdgeCases(t *testing.T) {
 		{"cuped constant covariate", func() (string, []chk) {
 			c := CUPEDWelch(CovariateMoments{N: 10, MeanY: 1, MeanX: 1, VarY: 1},
 				CovariateMoments{N: 10, MeanY: 2, MeanX: 1, VarY: 1}, 0.95)
-			return c.Reason, []chk{val("Unadjusted.Difference", c.Unadjusted.Difference, 1), defined("Unadjusted.PValue", c.Unadjusted.PValue)}
+			if c.Adjusted || !strings.Contains(c.AdjustReason, "covariate does not vary") || c.Reason != "" {
+				return "want the unadjusted fallback, got AdjustReason " + c.AdjustReason, nil
+			}
+			return c.AdjustReason, []chk{val("Unadjusted.Difference", c.Unadjusted.Difference, 1), defined("Unadjusted.PValue", c.Unadjusted.PValue),
+				val("Difference", c.Difference, 1), defined("PValue", c.PValue)}
 		}, "covariate does not vary"},
 		{"cuped ratio den 0", func() (string, []chk) {
 			c := CUPEDRatio(RatioCovariateMoments{N: 10, MeanX: 1, VarX: 1},

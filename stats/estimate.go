@@ -91,7 +91,9 @@ func MeanEstimate(m Moments) Estimate {
 // ignored. A proportion of exactly 0 or 1 has standard error 0, which is
 // returned as defined.
 //
-// Preconditions: m.N > 0 and 0 ≤ m.Mean ≤ 1.
+// Preconditions: m.N ≥ 2 and 0 ≤ m.Mean ≤ 1. With one unit the
+// proportion is returned and StdError is NaN with a reason, the same
+// minimum-size rule as MeanEstimate; with none both are NaN.
 func ProportionEstimate(m Moments) Estimate {
 	meanOK, reason := checkN(m.N)
 	if !meanOK {
@@ -99,6 +101,9 @@ func ProportionEstimate(m Moments) Estimate {
 	}
 	if math.IsNaN(m.Mean) || m.Mean < 0 || m.Mean > 1 {
 		return Estimate{Value: math.NaN(), StdError: math.NaN(), Reason: reasonBadProp}
+	}
+	if reason != "" {
+		return Estimate{Value: m.Mean, StdError: math.NaN(), Reason: reason}
 	}
 	p := m.Mean
 	return Estimate{Value: p, StdError: math.Sqrt(p * (1 - p) / m.N)}

@@ -52,3 +52,26 @@ func ExampleTwoProportion() {
 	// Output:
 	// diff 0.10, z 3.244, p 0.0012, relative NaN (baseline mean is zero)
 }
+
+// Fieller's set for the relative change of mtcars mpg, automatic (am = 0)
+// against manual (am = 1); R 4.2 t.test gives p = 0.00137 and the same
+// ends from Fieller's quadratic with qt(0.975, 18.33225).
+func ExampleFieller() {
+	base := stats.Moments{N: 19, Mean: 17.1473684211, Var: 14.6992982456}
+	treat := stats.Moments{N: 13, Mean: 24.3923076923, Var: 38.0257692308}
+	c := stats.Welch(base, treat, 0.95)
+	fmt.Printf("relative %.4f, %s set [%.4f, %.4f], p %.5f\n", c.Relative, c.RelShape, c.RelCILow, c.RelCIHigh, c.PValue)
+	// Output:
+	// relative 0.4225, bounded set [0.1778, 0.7005], p 0.00137
+}
+
+// A latency guard metric that must not rise by more than 1%, judged at one
+// one-sided level of 95% in both directions.
+func ExampleGuard() {
+	base := stats.Moments{N: 10000, Mean: 100, Var: 100}
+	treat := stats.Moments{N: 10000, Mean: 100.5, Var: 100}
+	g := stats.Guard(stats.Welch(base, treat, 0.95), stats.HarmIncrease, 0.01, 0.95)
+	fmt.Printf("%s (alarming %v), bounds [%.4f, %.4f]\n", g.Verdict, g.Verdict.Alarming(), g.Lower, g.Upper)
+	// Output:
+	// harm shown, within margin (alarming false), bounds [0.0027, 0.0073]
+}

@@ -60,3 +60,34 @@ func SequentialDiff(d, se, n, rho, alpha float64) Sequential {
 	out.PValue = math.Min(1, math.Sqrt(v+1)*math.Exp(-d*d*v/(2*se*se*(v+1))))
 	return out
 }
+
+// SequentialTarget returns the planned number of units of one comparison
+// (baseline variant base against treatment variant treat) in an experiment
+// planned to reach planned units in total, split by the planned weights:
+//
+//	n*_pair = planned · (w_base + w_treat) / Σ w
+//
+// which is planned·(w_base + w_treat) when the weights sum to 1. It is the
+// n* to pass to SequentialRho for that comparison: the confidence sequence
+// is tightest at the comparison's own planned size (Howard, Ramdas,
+// McAuliffe & Sekhon 2021, eq. (3.11)), not at the experiment's total,
+// which with three or more variants overstates it. It returns NaN for a
+// planned total that is not positive and finite, indices out of range or
+// equal, or weights that are negative, not finite or sum to zero.
+func SequentialTarget(planned float64, weights []float64, base, treat int) float64 {
+	if !(planned > 0) || math.IsInf(planned, 1) || base == treat ||
+		base < 0 || treat < 0 || base >= len(weights) || treat >= len(weights) {
+		return math.NaN()
+	}
+	var sum float64
+	for _, w := range weights {
+		if !finite(w) || w < 0 {
+			return math.NaN()
+		}
+		sum += w
+	}
+	if sum == 0 {
+		return math.NaN()
+	}
+	return planned * (weights[base] + weights[treat]) / sum
+}

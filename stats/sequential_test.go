@@ -101,3 +101,43 @@ func TestSequentialPValue(t *testing.T) {
 		t.Errorf("zero standard error: want a reason")
 	}
 }
+
+func TestSequentialTargetPerComparison(t *testing.T) {
+	// Source: worked case by hand. An experiment planned for 30000 units
+	// split 50/25/25 over baseline and two treatments: each comparison
+	// involves only baseline + one treatment, 30000·(0.5 + 0.25) = 22500
+	// units, not 30000. Weights given as 2:1:1 mean the same. With the
+	// per-comparison target, ρ² = (−2 log α + log(−2 log α + 1))/n*
+	// (Howard et al. 2021, eq. (3.11)); at α = 0.05, R 4.2:
+	// sqrt((-2*log(0.05) + log(-2*log(0.05)+1))/22500) = 0.0187807875846.
+	tests := []struct {
+		name        string
+		planned     float64
+		weights     []float64
+		base, treat int
+		want        float64
+	}{
+		{"three arms, fractions", 30000, []float64{0.5, 0.25, 0.25}, 0, 1, 22500},
+		{"three arms, ratios", 30000, []float64{2, 1, 1}, 0, 2, 22500},
+		{"two arms", 30000, []float64{0.5, 0.5}, 0, 1, 30000},
+		{"four equal arms", 40000, []float64{1, 1, 1, 1}, 0, 3, 20000},
+		{"same index", 30000, []float64{1, 1}, 0, 0, math.NaN()},
+		{"out of range", 30000, []float64{1, 1}, 0, 2, math.NaN()},
+		{"zero weights", 30000, []float64{0, 0}, 0, 1, math.NaN()},
+		{"negative weight", 30000, []float64{1, -1}, 0, 1, math.NaN()},
+		{"no plan", 0, []float64{1, 1}, 0, 1, math.NaN()},
+	}
+	for _, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			got := SequentialTarget(tt.planned, tt.weights, tt.base, tt.treat)
+			if math.IsNaN(tt.want) {
+				if !math.IsNaN(got) {
+					t.Errorf("got %v, want NaN", got)
+				}
+				return
+			}
+			checkNear(t, "target", got, tt.want, 1e-15)
+		})
+	}
+	checkNear(t, "rho", SequentialRho(0.05, SequentialTarget(30000, []float64{0.5, 0.25, 0.25}, 0, 1)), 0.0187807875846, 1e-10)
+}
