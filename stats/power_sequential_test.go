@@ -123,15 +123,15 @@ func TestPowerSequentialMonteCarlo(t *testing.T) {
 	}
 	lo, hi := BinomialRange(streams, power, 0.999)
 	final, anyLook := run(1, seqMDE)
-	t.Logf("at sequential MDE %.4f: final look %d/%d, anyLook look %d/%d (80%% range [%d, %d])", seqMDE, final, streams, anyLook, streams, lo, hi)
+	t.Logf("at sequential MDE %.4f: final look %d/%d, any look %d/%d (80%% range [%d, %d])", seqMDE, final, streams, anyLook, streams, lo, hi)
 	if final < lo || final > hi {
 		t.Errorf("final-look detections %d outside [%d, %d]", final, lo, hi)
 	}
 	if anyLook < lo {
-		t.Errorf("anyLook-look detections %d below %d", anyLook, lo)
+		t.Errorf("any-look detections %d below %d", anyLook, lo)
 	}
 	_, anyFixed := run(2, fixedMDE)
-	t.Logf("at fixed-horizon MDE %.4f: anyLook look %d/%d", fixedMDE, anyFixed, streams)
+	t.Logf("at fixed-horizon MDE %.4f: any look %d/%d", fixedMDE, anyFixed, streams)
 	if anyFixed >= lo {
 		t.Errorf("at the fixed-horizon MDE, sequential monitoring detected %d of %d, want below %d", anyFixed, streams, lo)
 	}
