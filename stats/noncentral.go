@@ -64,6 +64,8 @@ func NoncentralTCDF(t, df, ncp float64) float64 {
 		tt, del = -t, -ncp
 	}
 	var tnc float64
+	// e^{−λ/2} underflows once λ/2 exceeds log(2)·1021 (the smallest
+	// normal float64 is 2^−1022).
 	if df > noncentralLargeDF || del*del > 2*math.Ln2*1021 {
 		s := 1 / (4 * df)
 		tnc = 1 - upperNormal((tt*(1-s)-del)/math.Sqrt(1+tt*tt*2*s))
