@@ -194,5 +194,5 @@ if [ "$fuzztime" != "0" ]; then
   fuzz ./metrics/expr/ FuzzParse
   fuzz ./metrics/expr/ FuzzCheck
   fuzz ./safety/ FuzzRender
-  fuzz ./engine/ FuzzReadTable
+  fuzz ./results/ FuzzReadTable
 fi

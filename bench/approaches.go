@@ -6,9 +6,7 @@ import (
 	_ "embed"
 	"fmt"
 	"math"
-	"math/big"
 	"sort"
-	"strconv"
 	"strings"
 
 	"github.com/assay-dev/assay/compiler"
@@ -16,6 +14,7 @@ import (
 	"github.com/assay-dev/assay/engine"
 	"github.com/assay-dev/assay/metrics"
 	"github.com/assay-dev/assay/report"
+	"github.com/assay-dev/assay/results"
 	"gonum.org/v1/gonum/stat"
 )
 
@@ -152,42 +151,14 @@ func QueryAggregates(ctx context.Context, db interface {
 			switch c {
 			case compiler.ColVariant:
 				variant = fmt.Sprint(vals[i])
-			case compiler.ColFingerprint:
+			case compiler.ColSpecFingerprint, compiler.ColOptions:
 			default:
-				row[c] = toFloat(vals[i])
+				row[c] = results.Number(vals[i])
 			}
 		}
 		out[variant] = row
 	}
 	return out, rs.Err()
-}
-
-func toFloat(v any) float64 {
-	switch x := v.(type) {
-	case nil:
-		return math.NaN()
-	case float64:
-		return x
-	case int64:
-		return float64(x)
-	case int32:
-		return float64(x)
-	case uint64:
-		return float64(x)
-	case *big.Int:
-		f, _ := new(big.Float).SetInt(x).Float64()
-		return f
-	case bool:
-		if x {
-			return 1
-		}
-		return 0
-	}
-	f, err := strconv.ParseFloat(fmt.Sprint(v), 64)
-	if err != nil {
-		return math.NaN()
-	}
-	return f
 }
 
 // RunAssay is approach (a): assay's compiled main query, read back as
@@ -207,12 +178,12 @@ func RunAssay(ctx context.Context, db *sql.DB, q compiler.Queries) (Aggregates, 
 // through engine.Query, then report.Analyze. It returns the report, so the
 // caller can measure the heap the analysis keeps, and the aggregates.
 func RunAssayReport(ctx context.Context, db *sql.DB, plan *compiler.Plan, q compiler.Queries) (*report.Report, Aggregates, error) {
-	res, err := engine.Query(ctx, db, q, nil)
+	res, err := engine.Query(ctx, db, plan, q, true)
 	if err != nil {
 		return nil, nil, engine.CleanError(err)
 	}
 	agg := Aggregates{}
-	for _, r := range res.Rows {
+	for _, r := range res.Overall() {
 		row := map[string]float64{compiler.ColUnits: float64(r.Units)}
 		for k, v := range r.Stats {
 			row[k] = v
@@ -231,7 +202,7 @@ func RunBound(ctx context.Context, db *sql.DB) (Aggregates, error) {
 	if err := db.QueryRowContext(ctx, boundSQL).Scan(&a, &b, &c, &d); err != nil {
 		return nil, engine.CleanError(err)
 	}
-	or, ou, sr, su = toFloat(a), toFloat(b), toFloat(c), toFloat(d)
+	or, ou, sr, su = results.Number(a), results.Number(b), results.Number(c), results.Number(d)
 	return Aggregates{"bound": {"order_rows": or, "order_units": ou, "session_rows": sr, "session_units": su}}, nil
 }
 

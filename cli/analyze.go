@@ -6,8 +6,9 @@ import (
 	"strings"
 
 	"github.com/assay-dev/assay/compiler"
-	"github.com/assay-dev/assay/engine"
+	"github.com/assay-dev/assay/metrics"
 	"github.com/assay-dev/assay/report"
+	"github.com/assay-dev/assay/results"
 )
 
 // cmdAnalyze is the bring-your-own-executor path: the per-variant result
@@ -17,7 +18,8 @@ import (
 func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 	fs := flagSet("analyze", "analyze [flags] SPEC.toml --aggregates FILE [--health FILE]", stderr)
 	cf := compileFlags{dialect: "duckdb"}
-	fs.StringVar(&cf.asOf, "as-of", "", "the --as-of the query was compiled with (RFC 3339); default: the analysis end")
+	fs.StringVar(&cf.asOf, "as-of", "", "the --as-of the query was compiled with (RFC 3339); default: the one the result carries")
+	cf.registerBreakdowns(fs)
 	aggs := fs.String("aggregates", "", "the main query's result, exported as CSV or JSON (required)")
 	health := fs.String("health", "", "the health query's result, exported as CSV or JSON (recommended: exposure, trigger and exclusion counts)")
 	format := fs.String("format", "text", "output format: text, json or markdown")
@@ -50,79 +52,95 @@ func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 	if !ok {
 		return ExitInput
 	}
-	plan, _, ok := cf.plan(spec, stderr)
-	if !ok {
-		return ExitInput
-	}
-	t, err := engine.ReadTable(*aggs)
+	t, err := results.ReadTable(*aggs)
 	if err != nil {
 		fmt.Fprintf(stderr, "assay analyze: %v\n", err)
 		return ExitInput
 	}
-	rows, err := t.MainRows(nil)
+	// The options come from the flags when given, and otherwise from the
+	// result itself (its compile_options column), so that a result is read
+	// with the as-of and breakdowns it was computed with.
+	opt, err := resultOptions(t, spec)
 	if err != nil {
 		fmt.Fprintf(stderr, "assay analyze: %s: %v\n", *aggs, err)
 		return ExitInput
 	}
-	if err := checkFingerprint(t, rows, spec.Fingerprint); err != nil {
+	if cf.asOf != "" || cf.groupBy != "" || !cf.segments {
+		if opt, err = cf.options(spec); err != nil {
+			fmt.Fprintf(stderr, "assay analyze: %v\n", err)
+			return ExitInput
+		}
+	}
+	plan, ds := compiler.Compile(spec, opt)
+	printDiags(stderr, ds, nil)
+	if ds.HasErrors() {
+		return ExitInput
+	}
+	set, err := results.Main(plan, t.Columns, t.Rows)
+	if err != nil {
 		fmt.Fprintf(stderr, "assay analyze: %s: %v\n", *aggs, err)
 		return ExitInput
 	}
-	engine.MatchStatColumns(rows, statColumns(plan))
-	res := &engine.Result{Rows: rows}
 	if *health != "" {
-		ht, err := engine.ReadTable(*health)
+		ht, err := results.ReadTable(*health)
 		if err != nil {
 			fmt.Fprintf(stderr, "assay analyze: %v\n", err)
 			return ExitInput
 		}
-		if res.Health, err = ht.HealthRows(); err != nil {
+		if set.Health, err = results.Health(ht.Columns, ht.Rows); err != nil {
 			fmt.Fprintf(stderr, "assay analyze: %s: %v\n", *health, err)
 			return ExitInput
 		}
+		if set.Health == nil {
+			set.Health = []results.HealthRow{}
+		}
 	} else {
-		fmt.Fprintf(stderr, "assay analyze: no --health file: exposure, trigger and exclusion counts are missing from the report; the sample-ratio check uses the eligible units\n")
+		fmt.Fprintf(stderr, "assay analyze: no --health file: exposure, trigger and exclusion counts are not available; the sample-ratio check uses the eligible units\n")
 	}
-	rep, err := report.Analyze(plan, res, report.Options{SRMAlpha: *srmAlpha, Adjust: *adjust})
+	rep, err := report.Analyze(plan, set, report.Options{SRMAlpha: *srmAlpha, Adjust: *adjust})
 	if err != nil {
-		fmt.Fprintf(stderr, "assay: %v\n", err)
+		fmt.Fprintf(stderr, "assay analyze: %s: %v\n", *aggs, err)
 		return ExitInput
 	}
 	return emitReport(rep, *format, *failHarm, stdout, stderr)
 }
 
-// checkFingerprint makes sure the result was computed by a query compiled
-// from this very spec.
-func checkFingerprint(t *engine.Table, rows []engine.Row, want string) error {
-	has := false
-	for _, c := range t.Columns {
-		has = has || strings.EqualFold(c, compiler.ColFingerprint)
+// resultOptions checks that a main result was computed from this spec
+// (its spec_fingerprint column) and reads the compile options it carries.
+func resultOptions(t *results.Table, spec *metrics.Spec) (compiler.Options, error) {
+	col := func(name string) int {
+		for i, c := range t.Columns {
+			if strings.EqualFold(c, name) {
+				return i
+			}
+		}
+		return -1
 	}
-	if !has {
-		return fmt.Errorf("the result has no %s column, so it cannot be checked against the spec: export every column of the main query that assay compile printed", compiler.ColFingerprint)
-	}
-	if len(rows) == 0 {
-		return fmt.Errorf("the result has no rows, so it cannot be checked against the spec")
-	}
-	for i, r := range rows {
-		if r.Fingerprint != want {
-			return fmt.Errorf("row %d carries spec fingerprint %q, but the spec's is %s: the query was compiled from another version of the spec; compile it again and rerun it", i+1, r.Fingerprint, want)
+	fp, oc := col(compiler.ColSpecFingerprint), col(compiler.ColOptions)
+	for _, c := range []struct {
+		name string
+		at   int
+	}{{compiler.ColSpecFingerprint, fp}, {compiler.ColOptions, oc}} {
+		if c.at < 0 {
+			return compiler.Options{}, fmt.Errorf("the result has no %s column (is it the main query's result?), so it cannot be checked against the spec: export every column of the main query that assay compile printed", c.name)
 		}
 	}
-	return nil
+	if len(t.Rows) == 0 {
+		return compiler.Options{}, fmt.Errorf("the result has no rows, so it cannot be checked against the spec")
+	}
+	for i, row := range t.Rows {
+		if got := results.Text(value(row, fp)); got != spec.Fingerprint {
+			return compiler.Options{}, fmt.Errorf("row %d carries spec fingerprint %q, but the spec's is %s: the query was compiled from another version of the spec; compile it again and rerun it", i+1, got, spec.Fingerprint)
+		}
+	}
+	return compiler.ParseOptions(results.Text(value(t.Rows[0], oc)))
 }
 
-// statColumns lists every statistics column name the plan's metrics can
-// have, for matching names that an engine returned in another case.
-func statColumns(p *compiler.Plan) []string {
-	var out []string
-	for _, mp := range p.Metrics {
-		for _, st := range []string{compiler.StatN, compiler.StatMean, compiler.StatVar, compiler.StatNumMean,
-			compiler.StatDenMean, compiler.StatNumVar, compiler.StatDenVar, compiler.StatCov} {
-			out = append(out, compiler.StatColumn(mp.M.Name, st))
-		}
+func value(row []any, i int) any {
+	if i < len(row) {
+		return row[i]
 	}
-	return out
+	return nil
 }
 
 // emitReport prints rep and returns the exit code, as assay run does.

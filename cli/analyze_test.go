@@ -9,6 +9,7 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/assay-dev/assay/compiler"
 	"github.com/assay-dev/assay/dialects"
@@ -22,16 +23,24 @@ func runArgs(args ...string) (int, string, string) {
 	return code, o.String(), e.String()
 }
 
-// exportDemo runs the demo's compiled queries on DuckDB, the way a user's
-// own pipeline would run them on a warehouse, and exports both results
-// with DuckDB's COPY as CSV and as a JSON array. It returns the file paths.
-func exportDemo(t *testing.T) map[string]string {
+// exportDemo runs the demo's compiled queries (with compile's default
+// options plus extra) on DuckDB, the way a user's own pipeline would run
+// them on a warehouse, and exports both results with DuckDB's COPY as CSV
+// and as a JSON array, and as CSV with every column name in upper case
+// (as engines that fold unquoted names return them). It returns the file
+// paths.
+func exportDemo(t *testing.T, extra compiler.Options) map[string]string {
 	t.Helper()
 	s, _, ds := metrics.LoadFile(demo)
 	if ds.HasErrors() {
 		t.Fatal(ds)
 	}
-	p, _ := compiler.Compile(s, compiler.Options{})
+	opt := extra
+	opt.Breakdowns = compiler.DefaultBreakdowns(s)
+	p, ds := compiler.Compile(s, opt)
+	if ds.HasErrors() {
+		t.Fatal(ds)
+	}
 	d, _ := dialects.Lookup("duckdb")
 	q, err := compiler.Print(p, d)
 	if err != nil {
@@ -64,21 +73,40 @@ func exportDemo(t *testing.T) map[string]string {
 	copyTo("health.csv", q.Health, "HEADER")
 	copyTo("main.json", q.Main, "FORMAT json, ARRAY true")
 	copyTo("health.json", q.Health, "FORMAT json")
+	for _, name := range []string{"main.csv", "health.csv"} {
+		b, err := os.ReadFile(files[name])
+		if err != nil {
+			t.Fatal(err)
+		}
+		head, rest, _ := strings.Cut(string(b), "\n")
+		upper := filepath.Join(out, "UPPER_"+name)
+		if err := os.WriteFile(upper, []byte(strings.ToUpper(head)+"\n"+rest), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		files["UPPER_"+name] = upper
+	}
 	return files
 }
 
-// TestAnalyzeMatchesRun: assay analyze on the exported results prints the
-// same report, byte for byte, and exits with the same code as assay run.
+// TestAnalyzeMatchesRun: assay analyze on the exported results (the
+// demo's main and health results, segments included, with column names as
+// DuckDB writes them and in upper case) gives run's JSON report, every
+// number within 1e-9, and run's exit code. Upper-case names are what
+// warehouses that fold unquoted identifiers return; the CUPED columns
+// must be found too.
 func TestAnalyzeMatchesRun(t *testing.T) {
 	if testing.Short() {
 		t.Skip("skipped in -short mode: runs the demo")
 	}
-	f := exportDemo(t)
-	wantCode, want, stderr := runArgs("run", "--format", "json", "--segments=false", demo)
+	f := exportDemo(t, compiler.Options{})
+	wantCode, want, stderr := runArgs("run", "--format", "json", demo)
 	if wantCode != ExitOK {
 		t.Fatalf("run exited %d: %s", wantCode, stderr)
 	}
-	for _, pair := range [][2]string{{"main.csv", "health.csv"}, {"main.json", "health.json"}} {
+	if !strings.Contains(want, `"cuped"`) || !strings.Contains(want, `"segments": [`) {
+		t.Fatal("the demo report has no CUPED comparison or no segments; the test would not cover them")
+	}
+	for _, pair := range [][2]string{{"main.csv", "health.csv"}, {"main.json", "health.json"}, {"UPPER_main.csv", "UPPER_health.csv"}} {
 		code, got, stderr := runArgs("analyze", "--format", "json", demo, "--aggregates", f[pair[0]], "--health", f[pair[1]])
 		if code != wantCode {
 			t.Fatalf("analyze %v exited %d, run %d: %s", pair, code, wantCode, stderr)
@@ -89,10 +117,43 @@ func TestAnalyzeMatchesRun(t *testing.T) {
 			t.Errorf("analyze %v report differs from run's: %s", pair, d)
 		}
 	}
-	// Without the health result the report still comes out, with a note.
-	code, _, stderr := runArgs("analyze", demo, "--aggregates", f["main.csv"])
-	if code != ExitOK || !strings.Contains(stderr, "no --health file") {
-		t.Errorf("analyze without --health: exit %d, stderr %q", code, stderr)
+	// Without the health result the report still comes out, with a note,
+	// and says the counts are not available rather than zero.
+	code, out, stderr := runArgs("analyze", demo, "--aggregates", f["main.csv"])
+	if code != ExitOK || !strings.Contains(stderr, "no --health file") || !strings.Contains(out, "not available") {
+		t.Errorf("analyze without --health: exit %d, stderr %q, report:\n%s", code, stderr, out)
+	}
+}
+
+// TestAnalyzeAsOf: a result compiled with --as-of is read with that as-of
+// (the report says so), and refused, naming the difference, when analyze
+// is told another one. Source: the demo spec's end is 2026-04-13 (its
+// [experiment] table); the as-of below is five days earlier.
+func TestAnalyzeAsOf(t *testing.T) {
+	if testing.Short() {
+		t.Skip("skipped in -short mode: runs the demo")
+	}
+	asOf := time.Date(2026, 4, 8, 0, 0, 0, 0, time.UTC)
+	f := exportDemo(t, compiler.Options{AsOf: asOf})
+	code, out, stderr := runArgs("analyze", "--format", "json", demo, "--aggregates", f["main.csv"], "--health", f["health.csv"])
+	if code != ExitOK {
+		t.Fatalf("analyze exited %d: %s", code, stderr)
+	}
+	var rep struct {
+		Experiment struct {
+			AsOf           string `json:"as_of"`
+			CompileOptions string `json:"compile_options"`
+		} `json:"experiment"`
+	}
+	if err := json.Unmarshal([]byte(out), &rep); err != nil {
+		t.Fatal(err)
+	}
+	if rep.Experiment.AsOf != "2026-04-08T00:00:00Z" || !strings.Contains(rep.Experiment.CompileOptions, "as_of=2026-04-08T00:00:00Z") {
+		t.Errorf("report labelled as of %q (options %q), want 2026-04-08T00:00:00Z", rep.Experiment.AsOf, rep.Experiment.CompileOptions)
+	}
+	code, out, stderr = runArgs("analyze", "--as-of", "2026-04-13T00:00:00Z", demo, "--aggregates", f["main.csv"], "--health", f["health.csv"])
+	if code != ExitInput || out != "" || !strings.Contains(stderr, "as_of is 2026-04-08T00:00:00Z in the result and 2026-04-13T00:00:00Z here") {
+		t.Errorf("analyze with another --as-of: exit %d, stdout %q, stderr %q; want a refusal naming both as-of times", code, out, stderr)
 	}
 }
 
@@ -155,9 +216,9 @@ func TestAnalyzeRejectsForeignResults(t *testing.T) {
 		return p
 	}
 	cases := []struct{ name, file, stderr string }{
-		{"other spec", write("other.csv", "spec_fingerprint,variant,units\n0123456789abcdef,control,3\n"), "compiled from another version of the spec"},
+		{"other spec", write("other.csv", "spec_fingerprint,compile_options,variant,units\n0123456789abcdef,,control,3\n"), "compiled from another version of the spec"},
 		{"no fingerprint", write("nofp.csv", "variant,units\ncontrol,3\n"), "no spec_fingerprint column"},
-		{"no rows", write("empty.csv", "spec_fingerprint,variant,units\n"), "no rows"},
+		{"no rows", write("empty.csv", "spec_fingerprint,compile_options,variant,units\n"), "no rows"},
 		{"not a result", write("junk.json", `{"a": `), "cannot read JSON"},
 		{"health as main", write("h.csv", "kind,reason,variant,day,row_count,unit_count\n"), "is it the main query's result?"},
 	}

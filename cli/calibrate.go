@@ -7,11 +7,11 @@ import (
 	"os"
 	"os/signal"
 	"path/filepath"
+	"time"
 
 	"github.com/assay-dev/assay/compiler"
-	"github.com/assay-dev/assay/dialects"
-	"github.com/assay-dev/assay/engine"
 	"github.com/assay-dev/assay/metrics"
+	"github.com/assay-dev/assay/pipeline"
 	"github.com/assay-dev/assay/report"
 )
 
@@ -20,11 +20,12 @@ import (
 func cmdCalibrate(args []string, stdout, stderr io.Writer) int {
 	fs := flagSet("calibrate", "calibrate [flags] SPEC.toml", stderr)
 	db := fs.String("db", "", "DuckDB database file, opened read-only (default: in-memory; file sources are read directly)")
+	dsn := fs.String("dsn", "", "run on a PostgreSQL or MySQL/MariaDB server instead of DuckDB (default: $ASSAY_DSN; the password is never printed)")
 	splits := fs.Int("splits", 200, "number of random re-splits")
 	salt := fs.Int64("salt", 1, "salt of the re-split hash; change it for a fresh set of splits")
 	alpha := fs.Float64("alpha", 0.05, "significance level whose false-positive rate is checked")
-	start := fs.String("start", "", "override the analysis start (use a period before the experiment, RFC 3339)")
-	end := fs.String("end", "", "override the analysis end (RFC 3339)")
+	start := fs.String("start", "", "analyse another period: its start (e.g. a period before the experiment, RFC 3339)")
+	end := fs.String("end", "", "analyse another period: its end (RFC 3339)")
 	format := fs.String("format", "text", "output format: text or json")
 	path, code, ok := parse(fs, args)
 	if !ok {
@@ -46,58 +47,53 @@ func cmdCalibrate(args []string, stdout, stderr io.Writer) int {
 	if !ok {
 		return ExitInput
 	}
+	opt := compiler.Options{Splits: *splits, Salt: *salt}
 	for _, o := range []struct {
 		flag string
-		dst  *string
-	}{{"--start", start}, {"--end", end}} {
-		if *o.dst == "" {
+		src  *string
+		dst  *time.Time
+	}{{"--start", start, &opt.Start}, {"--end", end, &opt.End}} {
+		if *o.src == "" {
 			continue
 		}
-		t, err := parseTime(*o.dst)
+		t, err := parseTime(*o.src)
 		if err != nil {
 			fmt.Fprintf(stderr, "assay calibrate: %s: %v\n", o.flag, err)
 			return ExitInput
 		}
-		if o.flag == "--start" {
-			spec.Start = t
-		} else {
-			spec.End = t
-		}
-	}
-	if !spec.End.After(spec.Start) {
-		fmt.Fprintln(stderr, "assay calibrate: the analysis end must be after its start")
-		return ExitInput
+		*o.dst = t
 	}
 	absoluteFiles(spec, path)
-	plan, ds := compiler.Compile(spec, compiler.Options{Splits: *splits, Salt: *salt})
+	dir, _ := filepath.Abs(filepath.Dir(path))
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
+	defer stop()
+	eng, err := pipeline.Open(ctx, pipeline.Target{DSN: *dsn, DB: *db, FileDir: dir})
+	if err != nil {
+		return openFailed(stderr, err)
+	}
+	defer eng.Close()
+	if src, cds := specText(path), eng.Check(ctx, spec); len(cds) > 0 {
+		printDiags(stderr, cds, src)
+		if cds.HasErrors() {
+			return ExitInput
+		}
+	}
+	plan, q, ds, err := eng.Compile(ctx, spec, opt)
 	printDiags(stderr, ds, nil)
 	if ds.HasErrors() {
 		return ExitInput
 	}
-	d, _ := dialects.Lookup("duckdb")
-	q, err := compiler.Print(plan, d)
 	if err != nil {
-		fmt.Fprintf(stderr, "assay: %v\n", err)
-		return ExitInput
+		return openFailed(stderr, err)
 	}
-	dir, _ := filepath.Abs(filepath.Dir(path))
-	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
-	defer stop()
-	conn, err := engine.OpenDuckDB(engine.DuckDBOptions{Path: *db, FileDir: dir})
-	if err != nil {
-		fmt.Fprintf(stderr, "assay: cannot open DuckDB: %v\n", err)
-		return ExitEngine
-	}
-	defer conn.Close()
 	prog := newProgress(stderr)
 	prog.Stage(fmt.Sprintf("running %d re-splits in one query", *splits))
-	rows, err := engine.QueryMain(ctx, conn, q, []string{compiler.ColSplit})
+	set, err := eng.Run(ctx, plan, q, false)
 	prog.Done()
 	if err != nil {
-		fmt.Fprintf(stderr, "assay: query failed: %v\n", engine.CleanError(err))
-		return ExitEngine
+		return queryFailed(ctx, stderr, err)
 	}
-	cal := report.Calibrate(plan, rows, *alpha)
+	cal := report.Calibrate(plan, set, *alpha)
 	if *format == "json" {
 		b, err := cal.JSON()
 		if err != nil {

@@ -35,7 +35,7 @@ func TestExitCodes(t *testing.T) {
 		{name: "compile flags after spec", args: []string{"compile", demo, "--query", "health"}, code: ExitOK, stdout: "AS kind"},
 		{name: "compile unknown dialect", args: []string{"compile", "--dialect", "nosuchdb", demo}, code: ExitInput, stderr: "unknown dialect"},
 		{name: "compile bad as-of", args: []string{"compile", "--as-of", "yesterday", demo}, code: ExitInput, stderr: "--as-of"},
-		{name: "compile bad group key", args: []string{"compile", "--by", "colour", demo}, code: ExitInput, stderr: `cannot group by "colour"`},
+		{name: "compile bad group key", args: []string{"compile", "--by", "colour", demo}, code: ExitInput, stderr: `cannot break down by "colour"`},
 		{name: "run text", args: []string{"run", "--segments=false", demo}, code: ExitOK, stdout: "Primary metric", skipShort: true},
 		{name: "run bad format", args: []string{"run", "--format", "xml", demo}, code: ExitInput, stderr: "--format"},
 		{name: "run bad adjust", args: []string{"run", "--adjust", "magic", demo}, code: ExitInput, stderr: "--adjust"},
@@ -89,8 +89,8 @@ func TestRunJSONContract(t *testing.T) {
 	if err := json.Unmarshal(out.Bytes(), &rep); err != nil {
 		t.Fatalf("stdout is not JSON: %v", err)
 	}
-	if v, _ := rep["schema_version"].(float64); v != 1 {
-		t.Errorf("schema_version: got %v, want 1", rep["schema_version"])
+	if v, _ := rep["schema_version"].(float64); v != 2 {
+		t.Errorf("schema_version: got %v, want 2", rep["schema_version"])
 	}
 	for _, key := range []string{"tool_version", "experiment", "alarms", "health", "metrics", "segments", "adjustment", "cautions"} {
 		if _, ok := rep[key]; !ok {

@@ -17,16 +17,46 @@ import (
 )
 
 type compileFlags struct {
-	dialect string
-	asOf    string
-	groupBy string
-	health  bool
+	dialect  string
+	asOf     string
+	groupBy  string
+	segments bool
+	health   bool
 }
 
 func (c *compileFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&c.dialect, "dialect", "duckdb", "SQL dialect: "+strings.Join(dialects.Names(), ", "))
 	fs.StringVar(&c.asOf, "as-of", "", "count outcomes up to this time (RFC 3339, e.g. 2026-04-01T00:00:00Z); default: the analysis end")
-	fs.StringVar(&c.groupBy, "by", "", "comma-separated extra grouping keys: segment names or trigger_day")
+	c.registerBreakdowns(fs)
+}
+
+func (c *compileFlags) registerBreakdowns(fs *flag.FlagSet) {
+	fs.StringVar(&c.groupBy, "by", "", "breakdowns computed beside the overall result, each on its own: comma-separated segment names and/or trigger_day (default: every segment)")
+	fs.BoolVar(&c.segments, "segments", true, "break every metric down by each declared segment (false: no breakdowns unless --by names them)")
+}
+
+// options returns the compile options the flags ask for.
+func (c *compileFlags) options(spec *metrics.Spec) (compiler.Options, error) {
+	var opt compiler.Options
+	if c.asOf != "" {
+		t, err := parseTime(c.asOf)
+		if err != nil {
+			return opt, fmt.Errorf("--as-of: %v", err)
+		}
+		if t.IsZero() || t.Year() < 1900 {
+			return opt, fmt.Errorf("--as-of: %q is not a plausible time", c.asOf)
+		}
+		opt.AsOf = t
+	}
+	switch {
+	case c.groupBy != "":
+		for _, k := range strings.Split(c.groupBy, ",") {
+			opt.Breakdowns = append(opt.Breakdowns, strings.TrimSpace(k))
+		}
+	case c.segments:
+		opt.Breakdowns = compiler.DefaultBreakdowns(spec)
+	}
+	return opt, nil
 }
 
 func (c *compileFlags) plan(spec *metrics.Spec, stderr io.Writer) (*compiler.Plan, dialects.Dialect, bool) {
@@ -35,19 +65,10 @@ func (c *compileFlags) plan(spec *metrics.Spec, stderr io.Writer) (*compiler.Pla
 		fmt.Fprintf(stderr, "assay: %v\n", err)
 		return nil, nil, false
 	}
-	opt := compiler.Options{}
-	if c.asOf != "" {
-		t, err := parseTime(c.asOf)
-		if err != nil {
-			fmt.Fprintf(stderr, "assay: --as-of: %v\n", err)
-			return nil, nil, false
-		}
-		opt.AsOf = t
-	}
-	if c.groupBy != "" {
-		for _, k := range strings.Split(c.groupBy, ",") {
-			opt.GroupBy = append(opt.GroupBy, strings.TrimSpace(k))
-		}
+	opt, err := c.options(spec)
+	if err != nil {
+		fmt.Fprintf(stderr, "assay: %v\n", err)
+		return nil, nil, false
 	}
 	plan, ds := compiler.Compile(spec, opt)
 	printDiags(stderr, ds, nil)

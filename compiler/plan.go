@@ -1,29 +1,43 @@
 // Package compiler turns a checked spec into a plan and prints the plan as
 // SQL through a dialect. The plan is built once (Compile) and printed by
 // any dialect (Print), the way go/printer prints a go/ast tree: nothing
-// downstream re-reads the TOML or re-parses SQL text.
+// downstream re-reads the TOML or re-parses SQL text. Every choice the SQL
+// makes (which aggregates are shared, how values are centred, which
+// statistics a metric returns, the result columns and health rows) is made
+// in Compile and recorded in the plan; the printer only spells it.
 package compiler
 
 import (
+	"crypto/sha256"
+	"encoding/hex"
 	"fmt"
 	"sort"
+	"strings"
 	"time"
 
 	"github.com/assay-dev/assay/metrics"
+	"github.com/assay-dev/assay/metrics/expr"
 )
 
 // Version is the tool version printed into compiled SQL.
 const Version = "0.1.0"
 
-// Options change what a compiled query computes.
+// Options change what a compiled query computes. They are part of the
+// result's fingerprint: a result is only read back with the options it was
+// compiled with.
 type Options struct {
 	// AsOf is when the data were read: units whose outcome window has not
 	// fully elapsed by then are left out of that metric. Zero means the
 	// analysis end. Exposures at or after AsOf are ignored.
 	AsOf time.Time
-	// GroupBy adds grouping keys next to the variant: segment names from
-	// the spec, or KeyTriggerDay.
-	GroupBy []string
+	// Start and End replace the spec's analysis period when set (calibration
+	// over an earlier period, planning over a pre-period). The spec itself is
+	// never edited.
+	Start, End time.Time
+	// Breakdowns are the groupings computed beside the overall result, each
+	// on its own (not crossed): segment names from the spec, or
+	// KeyTriggerDay. They come from the same cohort in the same statement.
+	Breakdowns []string
 	// Splits > 0 compiles a calibration query: every eligible unit is
 	// re-assigned at random to the declared variants (by a hash of its id,
 	// the split number and Salt, with the planned weights) Splits times, and
@@ -36,15 +50,93 @@ type Options struct {
 // in the experiment's time zone.
 const KeyTriggerDay = "trigger_day"
 
+// DefaultBreakdowns is every segment the spec declares, in spec order: the
+// breakdowns run and compile use unless told otherwise.
+func DefaultBreakdowns(s *metrics.Spec) []string {
+	var out []string
+	for _, seg := range s.Segments {
+		out = append(out, seg.Name)
+	}
+	return out
+}
+
+// Text spells the options canonically, as the compile_options result
+// column carries them: as_of, start, end (RFC 3339, UTC), by, splits and
+// salt, separated by semicolons. Unset values are left out.
+func (o Options) Text() string {
+	var parts []string
+	t := func(name string, v time.Time) {
+		if !v.IsZero() {
+			parts = append(parts, name+"="+v.UTC().Format(time.RFC3339Nano))
+		}
+	}
+	t("as_of", o.AsOf)
+	t("start", o.Start)
+	t("end", o.End)
+	if len(o.Breakdowns) > 0 {
+		parts = append(parts, "by="+strings.Join(o.Breakdowns, ","))
+	}
+	if o.Splits > 0 {
+		parts = append(parts, fmt.Sprintf("splits=%d", o.Splits), fmt.Sprintf("salt=%d", o.Salt))
+	}
+	return strings.Join(parts, ";")
+}
+
+// ParseOptions reads the text of Options.Text back.
+func ParseOptions(s string) (Options, error) {
+	var o Options
+	if strings.TrimSpace(s) == "" {
+		return o, nil
+	}
+	for _, part := range strings.Split(s, ";") {
+		k, v, ok := strings.Cut(part, "=")
+		if !ok {
+			return o, fmt.Errorf("compile options %q: %q is not name=value", s, part)
+		}
+		var err error
+		switch k {
+		case "as_of":
+			o.AsOf, err = time.Parse(time.RFC3339Nano, v)
+		case "start":
+			o.Start, err = time.Parse(time.RFC3339Nano, v)
+		case "end":
+			o.End, err = time.Parse(time.RFC3339Nano, v)
+		case "by":
+			o.Breakdowns = strings.Split(v, ",")
+		case "splits":
+			_, err = fmt.Sscan(v, &o.Splits)
+		case "salt":
+			_, err = fmt.Sscan(v, &o.Salt)
+		default:
+			err = fmt.Errorf("unknown option %q", k)
+		}
+		if err != nil {
+			return o, fmt.Errorf("compile options %q: %w", s, err)
+		}
+	}
+	return o, nil
+}
+
 // Plan is a compiled experiment: every choice the SQL makes, resolved.
 type Plan struct {
-	Spec        *metrics.Spec
+	Spec *metrics.Spec
+	// Options are the options the plan was compiled with, normalised: AsOf
+	// is always set (the analysis end when not given), Start and End only
+	// when they differ from the spec's.
+	Options Options
+	// Fingerprint identifies what the numbers depend on: the spec's
+	// fingerprint and the options' text. The main query returns it on every
+	// row.
+	Fingerprint string
 	StartUS     int64 // analysis start, microseconds since the epoch
 	EndUS       int64 // exposures are read in [StartUS, EndUS)
 	AsOfUS      int64 // outcome windows must end at or before AsOfUS
 	TZ          string
 	Variants    []string
 	Segments    []*metrics.Segment // segments the query groups by, carried from the trigger
+	// GroupBy are the breakdown keys. The main query returns the overall
+	// rows (every key NULL) and, for each key, rows grouped by it (the
+	// other keys NULL).
 	GroupBy     []GroupKey
 	Rules       []*metrics.Rule
 	Attrs       []*metrics.Source // attribute sources of grouped segments, joined at the trigger
@@ -55,13 +147,35 @@ type Plan struct {
 	Splits      int
 	Salt        int64
 	Weights     []float64
+	// Centres are the per-unit values shifted by their mean before the
+	// variance aggregates, and CentreBy says over which units that mean is
+	// taken: per variant, or pooled in calibration (whose groups mix the
+	// original variants).
+	Centres        []*AggPlan
+	CentrePerGroup bool
+	// Columns are the main query's result columns, in order.
+	Columns []Column
+	// Exclusions are the reasons a triggered unit is left out, in the
+	// order the health query reports them.
+	Exclusions []Exclusion
+
+	metricOf map[*metrics.Metric]*MetricPlan
 }
 
-// GroupKey is an extra grouping column of the result.
+// GroupKey is a breakdown key of the result.
 type GroupKey struct {
 	Name    string // result column name
 	Segment *metrics.Segment
 	Day     bool
+}
+
+// Label is the key's name as users write it: the segment's name or
+// trigger_day.
+func (g GroupKey) Label() string {
+	if g.Segment != nil {
+		return g.Segment.Name
+	}
+	return KeyTriggerDay
 }
 
 // SourcePass is one scan of an outcome source computing every per-unit
@@ -77,8 +191,26 @@ type AggPlan struct {
 	Col      string // unit-level column name
 	Agg      *metrics.Agg
 	From, To metrics.Duration
-	Metric   *metrics.Metric
+	Metric   *MetricPlan
 	Part     string // "", "num", "den" or "x" (covariate)
+	// SameAs is an earlier aggregate of the same pass that computes exactly
+	// the same value (the same function, expression, filter and window,
+	// compared as expression trees); the pass computes it once.
+	SameAs *AggPlan
+	// NonFinite says the pass also counts the rows whose value is NaN or
+	// infinite, which the sum leaves out.
+	NonFinite bool
+	// Centre names the column of this value's centre, when it is centred.
+	Centre string
+}
+
+// Source returns the aggregate that computes a's value: a itself or the
+// one it is the same as.
+func (a *AggPlan) Source() *AggPlan {
+	if a.SameAs != nil {
+		return a.SameAs
+	}
+	return a
 }
 
 // MetricPlan is one metric's statistics columns.
@@ -88,15 +220,51 @@ type MetricPlan struct {
 	Num, Den *AggPlan // ratio
 	Cov      *AggPlan // CUPED covariate, nil when not adjusted
 	Mature   string   // maturity flag column
+	// Stats are the statistics the main query returns for the metric, in
+	// result order.
+	Stats []Stat
+	// NonFinite are the aggregates whose left-out rows the metric counts.
+	NonFinite []*AggPlan
+	// Rule describes the metric in words, as the compiled SQL's comment and
+	// the report show it.
+	Rule string
+	// CovRule describes the covariate, when there is one.
+	CovRule string
+}
+
+// MetricPlan returns the plan of metric m.
+func (p *Plan) MetricPlan(m *metrics.Metric) *MetricPlan { return p.metricOf[m] }
+
+// MetricByName returns the plan of the metric called name, or nil.
+func (p *Plan) MetricByName(name string) *MetricPlan {
+	for _, mp := range p.Metrics {
+		if mp.M.Name == name {
+			return mp
+		}
+	}
+	return nil
 }
 
 // Compile builds the plan for a checked spec. It returns diagnostics for
 // problems that need the whole spec or the options.
 func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 	var ds metrics.Diagnostics
-	p := &Plan{Spec: s, TZ: s.TZName}
-	p.StartUS = s.Start.UnixMicro()
-	p.EndUS = s.End.UnixMicro()
+	bad := func(code string, hint, format string, args ...any) {
+		ds = append(ds, metrics.Diagnostic{Code: code, Summary: fmt.Sprintf(format, args...), Hint: hint, Subject: metrics.Range{File: s.File}})
+	}
+	p := &Plan{Spec: s, TZ: s.TZName, metricOf: map[*metrics.Metric]*MetricPlan{}}
+	start, end := s.Start, s.End
+	norm := Options{Splits: opt.Splits, Salt: opt.Salt}
+	if !opt.Start.IsZero() && !opt.Start.Equal(s.Start) {
+		start, norm.Start = opt.Start, opt.Start.UTC()
+	}
+	if !opt.End.IsZero() && !opt.End.Equal(s.End) {
+		end, norm.End = opt.End, opt.End.UTC()
+	}
+	if !start.Before(end) {
+		bad(metrics.CodeTime, "", "the analysis period [%s, %s) is empty", start.UTC().Format(time.RFC3339), end.UTC().Format(time.RFC3339))
+	}
+	p.StartUS, p.EndUS = start.UnixMicro(), end.UnixMicro()
 	p.AsOfUS = p.EndUS
 	if !opt.AsOf.IsZero() {
 		p.AsOfUS = opt.AsOf.UnixMicro()
@@ -104,16 +272,21 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 			p.EndUS = p.AsOfUS
 		}
 		if p.AsOfUS <= p.StartUS {
-			ds = append(ds, metrics.Diagnostic{Code: metrics.CodeTime, Summary: fmt.Sprintf("--as-of %s is not after the analysis start", opt.AsOf.UTC().Format(time.RFC3339)), Subject: metrics.Range{File: s.File}})
+			bad(metrics.CodeTime, "", "--as-of %s is not after the analysis start", opt.AsOf.UTC().Format(time.RFC3339))
 		}
 	}
+	norm.AsOf = time.UnixMicro(p.AsOfUS).UTC()
 	for _, v := range s.Variants {
 		p.Variants = append(p.Variants, v.Name)
 		p.Weights = append(p.Weights, v.Weight)
 	}
 	p.Splits, p.Salt = opt.Splits, opt.Salt
 	if opt.Splits < 0 || opt.Splits > 10000 {
-		ds = append(ds, metrics.Diagnostic{Code: metrics.CodeValue, Summary: fmt.Sprintf("number of splits must be between 1 and 10000, got %d", opt.Splits), Subject: metrics.Range{File: s.File}})
+		bad(metrics.CodeValue, "", "number of splits must be between 1 and 10000, got %d", opt.Splits)
+	}
+	if opt.Splits > 0 && len(opt.Breakdowns) > 0 {
+		bad(metrics.CodeValue, "calibrate the overall result; breakdowns are not re-split", "a calibration query cannot also be broken down by %s", strings.Join(opt.Breakdowns, ", "))
+		opt.Breakdowns = nil
 	}
 	p.Rules = s.Rules
 	seen := map[*metrics.Source]bool{}
@@ -123,9 +296,17 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 			p.Attrs = append(p.Attrs, src)
 		}
 	}
-	for _, g := range opt.GroupBy {
+	dup := map[string]bool{}
+	for _, g := range opt.Breakdowns {
+		g = strings.TrimSpace(g)
+		if dup[g] {
+			bad(metrics.CodeValue, "", "breakdown %q is given twice", g)
+			continue
+		}
+		dup[g] = true
 		if g == KeyTriggerDay {
 			p.GroupBy = append(p.GroupBy, GroupKey{Name: g, Day: true})
+			norm.Breakdowns = append(norm.Breakdowns, g)
 			continue
 		}
 		var found *metrics.Segment
@@ -139,20 +320,25 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 			for _, seg := range s.Segments {
 				names = append(names, seg.Name)
 			}
-			ds = append(ds, metrics.Diagnostic{Code: metrics.CodeValue, Summary: fmt.Sprintf("cannot group by %q: not a segment of this spec", g), Hint: fmt.Sprintf("known keys: %v", names), Subject: metrics.Range{File: s.File}})
+			bad(metrics.CodeValue, fmt.Sprintf("known keys: %v", names), "cannot break down by %q: not a segment of this spec", g)
 			continue
 		}
 		// Only segments the query groups by are carried through it, so an
 		// ungrouped query does no segment work.
 		p.GroupBy = append(p.GroupBy, GroupKey{Name: "seg_" + found.Name, Segment: found})
 		p.Segments = append(p.Segments, found)
+		norm.Breakdowns = append(norm.Breakdowns, g)
 		addAttr(found.Source)
 	}
+	p.Options = norm
+	sum := sha256.Sum256([]byte(s.Fingerprint + "\n" + norm.Text()))
+	p.Fingerprint = hex.EncodeToString(sum[:8])
 
 	passes := map[*metrics.Source]*SourcePass{}
 	ends := map[int64]bool{}
 	for _, m := range s.Metrics {
 		mp := &MetricPlan{M: m}
+		p.metricOf[m] = mp
 		add := func(a *metrics.Agg, part string, from, to metrics.Duration) *AggPlan {
 			if a == nil || a.Source == nil {
 				return nil
@@ -161,7 +347,8 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 			if part != "" {
 				col += "__" + part
 			}
-			ap := &AggPlan{Col: col, Agg: a, From: from, To: to, Metric: m, Part: part}
+			ap := &AggPlan{Col: col, Agg: a, From: from, To: to, Metric: mp, Part: part}
+			ap.NonFinite = a.Func == metrics.AggSum && part != "x"
 			sp := passes[a.Source]
 			if sp == nil {
 				sp = &SourcePass{Source: a.Source, From: from.Micros, To: to.Micros}
@@ -170,6 +357,12 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 			}
 			sp.From = min(sp.From, from.Micros)
 			sp.To = max(sp.To, to.Micros)
+			for _, b := range sp.Aggs {
+				if b.SameAs == nil && sameAgg(ap, b) {
+					ap.SameAs = b
+					break
+				}
+			}
 			sp.Aggs = append(sp.Aggs, ap)
 			if a.CapQuantile > 0 {
 				p.HasCapQuant = true
@@ -186,13 +379,80 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 		}
 		mp.Mature = matureCol(m.To.Micros)
 		ends[m.To.Micros] = true
+		for _, a := range []*AggPlan{mp.Value, mp.Num, mp.Den} {
+			if a != nil && a.NonFinite {
+				mp.NonFinite = append(mp.NonFinite, a)
+			}
+		}
+		// Every mean, ratio part and covariate is centred; 0/1 indicators
+		// are not.
+		for _, a := range []*AggPlan{mp.Value, mp.Num, mp.Den, mp.Cov} {
+			if a == nil || (a == mp.Value && m.Kind == metrics.KindProportion) || (a == mp.Cov && m.Covariate.Indicator) {
+				continue
+			}
+			a.Centre = "c_" + strings.TrimPrefix(a.Col, "m_")
+			p.Centres = append(p.Centres, a)
+		}
+		mp.Stats = statsFor(mp)
+		mp.Rule = metricRule(mp)
+		if mp.Cov != nil {
+			mp.CovRule = covRule(mp)
+		}
 		p.Metrics = append(p.Metrics, mp)
 	}
+	p.CentrePerGroup = p.Splits == 0
 	for e := range ends {
 		p.MatureEnds = append(p.MatureEnds, e)
 	}
 	sort.Slice(p.MatureEnds, func(i, j int) bool { return p.MatureEnds[i] < p.MatureEnds[j] })
+	p.Columns = resultColumns(p)
+	p.Exclusions = exclusions(p)
 	return p, ds
+}
+
+// sameAgg reports whether two aggregates of one pass compute the same
+// value: the same function, window and non-finite count, and equal value
+// and filter expressions (compared as trees).
+func sameAgg(a, b *AggPlan) bool {
+	if a.Agg.Func != b.Agg.Func || a.From.Micros != b.From.Micros || a.To.Micros != b.To.Micros || a.NonFinite != b.NonFinite {
+		return false
+	}
+	eq := func(x, y *metrics.Expr) bool {
+		if x == nil || y == nil {
+			return x == nil && y == nil
+		}
+		return expr.Equal(x.Node, y.Node)
+	}
+	return eq(a.Agg.Value, b.Agg.Value) && eq(a.Agg.Filter, b.Agg.Filter)
+}
+
+// resultColumns lists the main query's result columns.
+func resultColumns(p *Plan) []Column {
+	cols := []Column{{Name: ColSpecFingerprint, Role: RoleSpecFingerprint}, {Name: ColOptions, Role: RoleOptions}}
+	if p.Splits > 0 {
+		cols = append(cols, Column{Name: ColSplit, Role: RoleSplit})
+	}
+	cols = append(cols, Column{Name: ColVariant, Role: RoleVariant})
+	for i := range p.GroupBy {
+		cols = append(cols, Column{Name: p.GroupBy[i].Name, Role: RoleKey, Key: &p.GroupBy[i]})
+	}
+	cols = append(cols, Column{Name: ColUnits, Role: RoleUnits})
+	for _, mp := range p.Metrics {
+		for _, st := range mp.Stats {
+			cols = append(cols, Column{Name: mp.Column(st), Role: RoleStat, Metric: mp, Stat: st})
+		}
+	}
+	return cols
+}
+
+// exclusions lists the exclusion reasons of p: crossovers, undeclared
+// variants, then each eligibility rule.
+func exclusions(p *Plan) []Exclusion {
+	out := []Exclusion{{Reason: ExcludedCrossover, Flag: "is_crossover"}, {Reason: ExcludedUnknown, Flag: "is_unknown_variant"}}
+	for _, r := range p.Rules {
+		out = append(out, Exclusion{Reason: RuleReason(r.Name), Flag: "fails_" + r.Name, Rule: r})
+	}
+	return out
 }
 
 func matureCol(endUS int64) string {

@@ -12,38 +12,6 @@ import (
 	"github.com/assay-dev/assay/metrics/expr"
 )
 
-// Result column names shared by the printer and the engine reader.
-const (
-	ColSplit       = "split"
-	ColVariant     = "variant"
-	ColUnits       = "units"
-	ColFingerprint = "spec_fingerprint"
-)
-
-// Statistic suffixes of per-metric result columns.
-const (
-	StatN       = "n"
-	StatMean    = "mean"
-	StatVar     = "var"
-	StatNumMean = "num_mean"
-	StatDenMean = "den_mean"
-	StatNumVar  = "num_var"
-	StatDenVar  = "den_var"
-	StatCov     = "cov"
-	// StatNonFinite counts outcome rows left out because their value was
-	// NaN or infinite.
-	StatNonFinite = "nonfinite_rows"
-	// CUPED covariate statistics.
-	StatXMean   = "x_mean"
-	StatXVar    = "x_var"
-	StatYXCov   = "yx_cov"    // mean and proportion metrics
-	StatNumXCov = "num_x_cov" // ratio metrics
-	StatDenXCov = "den_x_cov"
-)
-
-// StatColumn is the result column holding statistic stat of metric name.
-func StatColumn(metric, stat string) string { return metric + "__" + stat }
-
 // Queries is the SQL text of one experiment.
 //
 // With a dialect that implements dialects.Stager, Setup stores the cohort
@@ -112,10 +80,6 @@ type printer struct {
 	d   dialects.Dialect
 	b   strings.Builder
 	err error
-	// same maps a pass column to the earlier column of the same pass that
-	// computes exactly the same aggregate (e.g. a count that is both a
-	// mean metric and a ratio's denominator); the pass computes it once.
-	same map[string]string
 	// stage is set when the cohort is computed once, by Setup, into a
 	// temporary table.
 	stage dialects.Stager
@@ -277,9 +241,8 @@ func (pr *printer) cohortCols() []string {
 	for _, seg := range pr.p.Segments {
 		cols = append(cols, pr.id("seg_"+seg.Name))
 	}
-	cols = append(cols, "is_crossover", "is_unknown_variant")
-	for _, r := range pr.p.Rules {
-		cols = append(cols, pr.id("fails_"+r.Name))
+	for _, x := range pr.p.Exclusions {
+		cols = append(cols, pr.id(x.Flag))
 	}
 	return cols
 }
@@ -292,51 +255,56 @@ func (pr *printer) cohortCTEs() {
 	segs := p.Segments
 
 	// The trigger and the crossover test come from one GROUP BY over the
-	// exposure rows. Only units whose trigger variant is not implied by
-	// that aggregate (seen in more than one variant, or in rows without
-	// one) go back to their rows at the trigger time; with segments read
-	// from the exposure row, every unit does, to pick that row's values.
+	// exposure rows. Rows without a variant count for the trigger time but
+	// never decide a unit's variant, whatever their order: a unit seen in
+	// one declared-or-not variant takes it, a unit seen in two or more
+	// crossed over, and a unit seen in none has an unknown variant. Only
+	// crossovers (to report which variant they triggered in) and, with
+	// segments read from the exposure row, every unit go back to their
+	// rows at the trigger time.
 	pr.line(0, "-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and")
-	pr.line(0, "-- greatest variant it was seen in (when they differ, the unit crossed over).")
+	pr.line(0, "-- greatest variant it was seen in (when they differ, the unit crossed over). Rows without a")
+	pr.line(0, "-- variant count for the trigger time but never decide the variant.")
 	pr.line(0, "exposed_units AS (")
 	pr.line(1, "SELECT")
 	pr.line(2, "unit_id,")
 	pr.line(2, "min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,")
 	pr.line(2, "min(variant) AS variant_lo,")
-	pr.line(2, "max(variant) AS variant_hi,")
-	pr.line(2, "(count(variant) = count(*)) AS variant_always_set")
+	pr.line(2, "max(variant) AS variant_hi")
 	pr.line(1, "FROM exposure_rows")
 	pr.line(1, "GROUP BY unit_id")
 	pr.line(0, "),")
 
 	exSegs := segsOn(segs, src)
-	crossover := "coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover"
+	crossed := "coalesce(u.variant_lo <> u.variant_hi, FALSE)"
 	atTrigger := "JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies"
 	pr.line(0, "-- Trigger: each unit's first qualifying exposure%s.", filterNote(ex.Filter))
 	if len(exSegs) == 0 {
-		pr.line(0, "-- A unit always seen in one variant takes it; any other unit takes the least variant among")
+		pr.line(0, "-- A unit seen in one variant takes it; a crossover is reported under the least variant among")
 		pr.line(0, "-- its qualifying rows at the trigger time.")
 		pr.line(0, "triggers AS (")
 		pr.line(1, "SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover")
 		pr.line(1, "FROM exposed_units AS u")
-		pr.line(1, "WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set")
+		pr.line(1, "WHERE u.trigger_us IS NOT NULL AND NOT %s", crossed)
 		pr.line(1, "UNION ALL")
-		pr.line(1, "SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, %s", crossover)
+		pr.line(1, "SELECT u.unit_id, coalesce(min(r.variant), u.variant_lo) AS variant, u.trigger_us, TRUE AS is_crossover")
 		pr.line(1, "FROM exposed_units AS u")
 		pr.line(1, "%s", atTrigger)
-		pr.line(1, "WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)")
-		pr.line(1, "GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi")
+		pr.line(1, "WHERE %s", crossed)
+		pr.line(1, "GROUP BY u.unit_id, u.trigger_us, u.variant_lo")
 		pr.line(0, "),")
 	} else {
-		order := "r.variant"
+		order := "CASE WHEN r.variant IS NULL THEN 1 ELSE 0 END, r.variant"
 		for _, seg := range exSegs {
 			order += ", r." + pr.id("seg_"+seg.Name)
 		}
-		pr.line(0, "-- Among its qualifying rows at the trigger time, the unit takes the first by %s.", strings.ReplaceAll(order, "r.", ""))
+		pr.line(0, "-- Segment values come from the unit's first qualifying row at the trigger time, ordered by")
+		pr.line(0, "-- %s.", strings.ReplaceAll(order, "r.", ""))
 		pr.line(0, "triggers AS (")
-		pr.line(1, "SELECT q.unit_id, q.variant, q.trigger_us, q.is_crossover%s", segCols(pr, exSegs, "q"))
+		pr.line(1, "SELECT q.unit_id, CASE WHEN q.is_crossover THEN coalesce(q.row_variant, q.variant_lo) ELSE q.variant_lo END AS variant,")
+		pr.line(2, "q.trigger_us, q.is_crossover%s", segCols(pr, exSegs, "q"))
 		pr.line(1, "FROM (")
-		pr.line(2, "SELECT u.unit_id, r.variant, u.trigger_us, %s%s,", crossover, segCols(pr, exSegs, "r"))
+		pr.line(2, "SELECT u.unit_id, u.variant_lo, r.variant AS row_variant, u.trigger_us, %s AS is_crossover%s,", crossed, segCols(pr, exSegs, "r"))
 		pr.line(3, "row_number() OVER (PARTITION BY u.unit_id ORDER BY %s) AS rn", order)
 		pr.line(2, "FROM exposed_units AS u")
 		pr.line(2, "%s", atTrigger)
@@ -572,9 +540,8 @@ func whereNote(f *metrics.Expr) string {
 func (pr *printer) eligible() {
 	p := pr.p
 	var conds []string
-	conds = append(conds, "NOT c.is_crossover", "NOT c.is_unknown_variant")
-	for _, r := range p.Rules {
-		conds = append(conds, "NOT c."+pr.id("fails_"+r.Name))
+	for _, x := range p.Exclusions {
+		conds = append(conds, "NOT c."+pr.id(x.Flag))
 	}
 	pr.line(0, "-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.")
 	pr.line(0, "eligible AS (")
@@ -686,10 +653,6 @@ func (pr *printer) prefilter(src *metrics.Source, alias string, from, to int64) 
 	return fmt.Sprintf("%s >= %s AND %s < %s", col, tl.TimeLiteral(pr.p.StartUS+from-slack), col, tl.TimeLiteral(pr.p.EndUS+to+slack))
 }
 
-// countsNonFinite reports whether rows of a are counted when their value
-// is NaN or infinite (and therefore left out of the sum).
-func countsNonFinite(a *AggPlan) bool { return a.Agg.Func == metrics.AggSum && a.Part != "x" }
-
 func (pr *printer) nonFiniteExpr(a *AggPlan) string {
 	cond := pr.rowCond(a)
 	v := pr.d.Double(pr.passExpr(a.Agg.Value))
@@ -723,24 +686,16 @@ func (pr *printer) passes() {
 		}
 		pr.line(0, "-- One pass over %s for: %s.", oneLine(src.Name), oneLine(strings.Join(names, ", ")))
 		pr.line(0, "%s AS (", pr.id("pass_"+src.Name))
-		// Aggregates that render identically are computed once; the
+		// Aggregates the plan found identical are computed once; the
 		// duplicates are read from the first in unit_values.
-		if pr.same == nil {
-			pr.same = map[string]string{}
-		}
-		first := map[string]string{}
 		var lines [][2]string // comment, aggregate
 		for _, a := range sp.Aggs {
-			e := pr.aggExpr(a)
-			key := fmt.Sprint(countsNonFinite(a), e)
-			if f, ok := first[key]; ok {
-				pr.same[a.Col] = f
-				lines = append(lines, [2]string{fmt.Sprintf("-- %s: %s in [trigger %s, trigger %s): the same as %s", oneLine(a.Col), aggRule(a), signed(a.From), signed(a.To), oneLine(f)), ""})
+			if a.SameAs != nil {
+				lines = append(lines, [2]string{fmt.Sprintf("-- %s: %s in [trigger %s, trigger %s): the same as %s", oneLine(a.Col), aggRule(a), signed(a.From), signed(a.To), oneLine(a.SameAs.Col)), ""})
 				continue
 			}
-			first[key] = a.Col
-			lines = append(lines, [2]string{fmt.Sprintf("-- %s: %s in [trigger %s, trigger %s)", oneLine(a.Col), aggRule(a), signed(a.From), signed(a.To)), e + " AS " + pr.id(a.Col)})
-			if countsNonFinite(a) {
+			lines = append(lines, [2]string{fmt.Sprintf("-- %s: %s in [trigger %s, trigger %s)", oneLine(a.Col), aggRule(a), signed(a.From), signed(a.To)), pr.aggExpr(a) + " AS " + pr.id(a.Col)})
+			if a.NonFinite {
 				lines = append(lines, [2]string{"", pr.nonFiniteExpr(a) + " AS " + pr.id(a.Col+"__nonfinite")})
 			}
 		}
@@ -801,12 +756,9 @@ func (pr *printer) units(more bool) {
 	var cols []string
 	for i, sp := range p.Sources {
 		for _, a := range sp.Aggs {
-			from := a.Col
-			if f, ok := pr.same[a.Col]; ok {
-				from = f
-			}
+			from := a.Source().Col
 			cols = append(cols, fmt.Sprintf("coalesce(p%d.%s, 0) AS %s", i+1, pr.id(from), pr.id(a.Col)))
-			if countsNonFinite(a) {
+			if a.NonFinite {
 				cols = append(cols, fmt.Sprintf("coalesce(p%d.%s, 0) AS %s", i+1, pr.id(from+"__nonfinite"), pr.id(a.Col+"__nonfinite")))
 			}
 		}
@@ -836,28 +788,16 @@ func (pr *printer) value(mp *MetricPlan, a *AggPlan) string {
 	return "CASE WHEN u." + mp.Mature + " THEN " + pr.d.Double(v) + " END"
 }
 
-type centre struct{ name, expr string }
-
-// centres lists the per-unit values whose pooled mean is subtracted before
-// the final aggregates: every mean, ratio part and covariate, but not 0/1
-// indicators. Shifting by a constant leaves variances and covariances
-// unchanged, Var(x − c) = Var(x), and keeps the engine's partial sums
-// small, so the result does not depend on how the engine splits and merges
-// the work (Chan, Golub & LeVeque 1983, "Algorithms for computing the
-// sample variance: analysis and recommendations", The American
-// Statistician 37, on shifted data).
-func (pr *printer) centres() []centre {
-	var out []centre
-	for _, mp := range pr.p.Metrics {
-		for _, a := range []*AggPlan{mp.Value, mp.Num, mp.Den, mp.Cov} {
-			if a == nil || (a == mp.Value && mp.M.Kind == metrics.KindProportion) || (a == mp.Cov && mp.M.Covariate.Indicator) {
-				continue
-			}
-			out = append(out, centre{name: "c_" + strings.TrimPrefix(a.Col, "m_"), expr: pr.rawValue(mp, a)})
-		}
-	}
-	return out
-}
+// Centring. Each value in Plan.Centres is shifted by its mean over the
+// units of its group (per variant; pooled in calibration, whose groups mix
+// the original variants) before the variance and covariance aggregates.
+// Shifting by a constant leaves variances and covariances unchanged,
+// Var(x − c) = Var(x), and keeps the engine's partial sums small, so the
+// result does not depend on how the engine splits and merges the work
+// (Chan, Golub & LeVeque 1983, "Algorithms for computing the sample
+// variance: analysis and recommendations", The American Statistician 37,
+// on shifted data). Centring within each variant keeps one arm's magnitude
+// from costing another arm its precision.
 
 // rawValue is a's per-unit value as aggregated, before centring.
 func (pr *printer) rawValue(mp *MetricPlan, a *AggPlan) string {
@@ -870,32 +810,23 @@ func (pr *printer) rawValue(mp *MetricPlan, a *AggPlan) string {
 // centred renders a's value minus its pooled centre (or the 0/1
 // indicator of a proportion covariate, which is not centred).
 func (pr *printer) centred(a *AggPlan) string {
-	mp := pr.metricOf(a)
-	if a == mp.Cov && mp.M.Covariate.Indicator {
-		return pr.covValue(mp)
+	mp := a.Metric
+	if a.Centre == "" {
+		return pr.rawValue(mp, a)
 	}
-	return "(" + pr.rawValue(mp, a) + " - c0." + pr.id("c_"+strings.TrimPrefix(a.Col, "m_")) + ")"
+	return "(" + pr.rawValue(mp, a) + " - c0." + pr.id(a.Centre) + ")"
 }
 
 // mean renders the mean of a's value as centre + mean of the centred
 // value; a group whose values are all equal gets that value exactly (so an
 // all-zero baseline is exactly zero).
 func (pr *printer) mean(a *AggPlan) string {
-	mp := pr.metricOf(a)
-	if a == mp.Cov && mp.M.Covariate.Indicator {
-		return "avg(" + pr.covValue(mp) + ")"
+	mp := a.Metric
+	if a.Centre == "" {
+		return "avg(" + pr.rawValue(mp, a) + ")"
 	}
 	raw := pr.rawValue(mp, a)
-	return "CASE WHEN min(" + raw + ") = max(" + raw + ") THEN min(" + raw + ") ELSE min(c0." + pr.id("c_"+strings.TrimPrefix(a.Col, "m_")) + ") + avg(" + pr.centred(a) + ") END"
-}
-
-func (pr *printer) metricOf(a *AggPlan) *MetricPlan {
-	for _, mp := range pr.p.Metrics {
-		if mp.M == a.Metric {
-			return mp
-		}
-	}
-	panic("compiler: aggregate without its metric")
+	return "CASE WHEN min(" + raw + ") = max(" + raw + ") THEN min(" + raw + ") ELSE min(c0." + pr.id(a.Centre) + ") + avg(" + pr.centred(a) + ") END"
 }
 
 // covValue renders a unit's covariate, NULL when the unit is not mature for
@@ -941,8 +872,8 @@ func (pr *printer) main() (string, error) {
 			segKeys = append(segKeys, g)
 		}
 	}
-	cents := pr.centres()
-	pr.units(p.HasCapQuant || len(segKeys) > 0 || len(cents) > 0)
+	cents := len(p.Centres) > 0
+	pr.units(p.HasCapQuant || len(segKeys) > 0 || cents)
 	if p.HasCapQuant {
 		pr.line(0, "-- Winsorising caps: pooled quantiles over mature units of all variants.")
 		pr.line(0, "caps AS (")
@@ -959,7 +890,7 @@ func (pr *printer) main() (string, error) {
 			pr.line(2, "%s%s", c, commaIf(i < len(cs)-1))
 		}
 		pr.line(1, "FROM unit_values AS u")
-		pr.line(0, ")%s", commaIf(len(segKeys) > 0 || len(cents) > 0))
+		pr.line(0, ")%s", commaIf(len(segKeys) > 0 || cents))
 	}
 	keyExpr := map[string]string{}
 	for _, g := range segKeys {
@@ -996,19 +927,30 @@ func (pr *printer) main() (string, error) {
 			alias := fmt.Sprintf("k%d", i+1)
 			pr.line(1, "LEFT JOIN %s AS %s ON %s.value = %s", pr.id("top_"+g.Segment.Name), alias, alias, pr.d.Text("u."+pr.id(g.Name)))
 		}
-		pr.line(0, ")%s", commaIf(len(cents) > 0))
+		pr.line(0, ")%s", commaIf(cents))
 	}
-	if len(cents) > 0 {
-		pr.line(0, "-- Centres: pooled means, subtracted before the variance and covariance aggregates so their")
-		pr.line(0, "-- partial sums stay small (numerically stable whatever the engine's merge order).")
+	if cents {
+		if p.CentrePerGroup {
+			pr.line(0, "-- Centres: each variant's means, subtracted before the variance and covariance aggregates so")
+			pr.line(0, "-- their partial sums stay small (numerically stable whatever the engine's merge order).")
+		} else {
+			pr.line(0, "-- Centres: pooled means (calibration groups mix the variants), subtracted before the variance")
+			pr.line(0, "-- and covariance aggregates so their partial sums stay small.")
+		}
 		pr.line(0, "centres AS (")
 		pr.line(1, "SELECT")
-		for i, c := range cents {
-			pr.line(2, "avg(%s) AS %s%s", c.expr, pr.id(c.name), commaIf(i < len(cents)-1))
+		if p.CentrePerGroup {
+			pr.line(2, "u.variant,")
+		}
+		for i, a := range p.Centres {
+			pr.line(2, "avg(%s) AS %s%s", pr.rawValue(a.Metric, a), pr.id(a.Centre), commaIf(i < len(p.Centres)-1))
 		}
 		pr.line(1, "FROM unit_values AS u")
 		if p.HasCapQuant {
 			pr.line(1, "CROSS JOIN caps AS k")
+		}
+		if p.CentrePerGroup {
+			pr.line(1, "GROUP BY u.variant")
 		}
 		pr.line(0, ")")
 	}
@@ -1035,102 +977,176 @@ func (pr *printer) main() (string, error) {
 		variantExpr = b.String()
 		keys = []string{"z.split", variantExpr}
 	}
+	groupExpr := map[string]string{}
 	for _, g := range p.GroupBy {
 		if g.Day {
-			keys = append(keys, "u.trigger_day")
+			groupExpr[g.Name] = "u.trigger_day"
 		} else {
-			keys = append(keys, keyExpr[g.Name])
+			groupExpr[g.Name] = keyExpr[g.Name]
 		}
 	}
-	pr.line(0, "SELECT")
-	pr.line(1, "%s AS %s,", pr.d.String(p.Spec.Fingerprint), ColFingerprint)
-	if p.Splits > 0 {
-		pr.line(1, "-- Calibration: each eligible unit is re-assigned at random in each of %d splits (salt %d), with the planned weights.", p.Splits, p.Salt)
-		pr.line(1, "z.split AS %s,", ColSplit)
-	}
-	pr.line(1, "%s AS %s,", variantExpr, ColVariant)
-	for _, g := range p.GroupBy {
-		if g.Day {
-			pr.line(1, "u.trigger_day AS %s,", KeyTriggerDay)
-		} else {
-			pr.line(1, "%s AS %s,", keyExpr[g.Name], pr.id(g.Name))
-		}
-	}
-	pr.line(1, "count(*) AS %s%s", ColUnits, commaIf(len(p.Metrics) > 0))
-	for i, mp := range p.Metrics {
-		m := mp.M
-		st := func(stat string) string { return pr.id(StatColumn(m.Name, stat)) }
-		var cols []string
-		col := func(expr, stat string) { cols = append(cols, expr+" AS "+st(stat)) }
-		pr.line(1, "-- %s (%s, %s): %s", oneLine(m.Name), m.Role, m.Kind, metricRule(mp))
-		col("count(CASE WHEN u."+mp.Mature+" THEN 1 END)", StatN)
-		var y string
-		switch m.Kind {
-		case metrics.KindRatio:
-			num, den := pr.centred(mp.Num), pr.centred(mp.Den)
-			col(pr.mean(mp.Num), StatNumMean)
-			col(pr.mean(mp.Den), StatDenMean)
-			col(pr.d.VarSamp(num), StatNumVar)
-			col(pr.d.VarSamp(den), StatDenVar)
-			col(pr.d.CovarSamp(num, den), StatCov)
-			if mp.Cov != nil {
-				x := pr.centred(mp.Cov)
-				cols = append(cols, "-- "+oneLine(m.Name)+" covariate: "+covRule(mp))
-				col(pr.mean(mp.Cov), StatXMean)
-				col(pr.d.VarSamp(x), StatXVar)
-				col(pr.d.CovarSamp(num, x), StatNumXCov)
-				col(pr.d.CovarSamp(den, x), StatDenXCov)
+	// selectList prints the SELECT list and FROM clause. Key columns hold
+	// their expression when only is "*" (GROUPING SETS: the engine NULLs the
+	// keys outside each grouping) or the key's name, and NULL otherwise.
+	selectList := func(only string) {
+		for _, c := range p.Columns {
+			switch c.Role {
+			case RoleSpecFingerprint:
+				pr.line(1, "%s AS %s,", pr.d.String(p.Spec.Fingerprint), pr.id(c.Name))
+			case RoleOptions:
+				pr.line(1, "%s AS %s,", pr.d.String(p.Options.Text()), pr.id(c.Name))
+			case RoleSplit:
+				pr.line(1, "-- Calibration: each eligible unit is re-assigned at random in each of %d splits (salt %d), with the planned weights.", p.Splits, p.Salt)
+				pr.line(1, "z.split AS %s,", pr.id(c.Name))
+			case RoleVariant:
+				pr.line(1, "%s AS %s,", variantExpr, pr.id(c.Name))
+			case RoleKey:
+				e := groupExpr[c.Name]
+				if only != "*" && only != c.Name {
+					e = "NULL"
+				}
+				pr.line(1, "%s AS %s,", e, pr.id(c.Name))
+			case RoleUnits:
+				pr.line(1, "count(*) AS %s%s", pr.id(c.Name), commaIf(len(p.Metrics) > 0))
 			}
-		case metrics.KindProportion:
-			y = pr.indicator(mp)
-		default:
-			y = pr.centred(mp.Value)
 		}
-		var bad []string
-		for _, a := range []*AggPlan{mp.Value, mp.Num, mp.Den} {
-			if a != nil && countsNonFinite(a) {
+		for i, mp := range p.Metrics {
+			pr.metricStats(mp, i == len(p.Metrics)-1)
+		}
+		pr.line(0, "FROM %s AS u", from)
+		if p.HasCapQuant {
+			pr.line(0, "CROSS JOIN caps AS k")
+		}
+		if cents {
+			if p.CentrePerGroup {
+				pr.line(0, "JOIN centres AS c0 ON c0.variant = u.variant")
+			} else {
+				pr.line(0, "CROSS JOIN centres AS c0")
+			}
+		}
+		if p.Splits > 0 {
+			pr.line(0, "CROSS JOIN %s", pr.d.(dialects.Resplitter).Splits(p.Splits))
+		}
+	}
+	order := []string{pr.id(ColVariant)}
+	if p.Splits > 0 {
+		order = []string{pr.id(ColSplit), pr.id(ColVariant)}
+	}
+	for _, g := range p.GroupBy {
+		order = append(order, pr.id(g.Name))
+	}
+	switch {
+	case len(p.GroupBy) == 0:
+		pr.line(0, "SELECT")
+		selectList("")
+		pr.line(0, "GROUP BY %s", strings.Join(keys, ", "))
+	case pr.unionGroupings():
+		// No GROUPING SETS on this engine: one SELECT per grouping over the
+		// same CTEs, stacked.
+		for i := -1; i < len(p.GroupBy); i++ {
+			only, ks := "", keys
+			if i >= 0 {
+				g := p.GroupBy[i]
+				only, ks = g.Name, append(append([]string{}, keys...), groupExpr[g.Name])
+				pr.line(0, "UNION ALL")
+				pr.line(0, "-- Broken down by %s.", oneLine(g.Label()))
+			} else {
+				pr.line(0, "-- Overall.")
+			}
+			pr.line(0, "SELECT")
+			selectList(only)
+			pr.line(0, "GROUP BY %s", strings.Join(ks, ", "))
+		}
+	default:
+		pr.line(0, "-- The overall rows and one set of rows per breakdown, from one pass over the units: in each")
+		pr.line(0, "-- grouping the keys it does not use are NULL.")
+		pr.line(0, "SELECT")
+		selectList("*")
+		sets := []string{"(" + strings.Join(keys, ", ") + ")"}
+		for _, g := range p.GroupBy {
+			sets = append(sets, "("+strings.Join(append(append([]string{}, keys...), groupExpr[g.Name]), ", ")+")")
+		}
+		pr.line(0, "GROUP BY GROUPING SETS (%s)", strings.Join(sets, ", "))
+	}
+	pr.line(0, "ORDER BY %s", strings.Join(order, ", "))
+	return pr.b.String(), pr.err
+}
+
+// unionGroupings reports whether breakdowns are printed as a UNION ALL of
+// one grouped SELECT per grouping (engines without GROUPING SETS).
+func (pr *printer) unionGroupings() bool {
+	_, ok := pr.d.(dialects.NoGroupingSets)
+	return ok
+}
+
+// metricStats prints the statistics columns of mp, in the order of
+// mp.Stats.
+func (pr *printer) metricStats(mp *MetricPlan, last bool) {
+	m := mp.M
+	pr.line(1, "-- %s (%s, %s): %s", oneLine(m.Name), m.Role, m.Kind, mp.Rule)
+	var y, num, den, x string
+	switch m.Kind {
+	case metrics.KindRatio:
+		num, den = pr.centred(mp.Num), pr.centred(mp.Den)
+	case metrics.KindProportion:
+		y = pr.indicator(mp)
+	default:
+		y = pr.centred(mp.Value)
+	}
+	if mp.Cov != nil {
+		x = pr.centred(mp.Cov)
+	}
+	for j, st := range mp.Stats {
+		var e string
+		switch st {
+		case StatN:
+			e = "count(CASE WHEN u." + mp.Mature + " THEN 1 END)"
+		case StatNumMean:
+			e = pr.mean(mp.Num)
+		case StatDenMean:
+			e = pr.mean(mp.Den)
+		case StatNumVar:
+			e = pr.d.VarSamp(num)
+		case StatDenVar:
+			e = pr.d.VarSamp(den)
+		case StatCov:
+			e = pr.d.CovarSamp(num, den)
+		case StatNonFinite:
+			var bad []string
+			for _, a := range mp.NonFinite {
 				bad = append(bad, "u."+pr.id(a.Col+"__nonfinite"))
 			}
-		}
-		if len(bad) > 0 {
-			col("sum("+strings.Join(bad, " + ")+")", StatNonFinite)
-		}
-		if y != "" {
+			e = "sum(" + strings.Join(bad, " + ") + ")"
+		case StatMean:
 			if m.Kind == metrics.KindProportion {
-				col("avg("+y+")", StatMean)
+				e = "avg(" + y + ")"
 			} else {
-				col(pr.mean(mp.Value), StatMean)
+				e = pr.mean(mp.Value)
 			}
-			col(pr.d.VarSamp(y), StatVar)
-			if mp.Cov != nil {
-				x := pr.centred(mp.Cov)
-				cols = append(cols, "-- "+oneLine(m.Name)+" covariate: "+covRule(mp))
-				col(pr.mean(mp.Cov), StatXMean)
-				col(pr.d.VarSamp(x), StatXVar)
-				col(pr.d.CovarSamp(y, x), StatYXCov)
-			}
+		case StatVar:
+			e = pr.d.VarSamp(y)
+		case StatXMean:
+			pr.line(1, "-- %s covariate: %s", oneLine(m.Name), mp.CovRule)
+			e = pr.mean(mp.Cov)
+		case StatXVar:
+			e = pr.d.VarSamp(x)
+		case StatYXCov:
+			e = pr.d.CovarSamp(y, x)
+		case StatNumXCov:
+			e = pr.d.CovarSamp(num, x)
+		case StatDenXCov:
+			e = pr.d.CovarSamp(den, x)
+		default:
+			pr.fail(fmt.Errorf("compiler: no SQL for statistic %s", st))
 		}
-		for j, c := range cols {
-			if strings.HasPrefix(c, "-- ") {
-				pr.line(1, "%s", c)
-				continue
-			}
-			pr.line(1, "%s%s", c, commaIf(j < len(cols)-1 || i < len(p.Metrics)-1))
-		}
+		pr.line(1, "%s AS %s%s", e, pr.id(mp.Column(st)), commaIf(j < len(mp.Stats)-1 || !last))
 	}
-	pr.line(0, "FROM %s AS u", from)
-	if p.HasCapQuant {
-		pr.line(0, "CROSS JOIN caps AS k")
+}
+
+func (pr *printer) fail(err error) {
+	if pr.err == nil {
+		pr.err = err
 	}
-	if len(cents) > 0 {
-		pr.line(0, "CROSS JOIN centres AS c0")
-	}
-	if p.Splits > 0 {
-		pr.line(0, "CROSS JOIN %s", pr.d.(dialects.Resplitter).Splits(p.Splits))
-	}
-	pr.line(0, "GROUP BY %s", strings.Join(keys, ", "))
-	pr.line(0, "ORDER BY %s", strings.Join(keys, ", "))
-	return pr.b.String(), pr.err
 }
 
 func metricRule(mp *MetricPlan) string {
@@ -1154,7 +1170,8 @@ func metricRule(mp *MetricPlan) string {
 	return fmt.Sprintf("mean per unit of %s%s; %s", aggRule(mp.Value), capNote(mp.Value), win)
 }
 
-// health prints the exposure and exclusion counts query.
+// health prints the exposure and exclusion counts query. Its rows and
+// columns are the plan's health contract (HealthColumns, HealthKind).
 func (pr *printer) health() (string, error) {
 	pr.b.Reset()
 	p := pr.p
@@ -1173,12 +1190,27 @@ func (pr *printer) health() (string, error) {
 	pr.line(0, "-- Exposure rows outside the analysis window, or without a unit or time.")
 	pr.line(0, "ignored_rows AS (")
 	pr.line(1, "SELECT")
-	pr.line(2, "count(CASE WHEN x.%s IS NULL THEN 1 END) AS null_unit,", pr.id(src.Unit))
-	pr.line(2, "count(CASE WHEN x.%s IS NULL THEN 1 END) AS null_time,", pr.id(src.Time))
+	pr.line(2, "count(CASE WHEN x.%s IS NULL THEN 1 END) AS %s,", pr.id(src.Unit), IgnoredNullUnit)
+	pr.line(2, "count(CASE WHEN x.%s IS NULL THEN 1 END) AS %s,", pr.id(src.Time), IgnoredNullTime)
 	t := pr.time(src, "x")
-	pr.line(2, "count(CASE WHEN %s < %s THEN 1 END) AS before_start,", t, us(p.StartUS))
-	pr.line(2, "count(CASE WHEN %s >= %s THEN 1 END) AS after_end", t, us(p.EndUS))
+	pr.line(2, "count(CASE WHEN %s < %s THEN 1 END) AS %s,", t, us(p.StartUS), IgnoredBeforeStart)
+	pr.line(2, "count(CASE WHEN %s >= %s THEN 1 END) AS %s", t, us(p.EndUS), IgnoredAfterEnd)
 	pr.line(1, "FROM %s AS x", pr.from(src))
+	pr.line(0, "),")
+	pr.line(0, "-- Exposure rows in the window without a variant: they count for the trigger time only.")
+	pr.line(0, "variantless_rows AS (")
+	pr.line(1, "SELECT count(*) - count(variant) AS %s FROM exposure_rows", IgnoredNullVariant)
+	pr.line(0, "),")
+	pr.line(0, "-- Undeclared variant values of triggered units, the %d with the most units.", UnknownVariantValues)
+	pr.line(0, "unknown_values AS (")
+	pr.line(1, "SELECT v.variant, v.units FROM (")
+	pr.line(2, "SELECT c.variant, count(*) AS units,")
+	pr.line(3, "row_number() OVER (ORDER BY count(*) DESC, c.variant) AS value_rank")
+	pr.line(2, "FROM cohort AS c")
+	pr.line(2, "WHERE c.is_unknown_variant AND c.variant IS NOT NULL AND NOT c.is_crossover")
+	pr.line(2, "GROUP BY c.variant")
+	pr.line(1, ") AS v")
+	pr.line(1, "WHERE v.value_rank <= %d", UnknownVariantValues)
 	outcome := pr.outcomeSources()
 	pr.line(0, ")%s", commaIf(len(outcome) > 0))
 	for i, o := range outcome {
@@ -1187,13 +1219,22 @@ func (pr *printer) health() (string, error) {
 		// count(*) - count(x) rather than a CASE per row: an engine that
 		// keeps NULL statistics per block (DuckDB does) answers it without
 		// reading a column that holds no NULLs.
-		pr.line(1, "SELECT count(*) - count(s.%s) AS null_unit, count(*) - count(s.%s) AS null_time", pr.id(o.Unit), pr.id(o.Time))
+		pr.line(1, "SELECT count(*) - count(s.%s) AS %s, count(*) - count(s.%s) AS %s", pr.id(o.Unit), IgnoredNullUnit, pr.id(o.Time), IgnoredNullTime)
 		pr.line(1, "FROM %s AS s", pr.from(o))
 		pr.line(0, ")%s", commaIf(i < len(outcome)-1))
 	}
-	pr.line(0, "SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (")
-	sel := func(kind, reason, variant, day, rows, units, from, where, group string) {
-		pr.line(1, "SELECT %s AS kind, %s AS reason, %s AS variant, %s AS day, %s AS row_count, %s AS unit_count", kind, reason, variant, day, rows, units)
+	hc := make([]string, len(HealthColumns))
+	for i, c := range HealthColumns {
+		hc[i] = "h." + c
+	}
+	pr.line(0, "SELECT %s FROM (", strings.Join(hc, ", "))
+	first := true
+	sel := func(kind HealthKind, reason, source, variant, day, rows, units, from, where, group string) {
+		if !first {
+			pr.line(1, "UNION ALL")
+		}
+		first = false
+		pr.line(1, "SELECT %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s", pr.d.String(string(kind)), HColKind, reason, HColReason, source, HColSource, variant, HColVariant, day, HColDay, rows, HColRows, units, HColUnits)
 		pr.line(1, "FROM %s", from)
 		if where != "" {
 			pr.line(1, "WHERE %s", where)
@@ -1204,36 +1245,29 @@ func (pr *printer) health() (string, error) {
 	}
 	q := pr.d.String
 	day := pr.d.Day("ts_us", p.TZ)
-	sel(q("exposures"), "NULL", "variant", day, "count(*)", "count(DISTINCT unit_id)", "exposure_rows", "", "variant, "+day)
-	pr.line(1, "UNION ALL")
-	sel(q("triggers"), "NULL", "variant", "trigger_day", "count(*)", "count(*)", "cohort", "", "variant, trigger_day")
-	pr.line(1, "UNION ALL")
-	sel(q("never_triggered"), "NULL", "NULL", "NULL", "count(*)", "count(*)", neverFrom, "u.trigger_us IS NULL", "")
-	reasons := []struct{ name, col string }{{"crossover", "is_crossover"}, {"unknown_variant", "is_unknown_variant"}}
-	for _, r := range p.Rules {
-		reasons = append(reasons, struct{ name, col string }{"rule:" + r.Name, pr.id("fails_" + r.Name)})
-	}
-	for _, r := range reasons {
-		pr.line(1, "UNION ALL")
-		sel(q("excluded"), q(r.name), "variant", "NULL", "count(*)", "count(*)", "cohort", r.col, "variant")
-	}
+	sel(HealthExposures, "NULL", "NULL", "variant", day, "count(*)", "count(DISTINCT unit_id)", "exposure_rows", "", "variant, "+day)
+	sel(HealthTriggers, "NULL", "NULL", "variant", "trigger_day", "count(*)", "count(*)", "cohort", "", "variant, trigger_day")
+	sel(HealthNeverTriggered, "NULL", "NULL", "NULL", "NULL", "count(*)", "count(*)", neverFrom, "u.trigger_us IS NULL", "")
 	var all []string
-	for _, r := range reasons {
-		all = append(all, r.col)
+	for _, x := range p.Exclusions {
+		sel(HealthExcluded, q(x.Reason), "NULL", "variant", "NULL", "count(*)", "count(*)", "cohort", pr.id(x.Flag), "variant")
+		all = append(all, pr.id(x.Flag))
 	}
-	pr.line(1, "UNION ALL")
-	sel(q("excluded"), q("any"), "variant", "NULL", "count(*)", "count(*)", "cohort", strings.Join(all, " OR "), "variant")
-	for _, ig := range []string{"null_unit", "null_time", "before_start", "after_end"} {
-		pr.line(1, "UNION ALL")
-		sel(q("ignored_rows"), q(ig), "NULL", "NULL", ig, "NULL", "ignored_rows", "", "")
+	sel(HealthExcluded, q(ExcludedAny), "NULL", "variant", "NULL", "count(*)", "count(*)", "cohort", strings.Join(all, " OR "), "variant")
+	for _, ig := range IgnoredExposureReasons {
+		from := "ignored_rows"
+		if ig == IgnoredNullVariant {
+			from = "variantless_rows"
+		}
+		sel(HealthIgnoredRows, q(ig), "NULL", "NULL", "NULL", ig, "NULL", from, "", "")
 	}
 	for i, o := range outcome {
-		for _, ig := range []string{"null_unit", "null_time"} {
-			pr.line(1, "UNION ALL")
-			sel(q("ignored_outcome_rows"), q(o.Name+":"+ig), "NULL", "NULL", ig, "NULL", fmt.Sprintf("nulls_%d", i+1), "", "")
+		for _, ig := range IgnoredOutcomeReasons {
+			sel(HealthOutcomeRows, q(ig), q(o.Name), "NULL", "NULL", ig, "NULL", fmt.Sprintf("nulls_%d", i+1), "", "")
 		}
 	}
+	sel(HealthUnknownVariant, "NULL", "NULL", "variant", "NULL", "units", "units", "unknown_values", "", "")
 	pr.line(0, ") AS h")
-	pr.line(0, "ORDER BY h.kind, h.reason, h.variant, h.day")
+	pr.line(0, "ORDER BY h.%s, h.%s, h.%s, h.%s, h.%s", HColKind, HColReason, HColSource, HColVariant, HColDay)
 	return pr.b.String(), pr.err
 }

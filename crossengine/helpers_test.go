@@ -44,6 +44,7 @@ import (
 	"github.com/assay-dev/assay/engine"
 	"github.com/assay-dev/assay/metrics"
 	"github.com/assay-dev/assay/report"
+	"github.com/assay-dev/assay/results"
 )
 
 // ---- fixtures ----
@@ -288,15 +289,16 @@ func writeSpec(t *testing.T, text string) string {
 	return p
 }
 
-// result compiles spec for e's dialect, runs both queries through the
+// result compiles spec for e's dialect with every segment as a breakdown
+// (GROUPING SETS, or UNION ALL on MySQL), runs both queries through the
 // engine package and returns the plan and the rows.
-func result(t *testing.T, e *engineRun, spec string) (*compiler.Plan, *engine.Result) {
+func result(t *testing.T, e *engineRun, spec string) (*compiler.Plan, *results.Set) {
 	t.Helper()
 	s, _, ds := metrics.LoadFile(spec)
 	if ds.HasErrors() {
 		t.Fatalf("%s: %v", spec, ds)
 	}
-	p, ds := compiler.Compile(s, compiler.Options{})
+	p, ds := compiler.Compile(s, compiler.Options{Breakdowns: compiler.DefaultBreakdowns(s)})
 	if ds.HasErrors() {
 		t.Fatalf("%v", ds)
 	}
@@ -304,7 +306,7 @@ func result(t *testing.T, e *engineRun, spec string) (*compiler.Plan, *engine.Re
 	if err != nil {
 		t.Fatal(err)
 	}
-	res, err := engine.Query(context.Background(), e.open(t), q, nil)
+	res, err := engine.Query(context.Background(), e.open(t), p, q, true)
 	if err != nil {
 		t.Fatalf("%s: query failed: %v", e.name, engine.CleanError(err))
 	}
@@ -343,13 +345,14 @@ func relClose(a, b, rel float64) bool {
 }
 
 // compareResults checks that got has the same per-variant aggregates as
-// want (relative difference below rel) and the same health counts.
-func compareResults(t *testing.T, name string, want, got *engine.Result, rel float64) {
+// want, overall and in every breakdown (relative difference below rel),
+// and the same health counts.
+func compareResults(t *testing.T, name string, want, got *results.Set, rel float64) {
 	t.Helper()
-	idx := func(rs []engine.Row) map[string]engine.Row {
-		m := map[string]engine.Row{}
+	idx := func(rs []results.Row) map[string]results.Row {
+		m := map[string]results.Row{}
 		for _, r := range rs {
-			m[r.Variant] = r
+			m[fmt.Sprintf("%d/%s/%s", r.Group, r.Key, r.Variant)] = r
 		}
 		return m
 	}
@@ -363,8 +366,8 @@ func compareResults(t *testing.T, name string, want, got *engine.Result, rel flo
 			t.Errorf("%s: no row for variant %q", name, v)
 			continue
 		}
-		if gr.Units != wr.Units || gr.Fingerprint != wr.Fingerprint {
-			t.Errorf("%s %s: units %d fingerprint %s, want %d %s (as on DuckDB)", name, v, gr.Units, gr.Fingerprint, wr.Units, wr.Fingerprint)
+		if gr.Units != wr.Units {
+			t.Errorf("%s %s: units %d, want %d (as on DuckDB)", name, v, gr.Units, wr.Units)
 		}
 		keys := make([]string, 0, len(wr.Stats))
 		for k := range wr.Stats {
@@ -381,6 +384,9 @@ func compareResults(t *testing.T, name string, want, got *engine.Result, rel flo
 				t.Errorf("%s %s %s: got %.17g, DuckDB %.17g (relative difference %.3g, limit %g)", name, v, k, gv, wr.Stats[k], math.Abs(gv-wr.Stats[k])/math.Abs(wr.Stats[k]), rel)
 			}
 		}
+	}
+	if want.SpecFingerprint != got.SpecFingerprint || want.Options != got.Options {
+		t.Errorf("%s: fingerprint and options %s %q, want %s %q", name, got.SpecFingerprint, got.Options, want.SpecFingerprint, want.Options)
 	}
 	if !reflect.DeepEqual(want.Health, got.Health) {
 		t.Errorf("%s: health rows differ from DuckDB's:\n got %v\nwant %v", name, got.Health, want.Health)
@@ -432,7 +438,7 @@ func compareTrees(t *testing.T, path string, want, got any, rel float64) {
 }
 
 // reportJSON is report.Analyze's JSON for a result, decoded.
-func reportJSON(t *testing.T, p *compiler.Plan, res *engine.Result) map[string]any {
+func reportJSON(t *testing.T, p *compiler.Plan, res *results.Set) map[string]any {
 	t.Helper()
 	rep, err := report.Analyze(p, res, report.Options{})
 	if err != nil {

@@ -100,6 +100,13 @@ type Inliner interface {
 	Inline() string
 }
 
+// NoGroupingSets is implemented by dialects whose engine has no GROUP BY
+// GROUPING SETS (MySQL, MariaDB): the compiler stacks one grouped SELECT per
+// breakdown with UNION ALL over the same CTEs instead.
+type NoGroupingSets interface {
+	UnionGroupings()
+}
+
 // Stager is implemented by dialects whose engine keeps a temporary table
 // for the length of a connection. assay then computes the cohort (every
 // exposed unit, its trigger, variant and exclusion reasons) once per run,

@@ -142,3 +142,7 @@ func (d MySQL) Expr(n expr.Node, col func(string) string) string {
 		},
 	})
 }
+
+// UnionGroupings implements NoGroupingSets: MySQL and MariaDB have ROLLUP
+// but not GROUPING SETS.
+func (MySQL) UnionGroupings() {}

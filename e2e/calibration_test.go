@@ -269,7 +269,7 @@ func TestSimulatedExperiments(t *testing.T) {
 
 func decodeReport3(out string) *report3 {
 	var r report3
-	if err := jsonUnmarshal(out, &r); err != nil || r.SchemaVersion != 1 {
+	if err := jsonUnmarshal(out, &r); err != nil || r.SchemaVersion != 2 {
 		return nil
 	}
 	return &r

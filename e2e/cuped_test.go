@@ -234,7 +234,18 @@ func checkMeanCUPED(t *testing.T, db *sql.DB, m *metric3, c *cmp3, units []cuped
 		rt = append(rt, yt[i]-th*xt[i])
 	}
 	nb, nt := float64(len(yb)), float64(len(yt))
-	se, df := welchRef(stat.Variance(rb, nil), nb, stat.Variance(rt, nil), nt)
+	sb2, st2 := stat.Variance(rb, nil), stat.Variance(rt, nil)
+	seKnown, df := welchRef(sb2, nb, st2, nt)
+	// θ is estimated: the pooled within-variant slope has the sandwich
+	// variance Var(θ̂) = (s²_b·Sxx_b + s²_t·Sxx_t)/(Sxx_b + Sxx_t)², with
+	// Sxx the within-variant sums of squares of X and s² the variances of
+	// Y − θX (White 1980, heteroskedasticity-consistent form), and the
+	// adjusted difference moves by θ̂·(X̄_t − X̄_b), adding
+	// (X̄_t − X̄_b)²·Var(θ̂) (delta method).
+	sxb, sxt := (nb-1)*stat.Variance(xb, nil), (nt-1)*stat.Variance(xt, nil)
+	vTheta := (sb2*sxb + st2*sxt) / ((sxb + sxt) * (sxb + sxt))
+	dx := stat.Mean(xt, nil) - stat.Mean(xb, nil)
+	se := math.Sqrt(seKnown*seKnown + dx*dx*vTheta)
 	seU, _ := welchRef(stat.Variance(yb, nil), nb, stat.Variance(yt, nil), nt)
 	seUSource := "gonum/stat variances of Y per variant, Welch SE"
 	if tc.metric == "buyer" {
@@ -256,7 +267,7 @@ func checkMeanCUPED(t *testing.T, db *sql.DB, m *metric3, c *cmp3, units []cuped
 		{"theta = OLS coefficient of X", theta, beta[2], 1e-9, "gonum/mat QR, Y ~ 1 + treatment + X"},
 		{"adjusted difference = ANCOVA treatment coefficient", f(c.Difference), diff, 1e-9, "gonum/mat QR, Y ~ 1 + treatment + X"},
 		{"variance_reduction = 1 − SE²adj/SE²unadj", f(c.CUPED.VarianceReduction), 1 - seAdj*seAdj/(seUnadj*seUnadj), 1e-9, "formula over the report's own standard errors"},
-		{"adjusted std_error", seAdj, se, 1e-9, "gonum/stat variances of Y − θX per variant, Welch SE"},
+		{"adjusted std_error", seAdj, se, 1e-9, "gonum/stat variances of Y − θX per variant, Welch SE, plus (X̄_t − X̄_b)²·Var(θ̂) (sandwich)"},
 		{"unadjusted std_error", seUnadj, seU, 1e-9, seUSource},
 		{"unadjusted difference", f(c.CUPED.Unadjusted.Difference), stat.Mean(yt, nil) - stat.Mean(yb, nil), 1e-9, "gonum/stat means of Y"},
 		{"df", f(c.DF), df, 1e-9, "Welch–Satterthwaite over the adjusted variances"},
@@ -264,9 +275,15 @@ func checkMeanCUPED(t *testing.T, db *sql.DB, m *metric3, c *cmp3, units []cuped
 		{"ci_low", f(c.CILow), diff - tq*se, 1e-9, "distuv.StudentsT quantile 0.975"},
 		{"ci_high", f(c.CIHigh), diff + tq*se, 1e-9, "distuv.StudentsT quantile 0.975"},
 		{"covariate_mean", f(c.CUPED.CovariateMean), muX, 1e-9, "gonum/stat mean of X over all mature units"},
-		{"adjusted_value control", f(base.AdjustedValue), stat.Mean(yb, nil) - th*(stat.Mean(xb, nil)-muX), 1e-9, "Ȳ − θ(X̄ − μX), gonum/stat"},
-		{"adjusted_value treatment", f(treat.AdjustedValue), stat.Mean(yt, nil) - th*(stat.Mean(xt, nil)-muX), 1e-9, "Ȳ − θ(X̄ − μX), gonum/stat"},
-		{"adjusted_std_error treatment", f(treat.AdjustedStdError), math.Sqrt(stat.Variance(rt, nil) / nt), 1e-9, "gonum/stat variance of Y − θX"},
+		{"cuped baseline_value", f(c.CUPED.BaselineValue), stat.Mean(yb, nil) - th*(stat.Mean(xb, nil)-muX), 1e-9, "Ȳ − θ(X̄ − μX), gonum/stat"},
+		{"cuped variant_value", f(c.CUPED.VariantValue), stat.Mean(yt, nil) - th*(stat.Mean(xt, nil)-muX), 1e-9, "Ȳ − θ(X̄ − μX), gonum/stat"},
+		// Per arm, θ̂ and μ̂X are estimated too: Var = s²/n + e²·Var(θ̂) +
+		// θ²·Var(μ̂X) + 2θ·Cov(Y − θX, X)/N, e = X̄ − μ̂X, Var(μ̂X) =
+		// (n_b·s²x_b + n_t·s²x_t)/N² (delta method over the three
+		// estimates).
+		{"cuped variant_std_error", f(c.CUPED.VariantStdError), math.Sqrt(st2/nt + math.Pow(stat.Mean(xt, nil)-muX, 2)*vTheta +
+			th*th*(nb*stat.Variance(xb, nil)+nt*stat.Variance(xt, nil))/((nb+nt)*(nb+nt)) +
+			2*th*(stat.Covariance(yt, xt, nil)-th*stat.Variance(xt, nil))/(nb+nt)), 1e-9, "delta method over θ̂, μ̂X and the arm mean, gonum/stat"},
 	})
 	if c.Method != "cuped-welch-t" {
 		t.Errorf("method: got %q, want %q", c.Method, "cuped-welch-t")
@@ -318,14 +335,19 @@ func checkRatioCUPED(t *testing.T, m *metric3, c *cmp3, units []cupedUnit) {
 		vr[int(tr)] = stat.Variance(res, nil)
 		ns[int(tr)] = float64(len(res))
 	}
-	se := math.Sqrt(vr[0]/ns[0] + vr[1]/ns[1])
-	diff := (R[1] - R[0]) - th*(stat.Mean(g[1].x, nil)-stat.Mean(g[0].x, nil))
+	// θ is estimated: sandwich variance of the pooled slope and the delta
+	// method for its effect on the difference, as in checkMeanCUPED.
+	sx0, sx1 := (ns[0]-1)*stat.Variance(g[0].x, nil), (ns[1]-1)*stat.Variance(g[1].x, nil)
+	vTheta := (vr[0]*sx0 + vr[1]*sx1) / ((sx0 + sx1) * (sx0 + sx1))
+	dx := stat.Mean(g[1].x, nil) - stat.Mean(g[0].x, nil)
+	se := math.Sqrt(vr[0]/ns[0] + vr[1]/ns[1] + dx*dx*vTheta)
+	diff := (R[1] - R[0]) - th*dx
 	z := distuv.UnitNormal.Quantile(0.975)
 	seUnadj := f(c.CUPED.Unadjusted.StdError)
 	runChecks(t, []check3{
 		{"theta = within-variant OLS slope of l on x", f(c.CUPED.Theta), th, 1e-9, "gonum/mat QR of the linearised ratio on (1, treatment, x)"},
 		{"adjusted difference", f(c.Difference), diff, 1e-9, "(R_t − R_b) − θ(x̄_t − x̄_b), gonum/stat"},
-		{"adjusted std_error", f(c.StdError), se, 1e-9, "gonum/stat variances of l − θx per variant"},
+		{"adjusted std_error", f(c.StdError), se, 1e-9, "gonum/stat variances of l − θx per variant, plus (x̄_t − x̄_b)²·Var(θ̂) (sandwich)"},
 		{"p_value", f(c.PValue), normTwoSided(diff / se), 1e-9, "distuv.UnitNormal, two-sided"},
 		{"ci_low", f(c.CILow), diff - z*se, 1e-9, "distuv.UnitNormal quantile 0.975"},
 		{"unadjusted difference", f(c.CUPED.Unadjusted.Difference), R[1] - R[0], 1e-9, "ratio of gonum/stat means"},

@@ -266,46 +266,65 @@ func TestGuards(t *testing.T) {
 	for _, tc := range []struct {
 		metric, harmful, verdict string
 	}{
-		{"errors", "increase", "harm shown"},     // planted +50% against a 5% margin
-		{"crashes", "increase", "no harm shown"}, // no change, relative SE about 0.007
-		{"views", "decrease", "no harm shown"},   // no change, relative SE about 0.007
+		{"errors", "increase", "harm beyond margin"},     // planted +50% against a 5% margin
+		{"crashes", "increase", "no harm beyond margin"}, // no change, relative SE about 0.007
+		{"views", "decrease", "no harm beyond margin"},   // no change, relative SE about 0.007
 	} {
 		t.Run(tc.metric, func(t *testing.T) {
-			c := rep.metric(t, tc.metric).cmp(t, "treatment")
+			m := rep.metric(t, tc.metric)
+			c := m.cmp(t, "treatment")
 			if c.Guard == nil {
 				t.Fatal("no guard block")
 			}
 			if c.Guard.Verdict != tc.verdict {
-				t.Errorf("verdict: got %q, want %q (relative %v, CI %v to %v)", c.Guard.Verdict, tc.verdict, f(c.Relative), f(c.RelativeCILow), f(c.RelativeCIHigh))
+				t.Errorf("verdict: got %q, want %q (relative %v, one-sided bounds %v to %v)", c.Guard.Verdict, tc.verdict, f(c.Relative), f(c.Guard.Lower), f(c.Guard.Upper))
 			}
 			const margin = 0.05
-			rel, lo, hi := f(c.Relative), f(c.RelativeCILow), f(c.RelativeCIHigh)
-			se := (hi - lo) / (2 * z975) // Source: SE from a symmetric 95% normal interval (Altman & Bland 2011)
-			nd := distuv.UnitNormal
-			wantP, wantBound := nd.CDF((rel-margin)/se), rel+z95*se // non-inferiority, harm = increase
+			// Fieller's bounds for ρ = μ_t/μ_b at one-sided 95% (Fieller
+			// 1954): the roots of (b̄² − q²s_b²)ρ² − 2·t̄·b̄·ρ + (t̄² − q²s_t²) = 0,
+			// q the t quantile 0.95 at the comparison's Welch df, minus 1.
+			bv, tv := variantOf(t, m.Variants, "control"), variantOf(t, m.Variants, "treatment")
+			mb, sb, mt, st := f(bv.Value), f(bv.StdError), f(tv.Value), f(tv.StdError)
+			tdist := distuv.StudentsT{Mu: 0, Sigma: 1, Nu: f(c.DF)}
+			q := tdist.Quantile(0.95)
+			qa, qb, qc := mb*mb-q*q*sb*sb, -2*mt*mb, mt*mt-q*q*st*st
+			disc := math.Sqrt(qb*qb - 4*qa*qc)
+			lo, hi := (-qb-disc)/(2*qa)-1, (-qb+disc)/(2*qa)-1
+			// Non-inferiority p-value: the Fieller pivot at ρ0 = 1 ± margin.
+			rho0, sign := 1+margin, 1.0
+			if tc.harmful == "decrease" {
+				rho0, sign = 1-margin, -1
+			}
+			wantP := tdist.CDF(sign * (mt - rho0*mb) / math.Sqrt(st*st+rho0*rho0*sb*sb))
+			wantBound := hi
+			// The verdict rule, written out: harm is "increase" here, or
+			// "decrease" mapped onto it by flipping signs.
+			l, h := lo, hi
+			if tc.harmful == "decrease" {
+				wantBound, l, h = lo, -hi, -lo
+			}
 			verdict := "inconclusive"
 			switch {
-			case lo > margin:
-				verdict = "harm shown"
-			case wantBound < margin:
-				verdict = "no harm shown"
-			}
-			if tc.harmful == "decrease" {
-				wantP, wantBound = nd.CDF((-margin-rel)/se), rel-z95*se
-				verdict = "inconclusive"
-				switch {
-				case hi < -margin:
-					verdict = "harm shown"
-				case wantBound > -margin:
-					verdict = "no harm shown"
-				}
+			case l > margin:
+				verdict = "harm beyond margin"
+			case l > 0 && h >= margin:
+				verdict = "harm shown, margin not ruled out"
+			case l > 0:
+				verdict = "harm shown, within margin"
+			case h < margin:
+				verdict = "no harm beyond margin"
 			}
 			runChecks(t, []check3{
-				{"one-sided p_value", f(c.Guard.PValue), wantP, 1e-6, "Φ((rel − margin)/se) with se from the relative CI, distuv.UnitNormal"},
-				{"bound", f(c.Guard.Bound), wantBound, 1e-6, "rel ± z_0.95·se, z from a normal table"},
+				{"one-sided lower bound", f(c.Guard.Lower), lo, 1e-6, "Fieller 1954 roots, distuv.StudentsT quantile 0.95"},
+				{"one-sided upper bound", f(c.Guard.Upper), hi, 1e-6, "Fieller 1954 roots, distuv.StudentsT quantile 0.95"},
+				{"one-sided p_value", f(c.Guard.PValue), wantP, 1e-6, "Fieller pivot at 1 ± margin, distuv.StudentsT"},
+				{"bound", f(c.Guard.Bound), wantBound, 1e-6, "the Fieller bound on the harmful side"},
 			})
 			if c.Guard.Verdict != verdict {
-				t.Errorf("verdict: got %q, want %q from the interval against the margin (Source: rule written out in the test)", c.Guard.Verdict, verdict)
+				t.Errorf("verdict: got %q, want %q from the bounds against 0 and the margin (Source: rule written out in the test)", c.Guard.Verdict, verdict)
+			}
+			if c.Guard.Alarming != (verdict == "harm beyond margin" || verdict == "harm shown, margin not ruled out") {
+				t.Errorf("alarming: got %v for verdict %q", c.Guard.Alarming, verdict)
 			}
 			if c.Family != "guard" || !near(f(c.PValueAdjusted), f(c.PValue), 0) {
 				t.Errorf("guard family: got %q, p_value_adjusted %v, want \"guard\", unadjusted %v", c.Family, f(c.PValueAdjusted), f(c.PValue))

@@ -232,27 +232,34 @@ type srm3 struct {
 }
 
 type variant3 struct {
-	Variant          string `json:"variant"`
-	N                int64  `json:"n"`
-	Immature         int64  `json:"immature"`
-	Value            num    `json:"value"`
-	StdError         num    `json:"std_error"`
-	AdjustedValue    num    `json:"adjusted_value"`
-	AdjustedStdError num    `json:"adjusted_std_error"`
+	Variant  string `json:"variant"`
+	N        int64  `json:"n"`
+	Immature int64  `json:"immature"`
+	Value    num    `json:"value"`
+	StdError num    `json:"std_error"`
 }
 
 type guard3 struct {
-	Verdict string `json:"verdict"`
-	PValue  num    `json:"p_value"`
-	Bound   num    `json:"bound"`
-	Reason  string `json:"reason"`
+	Verdict    string `json:"verdict"`
+	Alarming   bool   `json:"alarming"`
+	Lower      num    `json:"relative_lower"`
+	Upper      num    `json:"relative_upper"`
+	PValue     num    `json:"p_value"`
+	HarmPValue num    `json:"harm_p_value"`
+	Bound      num    `json:"bound"`
+	Reason     string `json:"reason"`
 }
 
 type cuped3 struct {
-	Theta             num  `json:"theta"`
-	CovariateMean     num  `json:"covariate_mean"`
-	VarianceReduction num  `json:"variance_reduction"`
-	Unadjusted        cmp3 `json:"unadjusted"`
+	Theta             num    `json:"theta"`
+	CovariateMean     num    `json:"covariate_mean"`
+	VarianceReduction num    `json:"variance_reduction"`
+	BaselineValue     num    `json:"baseline_value"`
+	BaselineStdError  num    `json:"baseline_std_error"`
+	VariantValue      num    `json:"variant_value"`
+	VariantStdError   num    `json:"variant_std_error"`
+	Unadjusted        cmp3   `json:"unadjusted"`
+	NotApplied        string `json:"not_applied"`
 }
 
 type cmp3 struct {

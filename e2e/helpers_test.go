@@ -226,8 +226,8 @@ func decodeReport(t testing.TB, b []byte) *report {
 	if err := dec.Decode(&r); err != nil {
 		t.Fatalf("decode JSON report: %v\n%s", err, b)
 	}
-	if r.SchemaVersion != 1 {
-		t.Fatalf("schema_version: got %v, want 1", r.SchemaVersion)
+	if r.SchemaVersion != 2 {
+		t.Fatalf("schema_version: got %v, want 2", r.SchemaVersion)
 	}
 	return &r
 }

@@ -11,6 +11,7 @@ import (
 	"github.com/assay-dev/assay/dialects"
 	"github.com/assay-dev/assay/engine"
 	"github.com/assay-dev/assay/metrics"
+	"github.com/assay-dev/assay/results"
 )
 
 // demoEngine loads the demo spec and opens assay's DuckDB engine on its
@@ -49,20 +50,13 @@ func TestStagedCohortSameResults(t *testing.T) {
 	if _, ok := duck.(dialects.Stager); !ok {
 		t.Fatal("the DuckDB dialect does not stage the cohort")
 	}
-	groupings := [][]string{nil}
-	for _, seg := range s.Segments {
-		groupings = append(groupings, []string{seg.Name})
-	}
+	groupings := [][]string{nil, compiler.DefaultBreakdowns(s), {compiler.KeyTriggerDay}}
 	for _, by := range groupings {
-		p, ds := compiler.Compile(s, compiler.Options{GroupBy: by})
+		p, ds := compiler.Compile(s, compiler.Options{Breakdowns: by})
 		if ds.HasErrors() {
 			t.Fatal(ds)
 		}
-		var keys []string
-		for _, g := range p.GroupBy {
-			keys = append(keys, g.Name)
-		}
-		run := func(d dialects.Dialect) *engine.Result {
+		run := func(d dialects.Dialect) *results.Set {
 			q, err := compiler.Print(p, d)
 			if err != nil {
 				t.Fatal(err)
@@ -70,7 +64,7 @@ func TestStagedCohortSameResults(t *testing.T) {
 			if _, staged := d.(dialects.Stager); staged != (q.Setup != "") {
 				t.Fatalf("%T: setup %q", d, q.Setup)
 			}
-			res, err := engine.Query(context.Background(), db, q, keys)
+			res, err := engine.Query(context.Background(), db, p, q, true)
 			if err != nil {
 				t.Fatalf("%v: %v", by, engine.CleanError(err))
 			}
@@ -85,14 +79,9 @@ func TestStagedCohortSameResults(t *testing.T) {
 		}
 		for i, a := range staged.Rows {
 			b := plain.Rows[i]
-			if a.Variant != b.Variant || a.Units != b.Units || len(a.Stats) != len(b.Stats) || len(a.Keys) != len(b.Keys) {
-				t.Errorf("%v row %d: staged %s/%d, one statement %s/%d", by, i, a.Variant, a.Units, b.Variant, b.Units)
+			if a.Variant != b.Variant || a.Units != b.Units || len(a.Stats) != len(b.Stats) || a.Group != b.Group || a.Key != b.Key {
+				t.Errorf("%v row %d: staged %s/%d/%d/%s, one statement %s/%d/%d/%s", by, i, a.Variant, a.Units, a.Group, a.Key, b.Variant, b.Units, b.Group, b.Key)
 				continue
-			}
-			for k, v := range a.Keys {
-				if b.Keys[k] != v {
-					t.Errorf("%v row %d key %s: staged %q, one statement %q", by, i, k, v, b.Keys[k])
-				}
 			}
 			for k, v := range a.Stats {
 				if w, ok := b.Stats[k]; !ok || !sameStat(v, w) {
@@ -131,7 +120,7 @@ func TestStagedCohortCleanedUp(t *testing.T) {
 		}
 		return n
 	}
-	if _, err := engine.Query(context.Background(), db, q, nil); err != nil {
+	if _, err := engine.Query(context.Background(), db, p, q, true); err != nil {
 		t.Fatal(err)
 	}
 	if n := temps(); n != 0 {
@@ -139,7 +128,7 @@ func TestStagedCohortCleanedUp(t *testing.T) {
 	}
 	bad := q
 	bad.Health = "SELECT no_such_column FROM " + duck.(dialects.Stager).TempRef(compiler.StagedTable)
-	if _, err := engine.Query(context.Background(), db, bad, nil); err == nil {
+	if _, err := engine.Query(context.Background(), db, p, bad, true); err == nil {
 		t.Fatal("a failing health query reported no error")
 	}
 	if n := temps(); n != 0 {

@@ -337,7 +337,10 @@ filter = "tier = 'gold'"
 				{"t2", "treatment", ts("2026-03-05 00:00:00"), "home"},
 				{"t2", "control", ts("2026-03-05 00:00:00"), "home"}, // same instant: the least variant, control
 				{"t3", nil, ts("2026-03-03 00:00:00"), "home"},       // trigger without a variant
-				{"t3", "control", ts("2026-03-06 00:00:00"), "home"},
+				{"t3", "control", ts("2026-03-06 00:00:00"), "home"}, // the only variant seen: control
+				{"t5", "control", ts("2026-03-03 00:00:00"), "home"},
+				{"t5", nil, ts("2026-03-04 00:00:00"), "home"}, // a later row without a variant: still control
+				{"t6", nil, ts("2026-03-03 00:00:00"), "home"}, // never seen with a variant: unknown
 				{"t4", "control", ts("2026-03-03 00:00:00"), "home"},
 				{"t4", nil, ts("2026-03-03 00:00:00"), "home"}, // same instant as a control row: control
 				{"u1", "treatment", ts("2026-03-03 00:00:00"), "home"},
@@ -352,20 +355,26 @@ filter = "tier = 'gold'"
 				{"c1", ts("2026-03-03 01:00:00"), 32.0},
 			},
 			check: func(t *testing.T, r *report) {
-				// Eligible: control t4 + c1 = 8 + 32 = 40; treatment u1 = 16.
+				// One rule, whatever the order (README, "Triggers and
+				// variants"): rows without a variant count for the trigger
+				// time and never decide the variant. Eligible: control t3 +
+				// t4 + t5 + c1 = 4 + 8 + 0 + 32 = 44; treatment u1 = 16.
 				// Crossovers (seen in two variants, any surface): t1
 				// (triggered in treatment), t2 (tie at its trigger, the least
-				// variant: control). t3's trigger row has no variant: it is
+				// variant: control). t6 was never seen with a variant: it is
 				// excluded as an unknown variant, not silently dropped.
 				checkWants(t, r, []want{
-					{"w14", "control", 2, 40, 0},
+					{"w14", "control", 4, 44, 0},
 					{"w14", "treatment", 1, 16, 0},
 				})
 				checkExclusion(t, r, "crossover", 2, map[string]int64{"control": 1, "treatment": 1})
 				checkExclusion(t, r, "unknown_variant", 1, nil)
 				checkExclusion(t, r, "any", 3, map[string]int64{"control": 1, "treatment": 1})
-				checkUnits(t, r, "control", 3, 2)
+				checkUnits(t, r, "control", 5, 4)
 				checkUnits(t, r, "treatment", 2, 1)
+				if n := r.Health.IgnoredRows["null_variant"]; n != 4 {
+					t.Errorf("exposure rows without a variant: got %d, want 4 (t3, t4, t5, t6)", n)
+				}
 			},
 		},
 		{

@@ -12,16 +12,22 @@ import (
 	"strconv"
 	"strings"
 	"time"
+	"unicode"
 
 	"github.com/assay-dev/assay/compiler"
-	"github.com/assay-dev/assay/engine"
 	"github.com/assay-dev/assay/metrics"
+	"github.com/assay-dev/assay/results"
 	"github.com/assay-dev/assay/stats"
 )
 
 // SchemaVersion is the version of the JSON report contract. It changes
-// only when a field is removed or changes meaning.
-const SchemaVersion = 1
+// only when a field is removed or changes meaning. Version 2: CUPED-adjusted
+// values moved from each variant to each comparison (cuped.baseline_value,
+// cuped.variant_value and their standard errors, pooled within the compared
+// pair); experiment gains compile_options, fingerprint and breakdowns;
+// health gains available, unknown_variants and ignored_outcome_rows keyed
+// by source; segments come from the run's own grouped rows.
+const SchemaVersion = 2
 
 // SRMAlpha is the default alarm threshold of the sample-ratio check (common practice).
 const SRMAlpha = 0.001
@@ -61,16 +67,21 @@ type Report struct {
 
 // Experiment describes what was analysed.
 type Experiment struct {
-	ID              string    `json:"id"`
-	Hypothesis      string    `json:"hypothesis"`
-	Unit            string    `json:"unit"`
-	Start           string    `json:"start"`
-	End             string    `json:"end"`
-	AsOf            string    `json:"as_of"`
-	TimeZone        string    `json:"time_zone"`
-	Confidence      float64   `json:"confidence"`
-	SpecFingerprint string    `json:"spec_fingerprint"`
-	Variants        []Variant `json:"variants"`
+	ID              string  `json:"id"`
+	Hypothesis      string  `json:"hypothesis"`
+	Unit            string  `json:"unit"`
+	Start           string  `json:"start"`
+	End             string  `json:"end"`
+	AsOf            string  `json:"as_of"`
+	TimeZone        string  `json:"time_zone"`
+	Confidence      float64 `json:"confidence"`
+	SpecFingerprint string  `json:"spec_fingerprint"`
+	// CompileOptions are the options the numbers were computed with
+	// (compiler.Options.Text), and Fingerprint covers the spec and them.
+	CompileOptions string    `json:"compile_options"`
+	Fingerprint    string    `json:"fingerprint"`
+	Breakdowns     []string  `json:"breakdowns"`
+	Variants       []Variant `json:"variants"`
 }
 
 // Variant is one arm with its planned weight and counts.
@@ -80,10 +91,15 @@ type Variant struct {
 	PlannedWeight  float64 `json:"planned_weight"`
 	TriggeredUnits int64   `json:"triggered_units"`
 	EligibleUnits  int64   `json:"eligible_units"`
+	// EligibleShare is the variant's share of all eligible units.
+	EligibleShare Num `json:"eligible_share"`
 }
 
 // Health holds the checks a reader needs before trusting any effect.
 type Health struct {
+	// Available is false when the health result was not given (assay
+	// analyze without --health): the counts below are then unknown, not zero.
+	Available      bool             `json:"available"`
 	ExposedUnits   int64            `json:"exposed_units"`
 	NeverTriggered int64            `json:"never_triggered_units"`
 	Triggered      int64            `json:"triggered_units"`
@@ -101,6 +117,18 @@ type Health struct {
 	// CrossoverRateExposed is crossovers over all exposed units.
 	CrossoverRateExposed Num     `json:"crossover_rate_of_exposed"`
 	Daily                []Daily `json:"daily"`
+	// UnknownVariants are the undeclared variant values seen on triggered
+	// units, the most frequent first (at most compiler.UnknownVariantValues).
+	UnknownVariants []UnknownVariant `json:"unknown_variants"`
+}
+
+// UnknownVariant is an undeclared variant value with its triggered units
+// and, when it differs from a declared name only in case, spaces or
+// punctuation, that name.
+type UnknownVariant struct {
+	Value    string `json:"value"`
+	Units    int64  `json:"units"`
+	Suggests string `json:"suggests,omitempty"`
 }
 
 // DailySRM is the per-day sample-ratio check on triggered units.
@@ -161,7 +189,10 @@ type MetricInfo struct {
 	Covariate *CovInfo  `json:"covariate,omitempty"`
 	// NonFiniteRows counts outcome rows whose value was NaN or infinite;
 	// they are left out of the sums.
-	NonFiniteRows int64        `json:"nonfinite_rows"`
+	NonFiniteRows int64 `json:"nonfinite_rows"`
+	// ImmatureUnits counts eligible units left out of the metric in every
+	// variant because its window had not elapsed by the as-of time.
+	ImmatureUnits int64        `json:"immature_units"`
 	Variants      []VariantVal `json:"variants"`
 	Comparisons   []Compare    `json:"comparisons"`
 }
@@ -173,12 +204,22 @@ type CovInfo struct {
 	Rule   string    `json:"rule"`
 }
 
-// CUPEDInfo is the regression adjustment behind an adjusted comparison.
+// CUPEDInfo is the regression adjustment behind an adjusted comparison:
+// the CUPED-adjusted mean of each arm of the pair and the comparison
+// without adjustment. (Named "cuped" throughout so that it cannot be taken
+// for a p-value adjusted for multiple testing.)
 type CUPEDInfo struct {
 	Theta             Num     `json:"theta"`
 	CovariateMean     Num     `json:"covariate_mean"`
 	VarianceReduction Num     `json:"variance_reduction"`
+	BaselineValue     Num     `json:"baseline_value"`
+	BaselineStdError  Num     `json:"baseline_std_error"`
+	VariantValue      Num     `json:"variant_value"`
+	VariantStdError   Num     `json:"variant_std_error"`
 	Unadjusted        Compare `json:"unadjusted"`
+	// NotApplied says why no adjustment was made (the comparison shown is
+	// then the unadjusted one).
+	NotApplied string `json:"not_applied,omitempty"`
 }
 
 // VariantVal is a metric's value in one variant.
@@ -189,9 +230,6 @@ type VariantVal struct {
 	Value    Num    `json:"value"`
 	StdError Num    `json:"std_error"`
 	Reason   string `json:"reason,omitempty"`
-	// Adjusted values are set for metrics with a CUPED covariate.
-	AdjustedValue    *Num `json:"adjusted_value,omitempty"`
-	AdjustedStdError *Num `json:"adjusted_std_error,omitempty"`
 }
 
 // Compare is a treatment variant against the baseline.
@@ -206,9 +244,13 @@ type Compare struct {
 	Relative       Num    `json:"relative"`
 	RelativeCILow  Num    `json:"relative_ci_low"`
 	RelativeCIHigh Num    `json:"relative_ci_high"`
-	Statistic      Num    `json:"statistic"`
-	DF             Num    `json:"df"`
-	PValue         Num    `json:"p_value"`
+	// RelativeShape is the shape of the Fieller relative set: "bounded",
+	// "unbounded" (a half-line or the whole line) or "complement" (the line
+	// minus an interval, whose ends are then null here).
+	RelativeShape string `json:"relative_shape,omitempty"`
+	Statistic     Num    `json:"statistic"`
+	DF            Num    `json:"df"`
+	PValue        Num    `json:"p_value"`
 	// PValueAdjusted is PValue adjusted for multiple testing within Family.
 	PValueAdjusted Num        `json:"p_value_adjusted"`
 	Family         string     `json:"family"`
@@ -229,12 +271,26 @@ type SeqInfo struct {
 	Reason string `json:"reason,omitempty"`
 }
 
-// Guard is a guard metric's verdict for one comparison.
+// Guard is a guard metric's verdict for one comparison, decided at one
+// one-sided level (the spec's confidence) in both directions: whether harm
+// is shown (against no change) and whether harm beyond the margin is ruled
+// out (non-inferiority), from the same Fieller relative bounds.
 type Guard struct {
 	Verdict string `json:"verdict"`
-	PValue  Num    `json:"p_value"` // one-sided non-inferiority p-value
-	Bound   Num    `json:"bound"`   // one-sided bound on the harmful side
-	Reason  string `json:"reason,omitempty"`
+	// Alarming is set for harm beyond the margin, or harm shown with the
+	// margin not ruled out.
+	Alarming bool `json:"alarming"`
+	// Level is the one-sided confidence level of Lower and Upper.
+	Level float64 `json:"level"`
+	Lower Num     `json:"relative_lower"` // one-sided lower bound of the relative change
+	Upper Num     `json:"relative_upper"` // one-sided upper bound
+	// PValue is the one-sided non-inferiority p-value (harm beyond the
+	// margin ruled out when below 1 − level); HarmPValue the one-sided
+	// p-value of "no change" in the harmful direction.
+	PValue     Num    `json:"p_value"`
+	HarmPValue Num    `json:"harm_p_value"`
+	Bound      Num    `json:"bound"` // the bound on the harmful side
+	Reason     string `json:"reason,omitempty"`
 }
 
 // Options change how the report is computed.
@@ -270,43 +326,47 @@ func adjust(method string, p []float64) []float64 {
 	return stats.Holm(p)
 }
 
-// Analyze builds the report from the plan and the engine's rows. The rows
-// must be ungrouped (one per variant).
-func Analyze(p *compiler.Plan, res *engine.Result, opt Options) (*Report, error) {
+// Analyze builds the report from the plan and the run's decoded results:
+// the overall rows, each breakdown's rows and the health rows.
+func Analyze(p *compiler.Plan, set *results.Set, opt Options) (*Report, error) {
 	opt = opt.withDefaults()
 	s := p.Spec
+	if set.SpecFingerprint != s.Fingerprint {
+		return nil, fmt.Errorf("the result carries spec fingerprint %s, but the spec's is %s: the query was compiled from another version of the spec", set.SpecFingerprint, s.Fingerprint)
+	}
+	if set.Options != p.Options.Text() {
+		return nil, fmt.Errorf("the result was compiled with options %q, but this analysis uses %q: %s", set.Options, p.Options.Text(), OptionsDiff(set.Options, p.Options.Text()))
+	}
 	r := &Report{SchemaVersion: SchemaVersion, ToolVersion: compiler.Version, Alarms: []string{}, Segments: []Segment{}}
 	r.Experiment = Experiment{
 		ID: s.ID, Hypothesis: s.Hypothesis, Unit: s.Unit,
 		Start: stamp(p.StartUS), End: stamp(p.EndUS), AsOf: stamp(p.AsOfUS),
 		TimeZone: p.TZ, Confidence: s.Confidence, SpecFingerprint: s.Fingerprint,
+		CompileOptions: p.Options.Text(), Fingerprint: p.Fingerprint, Breakdowns: []string{},
 	}
-	byVariant := map[string]*engine.Row{}
-	for i := range res.Rows {
-		row := &res.Rows[i]
-		if row.Fingerprint != "" && row.Fingerprint != s.Fingerprint {
-			return nil, fmt.Errorf("result rows carry spec fingerprint %s, but the spec's is %s: the query was compiled from another version of the spec", row.Fingerprint, s.Fingerprint)
-		}
-		if len(row.Keys) > 0 {
-			return nil, fmt.Errorf("Analyze needs ungrouped rows")
-		}
-		byVariant[row.Variant] = row
+	for _, g := range p.GroupBy {
+		r.Experiment.Breakdowns = append(r.Experiment.Breakdowns, g.Label())
 	}
-	r.Health = health(p, res.Health, byVariant, opt.SRMAlpha)
+	byVariant := rowsByVariant(set.Overall())
+	r.Health = health(p, set.Health, byVariant, opt.SRMAlpha)
 	for i, v := range s.Variants {
 		vv := Variant{Name: v.Name, Baseline: i == 0, PlannedWeight: v.Weight}
 		if row := byVariant[v.Name]; row != nil {
 			vv.EligibleUnits = row.Units
 		}
-		for _, h := range res.Health {
-			if h.Kind == "triggers" && h.Variant == v.Name {
+		for _, h := range set.Health {
+			if h.Kind == compiler.HealthTriggers && h.Variant == v.Name {
 				vv.TriggeredUnits += h.Units
 			}
 		}
 		r.Experiment.Variants = append(r.Experiment.Variants, vv)
 	}
+	for i := range r.Experiment.Variants {
+		v := &r.Experiment.Variants[i]
+		v.EligibleShare = Num(ratio(float64(v.EligibleUnits), float64(r.Health.Eligible)))
+	}
 	if r.Health.SampleRatio.Alarm {
-		r.Alarms = append(r.Alarms, fmt.Sprintf("SAMPLE RATIO MISMATCH: eligible units per variant do not match the planned weights (chi-square p = %s < %g). Assignment or logging is likely broken; effects below are not trustworthy until the cause is found.", fmtP(float64(r.Health.SampleRatio.PValue)), opt.SRMAlpha))
+		r.Alarms = append(r.Alarms, fmt.Sprintf("SAMPLE RATIO MISMATCH: eligible units per variant do not match the planned weights (chi-square %s, alarm below %g). Assignment or logging is likely broken; effects below are not trustworthy until the cause is found.", pEquals(float64(r.Health.SampleRatio.PValue)), opt.SRMAlpha))
 	}
 	if n := len(r.Health.SampleRatioDaily.AlarmDays); n > 0 {
 		r.Alarms = append(r.Alarms, fmt.Sprintf("SAMPLE RATIO MISMATCH on %d day(s) (%s): triggered units that day do not match the planned weights (p < %g).", n, strings.Join(r.Health.SampleRatioDaily.AlarmDays, ", "), opt.SRMAlpha))
@@ -319,21 +379,73 @@ func Analyze(p *compiler.Plan, res *engine.Result, opt Options) (*Report, error)
 	adjustFamilies(r.Metrics, opt.Adjust)
 	for _, m := range r.Metrics {
 		for _, c := range m.Comparisons {
-			if c.Guard != nil && c.Guard.Verdict == stats.HarmShown {
-				r.Alarms = append(r.Alarms, fmt.Sprintf("GUARD HARM: %s in %s %s beyond the tolerated %s (relative %s, interval %s to %s).",
-					m.Name, c.Variant, pastTense(m.Harmful), pct(*m.Margin), pct(float64(c.Relative)), pct(float64(c.RelativeCILow)), pct(float64(c.RelativeCIHigh))))
+			if c.Guard != nil && c.Guard.Alarming {
+				r.Alarms = append(r.Alarms, fmt.Sprintf("GUARD HARM: %s in %s %s (relative %s; one-sided %g%% bounds %s to %s; tolerated %s): %s.",
+					m.Name, c.Variant, pastTense(m.Harmful), pct(float64(c.Relative)), c.Guard.Level*100, pct(float64(c.Guard.Lower)), pct(float64(c.Guard.Upper)), pctAbs(*m.Margin), c.Guard.Verdict))
 			}
 		}
 	}
 	r.Cautions = cautions(p, r)
+	for g := range p.GroupBy {
+		r.addBreakdown(p, g, set.Group(g), opt)
+	}
 	return r, nil
 }
 
-// HarmShown reports whether any guard comparison's verdict is harm shown.
+// rowsByVariant indexes rows of one group by variant.
+func rowsByVariant(rows []results.Row) map[string]*results.Row {
+	out := map[string]*results.Row{}
+	for i := range rows {
+		out[rows[i].Variant] = &rows[i]
+	}
+	return out
+}
+
+// OptionsDiff names the compile options that differ between two options
+// texts (compiler.Options.Text).
+func OptionsDiff(got, want string) string {
+	parse := func(s string) map[string]string {
+		m := map[string]string{}
+		for _, part := range strings.Split(s, ";") {
+			if k, v, ok := strings.Cut(part, "="); ok {
+				m[k] = v
+			}
+		}
+		return m
+	}
+	g, w := parse(got), parse(want)
+	var keys []string
+	for k := range g {
+		keys = append(keys, k)
+	}
+	for k := range w {
+		if _, ok := g[k]; !ok {
+			keys = append(keys, k)
+		}
+	}
+	sort.Strings(keys)
+	var diffs []string
+	for _, k := range keys {
+		if g[k] != w[k] {
+			diffs = append(diffs, fmt.Sprintf("%s is %s in the result and %s here", k, orNone(g[k]), orNone(w[k])))
+		}
+	}
+	return strings.Join(diffs, "; ")
+}
+
+func orNone(s string) string {
+	if s == "" {
+		return "not set"
+	}
+	return s
+}
+
+// HarmShown reports whether any guard comparison's verdict is alarming:
+// harm beyond the margin, or harm shown with the margin not ruled out.
 func (r *Report) HarmShown() bool {
 	for _, m := range r.Metrics {
 		for _, c := range m.Comparisons {
-			if c.Guard != nil && c.Guard.Verdict == stats.HarmShown {
+			if c.Guard != nil && c.Guard.Alarming {
 				return true
 			}
 		}
@@ -369,13 +481,13 @@ func srm(obs, w []float64, alpha float64) SampleRatio {
 	return out
 }
 
-func health(p *compiler.Plan, rows []engine.HealthRow, byVariant map[string]*engine.Row, alpha float64) Health {
-	h := Health{IgnoredRows: map[string]int64{}, IgnoredOutcomeRows: map[string]map[string]int64{}, Exclusions: []Exclusion{}, Daily: []Daily{}}
+func health(p *compiler.Plan, rows []results.HealthRow, byVariant map[string]*results.Row, alpha float64) Health {
+	h := Health{Available: rows != nil, IgnoredRows: map[string]int64{}, IgnoredOutcomeRows: map[string]map[string]int64{}, Exclusions: []Exclusion{}, Daily: []Daily{}, UnknownVariants: []UnknownVariant{}}
 	exc := map[string]*Exclusion{}
 	var excOrder []string
-	reasons := []string{"any", "crossover", "unknown_variant"}
-	for _, r := range p.Rules {
-		reasons = append(reasons, "rule:"+r.Name)
+	reasons := []string{compiler.ExcludedAny}
+	for _, x := range p.Exclusions {
+		reasons = append(reasons, x.Reason)
 	}
 	for _, r := range reasons {
 		exc[r] = &Exclusion{Reason: r, ByVariant: map[string]int64{}}
@@ -384,17 +496,17 @@ func health(p *compiler.Plan, rows []engine.HealthRow, byVariant map[string]*eng
 	daily := map[[2]string]*Daily{}
 	for _, row := range rows {
 		switch row.Kind {
-		case "triggers":
+		case compiler.HealthTriggers:
 			h.Triggered += row.Units
 			d := dailyRow(daily, row.Day, row.Variant)
 			d.TriggeredUnit += row.Units
-		case "exposures":
+		case compiler.HealthExposures:
 			d := dailyRow(daily, row.Day, row.Variant)
 			d.ExposureRows += row.Rows
 			d.ExposedUnits += row.Units
-		case "never_triggered":
+		case compiler.HealthNeverTriggered:
 			h.NeverTriggered += row.Units
-		case "excluded":
+		case compiler.HealthExcluded:
 			e := exc[row.Reason]
 			if e == nil {
 				e = &Exclusion{Reason: row.Reason, ByVariant: map[string]int64{}}
@@ -403,14 +515,15 @@ func health(p *compiler.Plan, rows []engine.HealthRow, byVariant map[string]*eng
 			}
 			e.Units += row.Units
 			e.ByVariant[row.Variant] += row.Units
-		case "ignored_outcome_rows":
-			src, what, _ := strings.Cut(row.Reason, ":")
-			if h.IgnoredOutcomeRows[src] == nil {
-				h.IgnoredOutcomeRows[src] = map[string]int64{}
+		case compiler.HealthOutcomeRows:
+			if h.IgnoredOutcomeRows[row.Source] == nil {
+				h.IgnoredOutcomeRows[row.Source] = map[string]int64{}
 			}
-			h.IgnoredOutcomeRows[src][what] += row.Rows
-		case "ignored_rows":
+			h.IgnoredOutcomeRows[row.Source][row.Reason] += row.Rows
+		case compiler.HealthIgnoredRows:
 			h.IgnoredRows[row.Reason] += row.Rows
+		case compiler.HealthUnknownVariant:
+			h.UnknownVariants = append(h.UnknownVariants, UnknownVariant{Value: row.Variant, Units: row.Units, Suggests: suggestVariant(row.Variant, p.Variants)})
 		}
 	}
 	h.ExposedUnits = h.Triggered + h.NeverTriggered
@@ -479,10 +592,36 @@ func health(p *compiler.Plan, rows []engine.HealthRow, byVariant map[string]*eng
 			h.SampleRatioDaily.AlarmDays = append(h.SampleRatioDaily.AlarmDays, day)
 		}
 	}
-	if e := exc["crossover"]; e != nil {
+	sort.SliceStable(h.UnknownVariants, func(i, j int) bool {
+		if h.UnknownVariants[i].Units != h.UnknownVariants[j].Units {
+			return h.UnknownVariants[i].Units > h.UnknownVariants[j].Units
+		}
+		return h.UnknownVariants[i].Value < h.UnknownVariants[j].Value
+	})
+	if e := exc[compiler.ExcludedCrossover]; e != nil {
 		h.CrossoverRateExposed = Num(ratio(float64(e.Units), float64(h.ExposedUnits)))
 	}
 	return h
+}
+
+// suggestVariant returns the declared variant that v equals once case,
+// spaces, hyphens and underscores are ignored, or "".
+func suggestVariant(v string, declared []string) string {
+	norm := func(s string) string {
+		return strings.Map(func(r rune) rune {
+			switch r {
+			case ' ', '-', '_', '.', '\t':
+				return -1
+			}
+			return unicode.ToLower(r)
+		}, s)
+	}
+	for _, d := range declared {
+		if norm(d) == norm(v) {
+			return d
+		}
+	}
+	return ""
 }
 
 func dailyRow(m map[[2]string]*Daily, day, variant string) *Daily {
@@ -502,75 +641,55 @@ func ratio(a, b float64) float64 {
 	return a / b
 }
 
-func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]*engine.Row, level float64) MetricInfo {
+func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]*results.Row, level float64) MetricInfo {
 	m := mp.M
-	mi := MetricInfo{Name: m.Name, Label: m.Label, Role: string(m.Role), Kind: kindName(m), Window: [2]string{m.From.Text, m.To.Text}, Comparisons: []Compare{}}
+	mi := MetricInfo{Name: m.Name, Label: m.Label, Role: string(m.Role), Kind: kindName(m), Window: [2]string{m.From.Text, m.To.Text}, Rule: mp.Rule, Comparisons: []Compare{}}
 	if m.Role == metrics.Guard {
 		mi.Harmful = m.Harmful
 		margin := m.Margin
 		mi.Margin = &margin
 	}
-	stat := func(row *engine.Row, st string) float64 {
+	stat := func(row *results.Row, st compiler.Stat) float64 {
 		if row == nil {
 			return math.NaN()
 		}
-		v, ok := row.Stats[compiler.StatColumn(m.Name, st)]
-		if !ok {
-			return math.NaN()
-		}
-		return v
+		return row.Stat(mp, st)
 	}
-	nOf := func(row *engine.Row) float64 {
+	nOf := func(row *results.Row) float64 {
 		n := stat(row, compiler.StatN)
 		if math.IsNaN(n) {
 			return 0
 		}
 		return n
 	}
-	moments := func(row *engine.Row) stats.Moments {
+	moments := func(row *results.Row) stats.Moments {
 		return stats.Moments{N: nOf(row), Mean: stat(row, compiler.StatMean), Var: stat(row, compiler.StatVar)}
 	}
-	rmoments := func(row *engine.Row) stats.RatioMoments {
+	rmoments := func(row *results.Row) stats.RatioMoments {
 		return stats.RatioMoments{N: nOf(row), MeanNum: stat(row, compiler.StatNumMean), MeanDen: stat(row, compiler.StatDenMean),
 			VarNum: stat(row, compiler.StatNumVar), VarDen: stat(row, compiler.StatDenVar), Cov: stat(row, compiler.StatCov)}
 	}
-	cmoments := func(row *engine.Row) stats.CovariateMoments {
+	cmoments := func(row *results.Row) stats.CovariateMoments {
 		return stats.CovariateMoments{N: nOf(row), MeanY: stat(row, compiler.StatMean), MeanX: stat(row, compiler.StatXMean),
 			VarY: stat(row, compiler.StatVar), VarX: stat(row, compiler.StatXVar), CovYX: stat(row, compiler.StatYXCov)}
 	}
-	rcmoments := func(row *engine.Row) stats.RatioCovariateMoments {
+	rcmoments := func(row *results.Row) stats.RatioCovariateMoments {
 		return stats.RatioCovariateMoments{N: nOf(row), MeanNum: stat(row, compiler.StatNumMean), MeanDen: stat(row, compiler.StatDenMean), MeanX: stat(row, compiler.StatXMean),
 			VarNum: stat(row, compiler.StatNumVar), VarDen: stat(row, compiler.StatDenVar), VarX: stat(row, compiler.StatXVar),
 			CovNumDen: stat(row, compiler.StatCov), CovNumX: stat(row, compiler.StatNumXCov), CovDenX: stat(row, compiler.StatDenXCov)}
 	}
-	// theta and the covariate centre are pooled over every variant.
-	type covPool struct {
-		theta, meanX float64
-		reason       string
-	}
-	var cov *covPool
+	// theta and the covariate mean are pooled within each compared pair, so
+	// a comparison does not change when another arm does.
 	if mp.Cov != nil {
 		c := m.Covariate
-		mi.Covariate = &CovInfo{Metric: c.Of.Name, Window: [2]string{c.From.Text, c.To.Text}, Rule: fmt.Sprintf("per-unit value of %s's definition in [trigger %s, trigger %s)", c.Of.Name, c.From.Text, c.To.Text)}
-		var groups []stats.CovariateMoments
-		for _, v := range p.Variants {
-			row := byVariant[v]
-			if m.Kind == metrics.KindRatio {
-				lin, _ := stats.LinearizeCovariate(rcmoments(row))
-				groups = append(groups, lin)
-			} else {
-				groups = append(groups, cmoments(row))
-			}
-		}
-		theta, reason := stats.CUPEDTheta(groups...)
-		cov = &covPool{theta: theta, meanX: stats.CovariateMean(groups...), reason: reason}
+		mi.Covariate = &CovInfo{Metric: c.Of.Name, Window: [2]string{c.From.Text, c.To.Text}, Rule: mp.CovRule}
 	}
 	for _, v := range p.Variants {
 		if n := stat(byVariant[v], compiler.StatNonFinite); !math.IsNaN(n) {
 			mi.NonFiniteRows += int64(n)
 		}
 	}
-	var base *engine.Row
+	var base *results.Row
 	for i, v := range p.Variants {
 		row := byVariant[v]
 		var est stats.Estimate
@@ -585,6 +704,7 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 		vv := VariantVal{Variant: v, N: int64(nOf(row)), Value: Num(est.Value), StdError: Num(est.StdError), Reason: est.Reason}
 		if row != nil {
 			vv.Immature = row.Units - vv.N
+			mi.ImmatureUnits += vv.Immature
 		}
 		mi.Variants = append(mi.Variants, vv)
 		if i == 0 {
@@ -601,41 +721,51 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 			c = stats.Welch(moments(base), moments(row), level)
 		}
 		cmp := compareOf(c, v, p.Variants[0])
-		if cov != nil {
+		if mp.Cov != nil {
 			var cc stats.CUPEDComparison
 			if m.Kind == metrics.KindRatio {
-				cc = stats.CUPEDRatioWith(rcmoments(base), rcmoments(row), cov.theta, cov.meanX, level)
+				cc = stats.CUPEDRatio(rcmoments(base), rcmoments(row), level)
 			} else {
-				cc = stats.CUPEDWelchWith(cmoments(base), cmoments(row), cov.theta, cov.meanX, level)
-			}
-			if cov.reason != "" && cc.Reason == "" {
-				cc.Reason = cov.reason
+				cc = stats.CUPEDWelch(cmoments(base), cmoments(row), level)
 			}
 			unadj := cmp
-			c = cc.Comparison
-			cmp = compareOf(c, v, p.Variants[0])
-			// The reduction is measured against the unadjusted comparison the
-			// report shows (for proportions, the p(1−p)/n standard error).
-			vr := math.NaN()
-			if u := float64(unadj.StdError); u > 0 && !math.IsInf(u, 0) && c.StdError >= 0 {
-				vr = 1 - (c.StdError/u)*(c.StdError/u)
+			if !cc.Adjusted {
+				// No adjustment possible (e.g. a covariate that does not vary,
+				// as for new users): the unadjusted comparison stands.
+				cmp.CUPED = &CUPEDInfo{Theta: Num(math.NaN()), CovariateMean: Num(math.NaN()), VarianceReduction: Num(math.NaN()), Unadjusted: unadj,
+					BaselineValue: Num(math.NaN()), BaselineStdError: Num(math.NaN()), VariantValue: Num(math.NaN()), VariantStdError: Num(math.NaN()), NotApplied: cc.AdjustReason}
+			} else {
+				c = cc.Comparison
+				cmp = compareOf(c, v, p.Variants[0])
+				// The reduction is measured against the unadjusted comparison the
+				// report shows (for proportions, the p(1−p)/n standard error).
+				vr := math.NaN()
+				if u := float64(unadj.StdError); u > 0 && !math.IsInf(u, 0) && c.StdError >= 0 {
+					vr = 1 - (c.StdError/u)*(c.StdError/u)
+				}
+				cmp.CUPED = &CUPEDInfo{Theta: Num(cc.Theta), CovariateMean: Num(cc.MeanX), VarianceReduction: Num(vr), Unadjusted: unadj,
+					BaselineValue: Num(cc.Base.Value), BaselineStdError: Num(cc.Base.StdError), VariantValue: Num(cc.Treat.Value), VariantStdError: Num(cc.Treat.StdError)}
 			}
-			cmp.CUPED = &CUPEDInfo{Theta: Num(cc.Theta), CovariateMean: Num(cc.MeanX), VarianceReduction: Num(vr), Unadjusted: unadj}
-			setAdjusted(&mi.Variants[0], cc.Base.Estimate)
-			setAdjusted(&mi.Variants[i], cc.Treat.Estimate)
 		}
 		if p.Spec.Monitoring == "sequential" {
+			// planned_units is the whole experiment's; each comparison is tuned
+			// to its own pair's share of it.
 			n := nOf(base) + nOf(row)
-			target := p.Spec.PlannedUnits
-			if target == 0 {
+			target := stats.SequentialTarget(p.Spec.PlannedUnits, p.Weights, 0, i)
+			if p.Spec.PlannedUnits == 0 || math.IsNaN(target) {
 				target = n
 			}
 			sq := stats.SequentialDiff(c.Difference, c.StdError, n, stats.SequentialRho(1-level, target), 1-level)
 			cmp.Sequential = &SeqInfo{CILow: Num(sq.CILow), CIHigh: Num(sq.CIHigh), PValue: Num(sq.PValue), Reason: sq.Reason}
 		}
 		if m.Role == metrics.Guard {
-			g := stats.GuardComparison(c, m.Harmful, m.Margin, level)
-			cmp.Guard = &Guard{Verdict: g.Verdict, PValue: Num(g.PValue), Bound: Num(g.Bound), Reason: g.Reason}
+			g := stats.Guard(c, m.Harmful, m.Margin, level)
+			bound := g.Upper
+			if m.Harmful == "decrease" {
+				bound = g.Lower
+			}
+			cmp.Guard = &Guard{Verdict: string(g.Verdict), Alarming: g.Verdict.Alarming(), Level: level, Lower: Num(g.Lower), Upper: Num(g.Upper),
+				PValue: Num(g.NoHarmP), HarmPValue: Num(g.HarmP), Bound: Num(bound), Reason: g.Reason}
 		}
 		mi.Comparisons = append(mi.Comparisons, cmp)
 	}
@@ -645,14 +775,9 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 func compareOf(c stats.Comparison, variant, baseline string) Compare {
 	return Compare{Variant: variant, Baseline: baseline, Method: c.Method,
 		Difference: Num(c.Difference), StdError: Num(c.StdError), CILow: Num(c.CILow), CIHigh: Num(c.CIHigh),
-		Relative: Num(c.Relative), RelativeCILow: Num(c.RelCILow), RelativeCIHigh: Num(c.RelCIHigh),
+		Relative: Num(c.Relative), RelativeCILow: Num(c.RelCILow), RelativeCIHigh: Num(c.RelCIHigh), RelativeShape: c.RelShape,
 		Statistic: Num(c.Statistic), DF: Num(c.DF), PValue: Num(c.PValue), PValueAdjusted: Num(c.PValue),
 		Reason: c.Reason, RelReason: c.RelReason}
-}
-
-func setAdjusted(v *VariantVal, e stats.Estimate) {
-	val, se := Num(e.Value), Num(e.StdError)
-	v.AdjustedValue, v.AdjustedStdError = &val, &se
 }
 
 // Families of comparisons for multiple testing.

@@ -4,12 +4,11 @@ import (
 	"encoding/json"
 	"fmt"
 	"sort"
-	"strconv"
 	"strings"
 	"text/tabwriter"
 
 	"github.com/assay-dev/assay/compiler"
-	"github.com/assay-dev/assay/engine"
+	"github.com/assay-dev/assay/results"
 	"github.com/assay-dev/assay/stats"
 )
 
@@ -47,28 +46,22 @@ type CalMetric struct {
 }
 
 // Calibrate judges each metric's false-positive rate over the splits of a
-// calibration query (rows keyed by "split").
-func Calibrate(p *compiler.Plan, rows []engine.Row, alpha float64) *Calibration {
+// calibration query.
+func Calibrate(p *compiler.Plan, set *results.Set, alpha float64) *Calibration {
 	c := &Calibration{SchemaVersion: SchemaVersion, ToolVersion: compiler.Version, Experiment: p.Spec.ID,
 		Start: stamp(p.StartUS), End: stamp(p.EndUS), Splits: p.Splits, Salt: p.Salt, Alpha: alpha}
-	splits := map[string]map[string]*engine.Row{}
-	for i := range rows {
-		row := &rows[i]
-		k := row.Keys[compiler.ColSplit]
+	splits := map[int]map[string]*results.Row{}
+	var keys []int
+	for i := range set.Rows {
+		row := &set.Rows[i]
+		k := row.Split
 		if splits[k] == nil {
-			splits[k] = map[string]*engine.Row{}
+			splits[k] = map[string]*results.Row{}
+			keys = append(keys, k)
 		}
 		splits[k][row.Variant] = row
 	}
-	keys := make([]string, 0, len(splits))
-	for k := range splits {
-		keys = append(keys, k)
-	}
-	sort.Slice(keys, func(i, j int) bool {
-		a, _ := strconv.Atoi(keys[i])
-		b, _ := strconv.Atoi(keys[j])
-		return a < b
-	})
+	sort.Ints(keys)
 	for _, mp := range p.Metrics {
 		cm := CalMetric{Name: mp.M.Name, Role: string(mp.M.Role), Kind: kindName(mp.M)}
 		for _, k := range keys {

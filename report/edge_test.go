@@ -9,9 +9,9 @@ import (
 	"testing"
 
 	"github.com/assay-dev/assay/compiler"
-	"github.com/assay-dev/assay/engine"
 	"github.com/assay-dev/assay/metrics"
 	"github.com/assay-dev/assay/report"
+	"github.com/assay-dev/assay/results"
 )
 
 // edgeSpec has one metric of each shape: a mean (count), a proportion, a
@@ -99,10 +99,10 @@ type moments struct {
 	x, xVar     float64 // covariate mean and variance; yx covariance is 0
 }
 
-func row(variant string, units int64, m moments) engine.Row {
+func row(variant string, units int64, m moments) results.Row {
 	st := map[string]float64{}
 	for _, name := range []string{"trials", "converted", "per_trial", "refunds", "trials_adj"} {
-		col := func(s string) string { return compiler.StatColumn(name, s) }
+		col := func(s compiler.Stat) string { return compiler.StatColumn(name, s) }
 		st[col(compiler.StatN)] = m.n
 		st[col(compiler.StatMean)] = m.mean
 		st[col(compiler.StatVar)] = m.vr
@@ -117,17 +117,28 @@ func row(variant string, units int64, m moments) engine.Row {
 		st[col(compiler.StatNumXCov)] = 0
 		st[col(compiler.StatDenXCov)] = 0
 	}
-	return engine.Row{Variant: variant, Units: units, Stats: st}
+	return results.Row{Group: -1, Variant: variant, Units: units, Stats: st}
 }
 
-func triggers(control, treatment int64) []engine.HealthRow {
-	return []engine.HealthRow{
-		{Kind: "triggers", Variant: "control", Day: "2026-05-02", Rows: control, Units: control},
-		{Kind: "triggers", Variant: "treatment", Day: "2026-05-02", Rows: treatment, Units: treatment},
+func triggers(control, treatment int64) []results.HealthRow {
+	return []results.HealthRow{
+		{Kind: compiler.HealthTriggers, Variant: "control", Day: "2026-05-02", Rows: control, Units: control},
+		{Kind: compiler.HealthTriggers, Variant: "treatment", Day: "2026-05-02", Rows: treatment, Units: treatment},
 	}
 }
 
 var nan = math.NaN()
+
+// res is a hand-built engine result.
+type res struct {
+	Rows   []results.Row
+	Health []results.HealthRow
+}
+
+// set is r as the engine would decode it for plan p.
+func (r *res) set(p *compiler.Plan) *results.Set {
+	return &results.Set{SpecFingerprint: p.Spec.Fingerprint, Options: p.Options.Text(), Rows: r.Rows, Health: r.Health}
+}
 
 // TestAnalyzeEdgeCases builds engine results by hand for numerical edge
 // cases and checks that the report never holds NaN or an infinity in its
@@ -137,64 +148,64 @@ func TestAnalyzeEdgeCases(t *testing.T) {
 	p := edgePlan(t)
 	tests := []struct {
 		name string
-		res  *engine.Result
+		res  *res
 	}{
-		{"one unit per variant", &engine.Result{Rows: []engine.Row{
+		{"one unit per variant", &res{Rows: []results.Row{
 			row("control", 1, moments{n: 1, mean: 3, vr: nan, den: 1, denVar: nan, x: 1, xVar: nan}),
 			row("treatment", 1, moments{n: 1, mean: 4, vr: nan, den: 1, denVar: nan, x: 1, xVar: nan}),
 		}, Health: triggers(1, 1)}},
-		{"zero variance", &engine.Result{Rows: []engine.Row{
+		{"zero variance", &res{Rows: []results.Row{
 			row("control", 100, moments{n: 100, mean: 2, vr: 0, den: 1, denVar: 0, x: 1, xVar: 0}),
 			row("treatment", 100, moments{n: 100, mean: 3, vr: 0, den: 1, denVar: 0, x: 1, xVar: 0}),
 		}, Health: triggers(100, 100)}},
-		{"all zero", &engine.Result{Rows: []engine.Row{
+		{"all zero", &res{Rows: []results.Row{
 			row("control", 500, moments{n: 500, mean: 0, vr: 0, den: 0, denVar: 0, x: 0, xVar: 0}),
 			row("treatment", 500, moments{n: 500, mean: 0, vr: 0, den: 0, denVar: 0, x: 0, xVar: 0}),
 		}, Health: triggers(500, 500)}},
-		{"all one", &engine.Result{Rows: []engine.Row{
+		{"all one", &res{Rows: []results.Row{
 			row("control", 500, moments{n: 500, mean: 1, vr: 0, den: 1, denVar: 0, x: 1, xVar: 0}),
 			row("treatment", 500, moments{n: 500, mean: 1, vr: 0, den: 1, denVar: 0, x: 1, xVar: 0}),
 		}, Health: triggers(500, 500)}},
-		{"zero baseline mean", &engine.Result{Rows: []engine.Row{
+		{"zero baseline mean", &res{Rows: []results.Row{
 			row("control", 400, moments{n: 400, mean: 0, vr: 0, den: 0, denVar: 0, x: 0.5, xVar: 0.25}),
 			row("treatment", 400, moments{n: 400, mean: 0.5, vr: 0.25, den: 1, denVar: 0.1, x: 0.5, xVar: 0.25}),
 		}, Health: triggers(400, 400)}},
-		{"zero denominators", &engine.Result{Rows: []engine.Row{
+		{"zero denominators", &res{Rows: []results.Row{
 			row("control", 300, moments{n: 300, mean: 0, vr: 0, den: 0, denVar: 0, x: 1, xVar: 1}),
 			row("treatment", 300, moments{n: 300, mean: 0, vr: 0, den: 0, denVar: 0, x: 1, xVar: 1}),
 		}, Health: triggers(300, 300)}},
-		{"a billion units", &engine.Result{Rows: []engine.Row{
+		{"a billion units", &res{Rows: []results.Row{
 			row("control", 1e9, moments{n: 1e9, mean: 1, vr: 2, den: 2, denVar: 1, x: 1, xVar: 2}),
 			row("treatment", 1e9, moments{n: 1e9, mean: 1.0001, vr: 2, den: 2, denVar: 1, x: 1, xVar: 2}),
 		}, Health: triggers(1e9, 1e9)}},
-		{"NULL statistics", &engine.Result{Rows: []engine.Row{
+		{"NULL statistics", &res{Rows: []results.Row{
 			row("control", 50, moments{n: 50, mean: nan, vr: nan, den: nan, denVar: nan, x: nan, xVar: nan}),
 			row("treatment", 50, moments{n: 50, mean: nan, vr: nan, den: nan, denVar: nan, x: nan, xVar: nan}),
 		}, Health: triggers(50, 50)}},
-		{"infinite values", &engine.Result{Rows: []engine.Row{
+		{"infinite values", &res{Rows: []results.Row{
 			row("control", 50, moments{n: 50, mean: math.Inf(1), vr: math.Inf(1), den: 1, denVar: math.Inf(1), x: 1, xVar: 1}),
 			row("treatment", 50, moments{n: 50, mean: 1, vr: math.Inf(1), den: math.Inf(-1), denVar: 1, x: 1, xVar: math.Inf(1)}),
 		}, Health: triggers(50, 50)}},
-		{"negative variance from rounding", &engine.Result{Rows: []engine.Row{
+		{"negative variance from rounding", &res{Rows: []results.Row{
 			row("control", 80, moments{n: 80, mean: 2, vr: -1e-18, den: 1, denVar: -1e-18, x: 1, xVar: -1e-18}),
 			row("treatment", 80, moments{n: 80, mean: 2, vr: -1e-18, den: 1, denVar: -1e-18, x: 1, xVar: -1e-18}),
 		}, Health: triggers(80, 80)}},
-		{"no units at all", &engine.Result{Rows: []engine.Row{
+		{"no units at all", &res{Rows: []results.Row{
 			row("control", 0, moments{n: 0, mean: nan, vr: nan, den: nan, denVar: nan, x: nan, xVar: nan}),
 			row("treatment", 0, moments{n: 0, mean: nan, vr: nan, den: nan, denVar: nan, x: nan, xVar: nan}),
 		}}},
-		{"treatment missing from the data", &engine.Result{Rows: []engine.Row{
+		{"treatment missing from the data", &res{Rows: []results.Row{
 			row("control", 40, moments{n: 40, mean: 1, vr: 1, den: 1, denVar: 1, x: 1, xVar: 1}),
 		}, Health: triggers(40, 0)}},
-		{"undeclared variant in the data", &engine.Result{Rows: []engine.Row{
+		{"undeclared variant in the data", &res{Rows: []results.Row{
 			row("control", 40, moments{n: 40, mean: 1, vr: 1, den: 1, denVar: 1, x: 1, xVar: 1}),
 			row("treatment", 40, moments{n: 40, mean: 1.2, vr: 1, den: 1, denVar: 1, x: 1, xVar: 1}),
 			row("ghost", 7, moments{n: 7, mean: 9, vr: 1, den: 1, denVar: 1, x: 1, xVar: 1}),
-		}, Health: append(triggers(40, 40), engine.HealthRow{Kind: "excluded", Reason: "unknown_variant", Variant: "ghost", Rows: 7, Units: 7})}},
+		}, Health: append(triggers(40, 40), results.HealthRow{Kind: compiler.HealthExcluded, Reason: "unknown_variant", Variant: "ghost", Rows: 7, Units: 7})}},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
-			rep, err := report.Analyze(p, tc.res, report.Options{})
+			rep, err := report.Analyze(p, tc.res.set(p), report.Options{})
 			if err != nil {
 				t.Fatalf("Analyze: %v", err)
 			}
@@ -269,11 +280,11 @@ func checkReasons(t *testing.T, rep *report.Report) {
 //	p = erfc(z/√2) = 0.113846298
 func TestAnalyzeBillionUnits(t *testing.T) {
 	p := edgePlan(t)
-	res := &engine.Result{Rows: []engine.Row{
+	res := &res{Rows: []results.Row{
 		row("control", 1e9, moments{n: 1e9, mean: 1, vr: 2, den: 2, denVar: 1, x: 1, xVar: 2}),
 		row("treatment", 1e9, moments{n: 1e9, mean: 1.0001, vr: 2, den: 2, denVar: 1, x: 1, xVar: 2}),
 	}, Health: triggers(1e9, 1e9)}
-	rep, err := report.Analyze(p, res, report.Options{})
+	rep, err := report.Analyze(p, res.set(p), report.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -19,7 +19,12 @@ const SavedFormat = "assay-results"
 
 // SavedVersion is the version of the saved-results format. It changes only
 // when a field is removed or changes meaning.
-const SavedVersion = 1
+//
+// Version 2: the CSV names CUPED-adjusted values apart from unadjusted ones
+// (cuped, cuped_value, cuped_std_error, unadjusted_*), and carries the
+// compile options and the guard's alarming flag; the JSON holds report
+// schema version 2.
+const SavedVersion = 2
 
 // Saved is the JSON form of a results file: the report with when it was
 // computed, by which tool version, from which spec.
@@ -37,12 +42,22 @@ type Saved struct {
 // metric and variant, with the comparison against the baseline on treatment
 // rows. Empty cells are values that could not be computed; the reason
 // columns say why.
+//
+// value and std_error are the arm's unadjusted mean; cuped_value and
+// cuped_std_error its CUPED-adjusted mean within the compared pair (empty
+// for the baseline when several arms are compared with it, since each
+// pair has its own). The comparison columns (difference … p_value) are the
+// report's headline comparison, CUPED-adjusted when cuped is true; the
+// unadjusted_* columns always hold the comparison without adjustment.
+// p_value_adjusted is the multiple-testing adjustment, unrelated to CUPED.
 var CSVHeader = []string{
-	"ran_at", "tool_version", "spec_fingerprint", "experiment_id",
+	"ran_at", "tool_version", "spec_fingerprint", "compile_options", "experiment_id",
 	"metric", "role", "kind", "variant", "baseline", "n", "value", "std_error", "value_reason",
-	"method", "difference", "difference_std_error", "ci_low", "ci_high",
+	"cuped_value", "cuped_std_error",
+	"method", "cuped", "difference", "difference_std_error", "ci_low", "ci_high",
 	"relative", "relative_ci_low", "relative_ci_high", "p_value", "p_value_adjusted", "family",
-	"reason", "relative_reason", "guard_verdict",
+	"unadjusted_difference", "unadjusted_ci_low", "unadjusted_ci_high", "unadjusted_p_value",
+	"reason", "relative_reason", "guard_verdict", "guard_alarming",
 }
 
 // Save writes r to path as JSON or CSV, chosen by the extension (.json or
@@ -98,10 +113,10 @@ func savedCSV(r *Report, ranAt time.Time) ([]byte, error) {
 	}
 	ran := stampUTC(ranAt)
 	for _, m := range r.Metrics {
-		for _, v := range m.Variants {
+		for vi, v := range m.Variants {
 			row := []string{
-				ran, csvText(r.ToolVersion), csvText(r.Experiment.SpecFingerprint), csvText(r.Experiment.ID),
-				csvText(m.Name), csvText(m.Role), csvText(m.Kind), csvText(v.Variant), "", strconv.FormatInt(v.N, 10),
+				ran, csvText(r.ToolVersion), csvText(r.Experiment.SpecFingerprint), csvText(r.Experiment.CompileOptions), csvText(r.Experiment.ID),
+				csvText(m.Name), csvText(m.Role), csvText(m.Kind), csvText(v.Variant), strconv.FormatBool(vi == 0), strconv.FormatInt(v.N, 10),
 				csvNum(v.Value), csvNum(v.StdError), csvText(v.Reason),
 			}
 			var c *Compare
@@ -110,19 +125,31 @@ func savedCSV(r *Report, ranAt time.Time) ([]byte, error) {
 					c = &m.Comparisons[i]
 				}
 			}
+			cv, cse := "", ""
+			switch {
+			case c != nil && c.CUPED != nil && c.CUPED.NotApplied == "":
+				cv, cse = csvNum(c.CUPED.VariantValue), csvNum(c.CUPED.VariantStdError)
+			case c == nil && len(m.Comparisons) == 1 && m.Comparisons[0].CUPED != nil && m.Comparisons[0].CUPED.NotApplied == "":
+				cv, cse = csvNum(m.Comparisons[0].CUPED.BaselineValue), csvNum(m.Comparisons[0].CUPED.BaselineStdError)
+			}
+			row = append(row, cv, cse)
 			if c == nil {
 				// The baseline row: it has no comparison of its own.
-				row[8] = "true"
 				row = append(row, make([]string, len(CSVHeader)-len(row))...)
 			} else {
-				row[8] = "false"
-				verdict := ""
+				verdict, alarming := "", ""
 				if c.Guard != nil {
-					verdict = csvText(c.Guard.Verdict)
+					verdict, alarming = csvText(c.Guard.Verdict), strconv.FormatBool(c.Guard.Alarming)
 				}
-				row = append(row, csvText(c.Method), csvNum(c.Difference), csvNum(c.StdError), csvNum(c.CILow), csvNum(c.CIHigh),
+				u := *c
+				cuped := c.CUPED != nil && c.CUPED.NotApplied == ""
+				if cuped {
+					u = c.CUPED.Unadjusted
+				}
+				row = append(row, csvText(c.Method), strconv.FormatBool(cuped), csvNum(c.Difference), csvNum(c.StdError), csvNum(c.CILow), csvNum(c.CIHigh),
 					csvNum(c.Relative), csvNum(c.RelativeCILow), csvNum(c.RelativeCIHigh), csvNum(c.PValue), csvNum(c.PValueAdjusted),
-					csvText(c.Family), csvText(c.Reason), csvText(c.RelReason), verdict)
+					csvText(c.Family), csvNum(u.Difference), csvNum(u.CILow), csvNum(u.CIHigh), csvNum(u.PValue),
+					csvText(c.Reason), csvText(c.RelReason), verdict, alarming)
 			}
 			if err := w.Write(row); err != nil {
 				return nil, err

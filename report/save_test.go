@@ -108,7 +108,7 @@ func TestSaveJSON(t *testing.T) {
 		got, want any
 	}{
 		{"format", got.Format, "assay-results"},
-		{"format_version", got.FormatVersion, 1},
+		{"format_version", got.FormatVersion, 2},
 		{"ran_at", got.RanAt, "2026-04-13T07:30:00Z"},
 		{"tool_version", got.ToolVersion, "9.9.9"},
 		{"spec_fingerprint", got.SpecFingerprint, "0123456789abcdef"},
@@ -145,11 +145,13 @@ func TestSaveCSV(t *testing.T) {
 		t.Fatalf("got unreadable CSV: %v", err)
 	}
 	// The header, written out here rather than taken from report.CSVHeader.
-	wantHeader := []string{"ran_at", "tool_version", "spec_fingerprint", "experiment_id",
+	wantHeader := []string{"ran_at", "tool_version", "spec_fingerprint", "compile_options", "experiment_id",
 		"metric", "role", "kind", "variant", "baseline", "n", "value", "std_error", "value_reason",
-		"method", "difference", "difference_std_error", "ci_low", "ci_high",
+		"cuped_value", "cuped_std_error",
+		"method", "cuped", "difference", "difference_std_error", "ci_low", "ci_high",
 		"relative", "relative_ci_low", "relative_ci_high", "p_value", "p_value_adjusted", "family",
-		"reason", "relative_reason", "guard_verdict"}
+		"unadjusted_difference", "unadjusted_ci_low", "unadjusted_ci_high", "unadjusted_p_value",
+		"reason", "relative_reason", "guard_verdict", "guard_alarming"}
 	if !reflect.DeepEqual(rows[0], wantHeader) {
 		t.Fatalf("got header %v, want %v", rows[0], wantHeader)
 	}

@@ -7,7 +7,7 @@ import (
 	"strings"
 
 	"github.com/assay-dev/assay/compiler"
-	"github.com/assay-dev/assay/engine"
+	"github.com/assay-dev/assay/results"
 	"github.com/assay-dev/assay/stats"
 )
 
@@ -62,20 +62,20 @@ type SegmentCheck struct {
 	Reason        string `json:"reason,omitempty"`
 }
 
-// AddSegment analyses rows of the main query grouped by one segment (the
-// grouping key column key) and appends the breakdown to the report. The
-// comparisons of each metric across the segment's values and variants
-// form one multiple-testing family.
-func (r *Report) AddSegment(p *compiler.Plan, name, key string, rows []engine.Row, opt Options) {
-	opt = opt.withDefaults()
+// addBreakdown analyses the main query's rows of breakdown g (a segment
+// or the trigger day) and appends it to the report. The comparisons of
+// each metric across the breakdown's values and variants form one
+// multiple-testing family.
+func (r *Report) addBreakdown(p *compiler.Plan, g int, rows []results.Row, opt Options) {
+	name := p.GroupBy[g].Label()
 	seg := Segment{Name: name}
-	groups := map[string]map[string]*engine.Row{}
+	groups := map[string]map[string]*results.Row{}
 	units := map[string]int64{}
 	for i := range rows {
 		row := &rows[i]
-		v := row.Keys[key]
+		v := row.Key
 		if groups[v] == nil {
-			groups[v] = map[string]*engine.Row{}
+			groups[v] = map[string]*results.Row{}
 		}
 		groups[v][row.Variant] = row
 		units[v] += row.Units
@@ -84,8 +84,9 @@ func (r *Report) AddSegment(p *compiler.Plan, name, key string, rows []engine.Ro
 	for v := range groups {
 		values = append(values, v)
 	}
+	byDay := p.GroupBy[g].Day
 	sort.Slice(values, func(i, j int) bool {
-		if units[values[i]] != units[values[j]] {
+		if !byDay && units[values[i]] != units[values[j]] {
 			return units[values[i]] > units[values[j]]
 		}
 		return values[i] < values[j]

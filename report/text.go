@@ -6,10 +6,9 @@ import (
 	"sort"
 	"strconv"
 	"strings"
-	"text/tabwriter"
 )
 
-// pct formats a fraction as a signed percentage.
+// pct formats a change as a signed percentage.
 func pct(f float64) string {
 	if math.IsNaN(f) || math.IsInf(f, 0) {
 		return "n/a"
@@ -17,7 +16,15 @@ func pct(f float64) string {
 	return fmt.Sprintf("%+.2f%%", f*100)
 }
 
-// fmtP formats a p-value.
+// pctAbs formats a share or a margin: a percentage without a sign.
+func pctAbs(f float64) string {
+	if math.IsNaN(f) || math.IsInf(f, 0) {
+		return "n/a"
+	}
+	return fmt.Sprintf("%.2f%%", f*100)
+}
+
+// fmtP formats a p-value as a number (for table cells).
 func fmtP(p float64) string {
 	switch {
 	case math.IsNaN(p):
@@ -28,6 +35,14 @@ func fmtP(p float64) string {
 		return fmt.Sprintf("%.1e", p)
 	}
 	return strconv.FormatFloat(p, 'f', 4, 64)
+}
+
+// pEquals formats a p-value for a sentence: "p = 0.0123" or "p < 1e-300".
+func pEquals(p float64) string {
+	if p == 0 {
+		return "p < 1e-300"
+	}
+	return "p = " + fmtP(p)
 }
 
 // fmtNum formats a statistic with 4 significant decimals.
@@ -50,7 +65,7 @@ func fmtNum(f Num) string {
 
 func signed(f Num) string {
 	s := fmtNum(f)
-	if f.OK() && float64(f) >= 0 {
+	if f.OK() && float64(f) > 0 {
 		return "+" + s
 	}
 	return s
@@ -66,20 +81,27 @@ var roleOrder = []struct{ role, title string }{
 }
 
 // Text renders the report for a terminal.
-func (r *Report) Text() string {
-	var b strings.Builder
+func (r *Report) Text() string { return r.document().text() }
+
+// Markdown renders the report for a pull request or a wiki page. It holds
+// everything Text does.
+func (r *Report) Markdown() string { return r.document().markdown() }
+
+func oneLine(s string) string { return strings.Join(strings.Fields(s), " ") }
+
+// document builds the shared view of the report.
+func (r *Report) document() *document {
+	d := &document{}
 	e := r.Experiment
-	fmt.Fprintf(&b, "assay %s: experiment %s (spec %s)\n", r.ToolVersion, e.ID, e.SpecFingerprint)
-	fmt.Fprintf(&b, "Hypothesis: %s\n", oneLine(e.Hypothesis))
-	fmt.Fprintf(&b, "Exposures in [%s, %s), outcomes as of %s, time zone %s, %g%% intervals.\n", e.Start, e.End, e.AsOf, e.TimeZone, e.Confidence*100)
-	b.WriteByte('\n')
-	if len(r.Alarms) > 0 {
-		for _, a := range r.Alarms {
-			fmt.Fprintf(&b, "!! %s\n", a)
-		}
-		b.WriteByte('\n')
+	d.heading(1, "assay %s: experiment %s", r.ToolVersion, e.ID)
+	d.para("Hypothesis: %s", oneLine(e.Hypothesis))
+	d.para("Exposures in [%s, %s), outcomes as of %s, time zone %s, %g%% intervals.", e.Start, e.End, e.AsOf, e.TimeZone, e.Confidence*100)
+	opts := e.CompileOptions
+	d.para("Spec fingerprint %s; compile options %s; result fingerprint %s.", e.SpecFingerprint, opts, e.Fingerprint)
+	for _, a := range r.Alarms {
+		d.alarm(a)
 	}
-	r.healthText(&b)
+	r.healthDoc(d)
 	for _, ro := range roleOrder {
 		var ms []MetricInfo
 		for _, m := range r.Metrics {
@@ -90,55 +112,64 @@ func (r *Report) Text() string {
 		if len(ms) == 0 {
 			continue
 		}
-		fmt.Fprintf(&b, "\n%s\n", ro.title)
+		d.heading(2, "%s", ro.title)
 		for _, m := range ms {
-			metricText(&b, m)
+			metricDoc(d, m)
 		}
 	}
 	for _, seg := range r.Segments {
-		segmentText(&b, seg)
+		segmentDoc(d, seg)
 	}
-	b.WriteString("\nCautions\n")
-	for _, c := range r.Cautions {
-		fmt.Fprintf(&b, "  - %s\n", c)
-	}
-	return b.String()
+	d.heading(2, "Cautions")
+	d.list(r.Cautions)
+	return d
 }
 
-func oneLine(s string) string { return strings.Join(strings.Fields(s), " ") }
-
-func (r *Report) healthText(b *strings.Builder) {
+func (r *Report) healthDoc(d *document) {
 	h := r.Health
-	b.WriteString("Health\n")
-	tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', 0)
-	fmt.Fprintln(tw, "  variant\tplanned\ttriggered\teligible\teligible share\t")
+	d.heading(2, "Health")
+	if !h.Available {
+		d.para("Health counts: not available (no health result was given); sample ratio, exclusions and ignored rows are unknown, not zero.")
+	}
+	t := &table{head: []string{"variant", "planned", "triggered", "eligible", "eligible share"}, left: 1}
 	for _, v := range r.Experiment.Variants {
 		name := v.Name
 		if v.Baseline {
 			name += " (baseline)"
 		}
-		fmt.Fprintf(tw, "  %s\t%.1f%%\t%d\t%d\t%s\t\n", name, v.PlannedWeight*100, v.TriggeredUnits, v.EligibleUnits, strings.TrimPrefix(pct(ratio(float64(v.EligibleUnits), float64(h.Eligible))), "+"))
+		trig := strconv.FormatInt(v.TriggeredUnits, 10)
+		if !h.Available {
+			trig = "n/a"
+		}
+		t.rows = append(t.rows, []string{name, pctAbs(v.PlannedWeight), trig, strconv.FormatInt(v.EligibleUnits, 10), pctAbs(float64(v.EligibleShare))})
 	}
-	tw.Flush()
+	d.tab(t)
 	sr := h.SampleRatio
 	verdict := "ok"
 	if sr.Alarm {
 		verdict = "ALARM"
 	}
 	if sr.Reason != "" {
-		fmt.Fprintf(b, "  sample ratio: not tested (%s)\n", sr.Reason)
+		d.para("Sample ratio (eligible units): not tested (%s).", sr.Reason)
 	} else {
-		fmt.Fprintf(b, "  sample ratio: chi-square %s, df %g, p = %s (alarm below %g): %s\n", fmtNum(sr.Statistic), float64(sr.DF), fmtP(float64(sr.PValue)), sr.Alpha, verdict)
+		d.para("Sample ratio (eligible units): chi-square %s, df %g, %s (alarm below %g): %s.", fmtNum(sr.Statistic), float64(sr.DF), pEquals(float64(sr.PValue)), sr.Alpha, verdict)
 	}
-	fmt.Fprintf(b, "  units: %d exposed, %d never triggered (no qualifying exposure), %d triggered, %d eligible\n", h.ExposedUnits, h.NeverTriggered, h.Triggered, h.Eligible)
+	if !h.Available {
+		return
+	}
+	d.para("Units: %d exposed, %d never triggered (no qualifying exposure), %d triggered, %d eligible.", h.ExposedUnits, h.NeverTriggered, h.Triggered, h.Eligible)
+	var items []string
 	for _, e := range h.Exclusions {
 		if e.Units == 0 && e.Reason != "any" {
 			continue
 		}
-		fmt.Fprintf(b, "  excluded (%s): %d units, %s of triggered\n", e.Reason, e.Units, strings.TrimPrefix(pct(float64(e.Rate)), "+"))
+		items = append(items, fmt.Sprintf("excluded (%s): %d units, %s of triggered", e.Reason, e.Units, pctAbs(float64(e.Rate))))
 	}
 	ig := h.IgnoredRows
-	fmt.Fprintf(b, "  ignored exposure rows: %d before start, %d at or after end, %d without unit, %d without time\n", ig["before_start"], ig["after_end"], ig["null_unit"], ig["null_time"])
+	items = append(items, fmt.Sprintf("ignored exposure rows: %d before start, %d at or after end, %d without unit, %d without time", ig["before_start"], ig["after_end"], ig["null_unit"], ig["null_time"]))
+	if n := ig["null_variant"]; n > 0 {
+		items = append(items, fmt.Sprintf("exposure rows without a variant: %d (they count for the trigger time, never for the variant)", n))
+	}
 	srcs := make([]string, 0, len(h.IgnoredOutcomeRows))
 	for src := range h.IgnoredOutcomeRows {
 		srcs = append(srcs, src)
@@ -146,204 +177,160 @@ func (r *Report) healthText(b *strings.Builder) {
 	sort.Strings(srcs)
 	for _, src := range srcs {
 		if o := h.IgnoredOutcomeRows[src]; o["null_unit"]+o["null_time"] > 0 {
-			fmt.Fprintf(b, "  ignored rows of %s: %d without unit, %d without time\n", src, o["null_unit"], o["null_time"])
+			items = append(items, fmt.Sprintf("ignored rows of %s: %d without unit, %d without time", src, o["null_unit"], o["null_time"]))
 		}
+	}
+	d.list(items)
+	if len(h.UnknownVariants) > 0 {
+		var vs []string
+		for _, u := range h.UnknownVariants {
+			s := fmt.Sprintf("%q: %d units", u.Value, u.Units)
+			if u.Suggests != "" {
+				s += fmt.Sprintf(" (did you mean %q?)", u.Suggests)
+			}
+			vs = append(vs, s)
+		}
+		d.para("Undeclared variant values on triggered units (excluded), most frequent first:")
+		d.list(vs)
 	}
 }
 
-func metricText(b *strings.Builder, m MetricInfo) {
+func metricDoc(d *document, m MetricInfo) {
 	title := m.Name
 	if m.Label != "" {
 		title += " — " + m.Label
 	}
-	fmt.Fprintf(b, "  %s [%s, window %s to %s]\n", title, m.Kind, m.Window[0], m.Window[1])
-	tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprintln(tw, "    variant\tn\tvalue\tstd.err\tdifference\tinterval\trelative\tinterval\tp-value\tadj. p\t")
+	d.heading(3, "%s [%s, window %s to %s]", title, m.Kind, m.Window[0], m.Window[1])
+	if m.Rule != "" {
+		d.para("Definition: %s.", m.Rule)
+	}
+	cuped := m.Covariate != nil
+	diffHead := "difference"
+	if cuped {
+		diffHead = "difference (CUPED)"
+	}
+	t := &table{head: []string{"variant", "n", "value", "std.err", diffHead, "interval", "relative", "interval", "p-value", "adj. p"}, left: 1}
 	cmp := map[string]Compare{}
 	for _, c := range m.Comparisons {
 		cmp[c.Variant] = c
 	}
-	var immature int64
 	var notes []string
 	for i, v := range m.Variants {
-		immature += v.Immature
 		if v.Reason != "" {
 			notes = append(notes, fmt.Sprintf("%s: %s", v.Variant, v.Reason))
 		}
+		n := strconv.FormatInt(v.N, 10)
 		if i == 0 {
-			fmt.Fprintf(tw, "    %s\t%d\t%s\t%s\t\t\t\t\t\t\t\n", v.Variant, v.N, shownValue(v), shownSE(v))
+			t.rows = append(t.rows, []string{v.Variant + " (baseline)", n, fmtNum(v.Value), fmtNum(v.StdError), "", "", "", "", "", ""})
 			continue
 		}
 		c := cmp[v.Variant]
 		adj := fmtP(float64(c.PValueAdjusted))
-		if c.Family == "guard" || (c.Family == "primary" && len(m.Comparisons) == 1) {
+		if c.Family == FamilyGuard || (c.Family == FamilyPrimary && len(m.Comparisons) == 1) {
 			adj = "-"
 		}
-		fmt.Fprintf(tw, "    %s\t%d\t%s\t%s\t%s\t[%s, %s]\t%s\t[%s, %s]\t%s\t%s\t\n", v.Variant, v.N, shownValue(v), shownSE(v),
-			signed(c.Difference), signed(c.CILow), signed(c.CIHigh), pct(float64(c.Relative)), pct(float64(c.RelativeCILow)), pct(float64(c.RelativeCIHigh)), fmtP(float64(c.PValue)), adj)
+		t.rows = append(t.rows, []string{v.Variant, n, fmtNum(v.Value), fmtNum(v.StdError), signed(c.Difference),
+			"[" + signed(c.CILow) + ", " + signed(c.CIHigh) + "]", pct(float64(c.Relative)),
+			"[" + pct(float64(c.RelativeCILow)) + ", " + pct(float64(c.RelativeCIHigh)) + "]", fmtP(float64(c.PValue)), adj})
 		if c.Reason != "" {
 			notes = append(notes, fmt.Sprintf("%s vs %s: %s", v.Variant, c.Baseline, c.Reason))
 		} else if c.RelReason != "" {
 			notes = append(notes, fmt.Sprintf("%s vs %s: relative change undefined: %s", v.Variant, c.Baseline, c.RelReason))
 		}
 	}
-	tw.Flush()
+	d.tab(t)
+	var lines []string
 	if len(m.Comparisons) > 0 {
-		fmt.Fprintf(b, "    method: %s\n", m.Comparisons[0].Method)
+		lines = append(lines, "method: "+m.Comparisons[0].Method)
 	}
-	if m.Covariate != nil {
-		fmt.Fprintf(b, "    CUPED: values are adjusted for %s before the trigger (window %s to %s)\n", m.Covariate.Metric, m.Covariate.Window[0], m.Covariate.Window[1])
+	if cuped {
+		lines = append(lines, fmt.Sprintf("CUPED: the difference is adjusted for %s (%s); the value column is unadjusted", m.Covariate.Metric, m.Covariate.Rule))
 		for _, c := range m.Comparisons {
 			if c.CUPED == nil {
 				continue
 			}
+			if c.CUPED.NotApplied != "" {
+				lines = append(lines, fmt.Sprintf("CUPED %s vs %s: not applied (%s); the difference shown is unadjusted", c.Variant, c.Baseline, c.CUPED.NotApplied))
+				continue
+			}
 			u := c.CUPED.Unadjusted
-			fmt.Fprintf(b, "      %s: theta %s, variance reduction %s; unadjusted difference %s [%s, %s], p = %s\n", c.Variant, fmtNum(c.CUPED.Theta),
-				strings.TrimPrefix(pct(float64(c.CUPED.VarianceReduction)), "+"), signed(u.Difference), signed(u.CILow), signed(u.CIHigh), fmtP(float64(u.PValue)))
+			lines = append(lines, fmt.Sprintf("CUPED %s vs %s: adjusted values %s %s (std.err %s) and %s %s (std.err %s); theta %s, variance reduction %s; unadjusted difference %s [%s, %s], %s",
+				c.Variant, c.Baseline, c.Baseline, fmtNum(c.CUPED.BaselineValue), fmtNum(c.CUPED.BaselineStdError), c.Variant, fmtNum(c.CUPED.VariantValue), fmtNum(c.CUPED.VariantStdError),
+				fmtNum(c.CUPED.Theta), pctAbs(float64(c.CUPED.VarianceReduction)), signed(u.Difference), signed(u.CILow), signed(u.CIHigh), pEquals(float64(u.PValue))))
 		}
 	}
 	for _, c := range m.Comparisons {
 		if sq := c.Sequential; sq != nil {
 			if sq.Reason != "" {
-				fmt.Fprintf(b, "    always-valid (sequential) %s: undefined (%s)\n", c.Variant, sq.Reason)
+				lines = append(lines, fmt.Sprintf("always-valid (sequential) %s: undefined (%s)", c.Variant, sq.Reason))
 			} else {
-				fmt.Fprintf(b, "    always-valid (sequential) %s: difference interval [%s, %s], p = %s\n", c.Variant, signed(sq.CILow), signed(sq.CIHigh), fmtP(float64(sq.PValue)))
+				lines = append(lines, fmt.Sprintf("always-valid (sequential) %s: difference interval [%s, %s], %s", c.Variant, signed(sq.CILow), signed(sq.CIHigh), pEquals(float64(sq.PValue))))
 			}
 		}
 	}
 	for _, c := range m.Comparisons {
 		if c.Guard != nil {
-			line := fmt.Sprintf("    guard (%s harmful, margin %s): %s: %s", m.Harmful, strings.TrimPrefix(pct(*m.Margin), "+"), c.Variant, c.Guard.Verdict)
-			if c.Guard.Reason != "" {
-				line += " (" + c.Guard.Reason + ")"
-			} else {
-				line += fmt.Sprintf(" (one-sided bound %s, non-inferiority p = %s)", pct(float64(c.Guard.Bound)), fmtP(float64(c.Guard.PValue)))
+			g := c.Guard
+			line := fmt.Sprintf("guard (%s harmful, margin %s): %s: %s", m.Harmful, pctAbs(*m.Margin), c.Variant, g.Verdict)
+			if g.Alarming {
+				line = "!! " + line
 			}
-			b.WriteString(line + "\n")
+			if g.Reason != "" {
+				line += " (" + g.Reason + ")"
+			} else {
+				line += fmt.Sprintf(" (one-sided %g%% bounds of the relative change %s to %s; harm %s, non-inferiority %s)", g.Level*100, pct(float64(g.Lower)), pct(float64(g.Upper)), pEquals(float64(g.HarmPValue)), pEquals(float64(g.PValue)))
+			}
+			lines = append(lines, line)
 		}
 	}
-	if immature > 0 {
-		fmt.Fprintf(b, "    left out: %d eligible units whose window had not elapsed\n", immature)
+	if m.ImmatureUnits > 0 {
+		lines = append(lines, fmt.Sprintf("left out: %d eligible units whose window had not elapsed", m.ImmatureUnits))
+	}
+	if m.NonFiniteRows > 0 {
+		lines = append(lines, fmt.Sprintf("left out of the sums: %d outcome rows whose value was not a finite number", m.NonFiniteRows))
 	}
 	for _, n := range notes {
-		fmt.Fprintf(b, "    note: %s\n", n)
+		lines = append(lines, "note: "+n)
 	}
+	d.list(lines)
 }
 
-// shownValue is the adjusted value when CUPED applies, else the plain one.
-func shownValue(v VariantVal) string {
-	if v.AdjustedValue != nil {
-		return fmtNum(*v.AdjustedValue) + "*"
-	}
-	return fmtNum(v.Value)
-}
-
-func shownSE(v VariantVal) string {
-	if v.AdjustedStdError != nil {
-		return fmtNum(*v.AdjustedStdError)
-	}
-	return fmtNum(v.StdError)
-}
-
-// Markdown renders the report for a pull request or a wiki page.
-func (r *Report) Markdown() string {
-	var b strings.Builder
-	e := r.Experiment
-	fmt.Fprintf(&b, "# Experiment `%s`\n\n", e.ID)
-	fmt.Fprintf(&b, "> %s\n\n", oneLine(e.Hypothesis))
-	fmt.Fprintf(&b, "Exposures in [%s, %s), outcomes as of %s, time zone %s, %g%% intervals. Spec fingerprint `%s`, assay %s.\n\n", e.Start, e.End, e.AsOf, e.TimeZone, e.Confidence*100, e.SpecFingerprint, r.ToolVersion)
-	for _, a := range r.Alarms {
-		fmt.Fprintf(&b, "**%s**\n\n", a)
-	}
-	b.WriteString("## Health\n\n| variant | planned | triggered | eligible |\n|---|---:|---:|---:|\n")
-	for _, v := range r.Experiment.Variants {
-		fmt.Fprintf(&b, "| %s | %.1f%% | %d | %d |\n", mdEscape(v.Name), v.PlannedWeight*100, v.TriggeredUnits, v.EligibleUnits)
-	}
-	sr := r.Health.SampleRatio
-	fmt.Fprintf(&b, "\nSample ratio: chi-square %s, p = %s (alarm below %g).\n\n", fmtNum(sr.Statistic), fmtP(float64(sr.PValue)), sr.Alpha)
-	for _, ex := range r.Health.Exclusions {
-		if ex.Units > 0 {
-			fmt.Fprintf(&b, "- excluded (%s): %d units\n", mdEscape(ex.Reason), ex.Units)
-		}
-	}
-	for _, ro := range roleOrder {
-		first := true
-		for _, m := range r.Metrics {
-			if m.Role != ro.role {
-				continue
-			}
-			if first {
-				fmt.Fprintf(&b, "\n## %s\n", ro.title)
-				first = false
-			}
-			fmt.Fprintf(&b, "\n### `%s` %s\n\n%s, window %s to %s.\n\n", m.Name, mdEscape(m.Label), m.Kind, m.Window[0], m.Window[1])
-			b.WriteString("| variant | n | value | std. err. | difference | interval | relative | interval | p-value |\n|---|---:|---:|---:|---:|---:|---:|---:|---:|\n")
-			cmp := map[string]Compare{}
-			for _, c := range m.Comparisons {
-				cmp[c.Variant] = c
-			}
-			for i, v := range m.Variants {
-				if i == 0 {
-					fmt.Fprintf(&b, "| %s (baseline) | %d | %s | %s | | | | | |\n", mdEscape(v.Variant), v.N, fmtNum(v.Value), fmtNum(v.StdError))
-					continue
-				}
-				c := cmp[v.Variant]
-				fmt.Fprintf(&b, "| %s | %d | %s | %s | %s | [%s, %s] | %s | [%s, %s] | %s |\n", mdEscape(v.Variant), v.N, fmtNum(v.Value), fmtNum(v.StdError),
-					signed(c.Difference), signed(c.CILow), signed(c.CIHigh), pct(float64(c.Relative)), pct(float64(c.RelativeCILow)), pct(float64(c.RelativeCIHigh)), fmtP(float64(c.PValue)))
-			}
-			for _, c := range m.Comparisons {
-				if c.Guard != nil {
-					fmt.Fprintf(&b, "\nGuard (%s harmful, margin %s), %s: **%s**.\n", m.Harmful, strings.TrimPrefix(pct(*m.Margin), "+"), mdEscape(c.Variant), c.Guard.Verdict)
-				}
-			}
-		}
-	}
-	b.WriteString("\n## Cautions\n\n")
-	for _, c := range r.Cautions {
-		fmt.Fprintf(&b, "- %s\n", c)
-	}
-	return b.String()
-}
-
-func mdEscape(s string) string {
-	r := strings.NewReplacer("|", `\|`, "\n", " ", "<", "&lt;", ">", "&gt;")
-	return r.Replace(s)
-}
-
-func segmentText(b *strings.Builder, seg Segment) {
-	fmt.Fprintf(b, "\nSegments by %s\n", seg.Name)
+func segmentDoc(d *document, seg Segment) {
+	d.open("Breakdown by %s", seg.Name)
 	mix := seg.VariantMix
 	if mix.Reason != "" {
-		fmt.Fprintf(b, "  variant mix across values: not tested (%s)\n", mix.Reason)
+		d.para("Variant mix across values: not tested (%s).", mix.Reason)
 	} else {
 		verdict := "ok"
 		if mix.Alarm {
 			verdict = "IMBALANCED"
 		}
-		fmt.Fprintf(b, "  variant mix across values: chi-square %s, df %g, p = %s: %s\n", fmtNum(mix.Statistic), float64(mix.DF), fmtP(float64(mix.PValue)), verdict)
+		d.para("Variant mix across values: chi-square %s, df %g, %s: %s.", fmtNum(mix.Statistic), float64(mix.DF), pEquals(float64(mix.PValue)), verdict)
 	}
 	for _, sm := range seg.Metrics {
-		fmt.Fprintf(b, "  %s\n", sm.Metric)
-		tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', tabwriter.AlignRight)
-		fmt.Fprintln(tw, "    value\tvariant\tn\tdifference\tinterval\trelative\tp-value\tadj. p\t")
+		d.heading(3, "%s by %s", sm.Metric, seg.Name)
+		t := &table{head: []string{"value", "variant", "n (baseline)", "n (variant)", "difference", "interval", "relative", "p-value", "adj. p"}, left: 2}
 		for _, row := range sm.Rows {
 			n := map[string]int64{}
 			for _, v := range row.Variants {
 				n[v.Variant] = v.N
 			}
 			for _, c := range row.Comparisons {
-				fmt.Fprintf(tw, "    %s\t%s\t%d/%d\t%s\t[%s, %s]\t%s\t%s\t%s\t\n", row.Value, c.Variant, n[c.Baseline], n[c.Variant],
-					signed(c.Difference), signed(c.CILow), signed(c.CIHigh), pct(float64(c.Relative)), fmtP(float64(c.PValue)), fmtP(float64(c.PValueAdjusted)))
+				t.rows = append(t.rows, []string{row.Value, c.Variant, strconv.FormatInt(n[c.Baseline], 10), strconv.FormatInt(n[c.Variant], 10),
+					signed(c.Difference), "[" + signed(c.CILow) + ", " + signed(c.CIHigh) + "]", pct(float64(c.Relative)), fmtP(float64(c.PValue)), fmtP(float64(c.PValueAdjusted))})
 			}
 		}
-		tw.Flush()
+		d.tab(t)
+		var lines []string
 		for _, chk := range sm.Checks {
 			if chk.Reason == "" {
-				fmt.Fprintf(b, "    heterogeneity (%s): Cochran's Q %s, df %g, p = %s, I² %s\n", chk.Variant, fmtNum(chk.Q), float64(chk.DF), fmtP(float64(chk.PValue)), strings.TrimPrefix(pct(float64(chk.I2)), "+"))
+				lines = append(lines, fmt.Sprintf("heterogeneity (%s): Cochran's Q %s, df %g, %s, I² %s", chk.Variant, fmtNum(chk.Q), float64(chk.DF), pEquals(float64(chk.PValue)), pctAbs(float64(chk.I2))))
 			}
 		}
+		d.list(lines)
 		for _, f := range sm.Flags {
-			fmt.Fprintf(b, "    !! %s\n", f)
+			d.alarm(f)
 		}
 	}
+	d.close()
 }

@@ -282,7 +282,7 @@ func TestHostileNamesCompile(t *testing.T) {
 			t.Fatalf("hostile spec does not load:\n%s", ds.Error())
 		}
 		for _, by := range [][]string{nil, {segName}} {
-			p, ds := compiler.Compile(spec, compiler.Options{GroupBy: by})
+			p, ds := compiler.Compile(spec, compiler.Options{Breakdowns: by})
 			if ds.HasErrors() {
 				t.Fatalf("compile: %s", ds.Error())
 			}

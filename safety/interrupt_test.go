@@ -121,7 +121,7 @@ func TestQueryCancelled(t *testing.T) {
 	ctx, cancel := context.WithTimeout(context.Background(), 500*time.Millisecond)
 	defer cancel()
 	start := time.Now()
-	res, err := engine.Query(ctx, db, q, nil)
+	res, err := engine.Query(ctx, db, p, q, true)
 	took := time.Since(start)
 	if err == nil {
 		t.Fatalf("got a result with %d rows, want the query cancelled", len(res.Rows))

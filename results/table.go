@@ -1,4 +1,4 @@
-package engine
+package results
 
 import (
 	"bytes"
@@ -7,10 +7,8 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"math"
 	"os"
 	"path/filepath"
-	"regexp"
 	"strings"
 )
 
@@ -184,107 +182,3 @@ func value(row []any, i int) any {
 	return nil
 }
 
-// MainRows converts the main query's exported result to rows, as Query
-// reads them from a database. Columns other than spec_fingerprint,
-// variant, units and keys are statistics; a NULL statistic is NaN.
-func (t *Table) MainRows(keys []string) ([]Row, error) {
-	role := make([]string, len(t.Columns))
-	isKey := map[string]bool{}
-	for _, k := range keys {
-		isKey[strings.ToLower(k)] = true
-	}
-	seen := map[string]bool{}
-	for i, c := range t.Columns {
-		l := strings.ToLower(c)
-		switch {
-		case l == "spec_fingerprint" || l == "variant" || l == "units":
-			role[i] = l
-		case isKey[l]:
-			role[i] = "key"
-		default:
-			role[i] = "stat"
-		}
-		seen[role[i]] = true
-	}
-	for _, need := range []string{"variant", "units"} {
-		if !seen[need] {
-			return nil, fmt.Errorf("the result has no %s column (columns: %s): is it the main query's result?", need, strings.Join(t.Columns, ", "))
-		}
-	}
-	var out []Row
-	for _, vals := range t.Rows {
-		r := Row{Keys: map[string]string{}, Stats: map[string]float64{}}
-		for i, c := range t.Columns {
-			v := value(vals, i)
-			switch role[i] {
-			case "spec_fingerprint":
-				r.Fingerprint = text(v)
-			case "variant":
-				r.Variant = text(v)
-			case "units":
-				if n := number(v); !math.IsNaN(n) {
-					r.Units = int64(n)
-				}
-			case "key":
-				r.Keys[c] = text(v)
-			default:
-				r.Stats[c] = number(v)
-			}
-		}
-		out = append(out, r)
-	}
-	return out, nil
-}
-
-var dayPrefix = regexp.MustCompile(`^\d{4}-\d{2}-\d{2}([T ]|$)`)
-
-// HealthRows converts the health query's exported result to rows, as
-// Query reads them. A day exported as a timestamp keeps its date.
-func (t *Table) HealthRows() ([]HealthRow, error) {
-	col := map[string]int{}
-	for i, c := range t.Columns {
-		col[strings.ToLower(c)] = i
-	}
-	for _, need := range []string{"kind", "reason", "variant", "day", "row_count", "unit_count"} {
-		if _, ok := col[need]; !ok {
-			return nil, fmt.Errorf("the result has no %s column (columns: %s): is it the health query's result?", need, strings.Join(t.Columns, ", "))
-		}
-	}
-	var out []HealthRow
-	for _, vals := range t.Rows {
-		get := func(name string) any { return value(vals, col[name]) }
-		r := HealthRow{Kind: text(get("kind")), Reason: text(get("reason")), Variant: text(get("variant")), Day: text(get("day"))}
-		if dayPrefix.MatchString(r.Day) {
-			r.Day = r.Day[:10]
-		}
-		if v := number(get("row_count")); !math.IsNaN(v) {
-			r.Rows = int64(v)
-		}
-		if v := number(get("unit_count")); !math.IsNaN(v) {
-			r.Units = int64(v)
-		}
-		out = append(out, r)
-	}
-	sortHealth(out)
-	return out, nil
-}
-
-// MatchStatColumns renames statistics whose names differ from a wanted
-// column name only in case (engines that fold unquoted or even quoted
-// names), so that they are found under the wanted name.
-func MatchStatColumns(rows []Row, want []string) {
-	lower := map[string]string{}
-	for _, w := range want {
-		lower[strings.ToLower(w)] = w
-	}
-	for _, r := range rows {
-		for k, v := range r.Stats {
-			if w, ok := lower[strings.ToLower(k)]; ok && w != k {
-				if _, exact := r.Stats[w]; !exact {
-					r.Stats[w] = v
-					delete(r.Stats, k)
-				}
-			}
-		}
-	}
-}

@@ -1,11 +1,9 @@
-package engine_test
+package results
 
 import (
 	"os"
 	"path/filepath"
 	"testing"
-
-	"github.com/assay-dev/assay/engine"
 )
 
 // readExts are the file name endings ReadTable distinguishes.
@@ -13,10 +11,10 @@ var readExts = []string{".csv", ".tsv", ".json", ".jsonl", ".ndjson", ".txt"}
 
 // FuzzReadTable feeds arbitrary bytes to the aggregates reader of assay
 // analyze, under every file name ending it distinguishes. It must never
-// panic; a table it accepts converts to main or health rows, or says why
-// not, with one row per record.
+// panic; a table it accepts converts to health rows, or says why not,
+// with one row per record.
 //
-//	go test ./engine/ -run '^$' -fuzz FuzzReadTable -fuzztime 10s
+//	go test ./results/ -run '^$' -fuzz FuzzReadTable -fuzztime 10s
 func FuzzReadTable(f *testing.F) {
 	seeds := []string{
 		"variant,units,orders__n,orders__mean,orders__var\ncontrol,10,10,1.5,0.25\nshelf,9,9,1.7,\\N\n",
@@ -39,7 +37,7 @@ func FuzzReadTable(f *testing.F) {
 		if err := os.WriteFile(path, data, 0o644); err != nil {
 			t.Fatal(err)
 		}
-		tab, err := engine.ReadTable(path)
+		tab, err := ReadTable(path)
 		if err != nil {
 			if err.Error() == "" {
 				t.Errorf("got an error without a message")
@@ -49,10 +47,7 @@ func FuzzReadTable(f *testing.F) {
 		if tab == nil {
 			t.Fatalf("got neither a table nor an error")
 		}
-		if rows, err := tab.MainRows(nil); err == nil && len(rows) != len(tab.Rows) {
-			t.Errorf("MainRows: got %d rows, want %d (one per record)", len(rows), len(tab.Rows))
-		}
-		if rows, err := tab.HealthRows(); err == nil && len(rows) != len(tab.Rows) {
+		if rows, err := Health(tab.Columns, tab.Rows); err == nil && len(rows) != len(tab.Rows) {
 			t.Errorf("HealthRows: got %d rows, want %d (one per record)", len(rows), len(tab.Rows))
 		}
 	})
