@@ -71,8 +71,8 @@ func Load(file string, src []byte) (*Spec, Diagnostics) {
 func (l *loader) syntaxDiag(err error) Diagnostic {
 	var pe toml.ParseError
 	if errors.As(err, &pe) {
-		start := posAt(l.src, pe.Position.Start)
-		end := posAt(l.src, pe.Position.Start+max(pe.Position.Len, 1))
+		start := l.pos(pe.Position.Start)
+		end := l.pos(pe.Position.Start + max(pe.Position.Len, 1))
 		msg := pe.Message
 		hint := ""
 		if pe.Usage != "" {
@@ -89,9 +89,18 @@ func (l *loader) syntaxDiag(err error) Diagnostic {
 type loader struct {
 	file  string
 	src   []byte
+	lines *lineIndex // built on first use
 	ix    *keyIndex
 	diags Diagnostics
 	spec  *Spec
+}
+
+// pos returns the position of byte offset off in the spec text.
+func (l *loader) pos(off int) Pos {
+	if l.lines == nil {
+		l.lines = newLineIndex(l.src)
+	}
+	return l.lines.pos(off)
 }
 
 // rng returns the range of a key path's value (or key when keyOnly).
@@ -102,7 +111,7 @@ func (l *loader) rng(path []string, keyOnly bool) Range {
 			if keyOnly || n < len(path) {
 				r = loc.key
 			}
-			return Range{File: l.file, Start: posAt(l.src, r[0]), End: posAt(l.src, r[1])}
+			return Range{File: l.file, Start: l.pos(r[0]), End: l.pos(r[1])}
 		}
 	}
 	return Range{File: l.file, Start: Pos{Line: 1, Column: 1}, End: Pos{Line: 1, Column: 2, Byte: 1}}
@@ -178,24 +187,35 @@ func contains(list []string, s string) bool {
 
 // keys returns the table's keys in file order.
 func (t *table) keys() []string {
-	ks := make([]string, 0, len(t.m))
+	type keyed struct {
+		k   string
+		seq int
+	}
+	ks := make([]keyed, 0, len(t.m))
+	prefix := pathKey(t.path...)
+	if len(t.path) > 0 {
+		prefix += "\x1f"
+	}
 	for k := range t.m {
-		ks = append(ks, k)
-	}
-	seq := func(k string) int {
-		if loc, ok := t.l.ix.keys[pathKey(append(append([]string{}, t.path...), k)...)]; ok {
-			return loc.seq
+		// The sequence number is looked up once per key, not once per
+		// comparison: tables such as [metrics] can hold thousands of keys.
+		seq := math.MaxInt
+		if loc, ok := t.l.ix.keys[prefix+k]; ok {
+			seq = loc.seq
 		}
-		return math.MaxInt
+		ks = append(ks, keyed{k, seq})
 	}
-	sort.SliceStable(ks, func(i, j int) bool {
-		si, sj := seq(ks[i]), seq(ks[j])
-		if si != sj {
-			return si < sj
+	sort.Slice(ks, func(i, j int) bool {
+		if ks[i].seq != ks[j].seq {
+			return ks[i].seq < ks[j].seq
 		}
-		return ks[i] < ks[j]
+		return ks[i].k < ks[j].k
 	})
-	return ks
+	out := make([]string, len(ks))
+	for i, x := range ks {
+		out[i] = x.k
+	}
+	return out
 }
 
 func (t *table) p(key string) []string { return append(append([]string{}, t.path...), key) }
@@ -786,7 +806,7 @@ func (l *loader) expression(t *table, key string, src *Source, boolean bool) *Ex
 		if !mapped {
 			return at
 		}
-		return Range{File: l.file, Start: posAt(l.src, valueStart+sp.Start), End: posAt(l.src, valueStart+max(sp.End, sp.Start+1))}
+		return Range{File: l.file, Start: l.pos(valueStart + sp.Start), End: l.pos(valueStart + max(sp.End, sp.Start+1))}
 	}
 	node, ds := expr.Parse(text)
 	if node != nil && src != nil {
