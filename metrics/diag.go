@@ -34,11 +34,17 @@ type Severity int
 const (
 	Error Severity = iota
 	Warning
+	// Note records how assay read something the spec left implicit, such
+	// as weights it normalised; it needs no action.
+	Note
 )
 
 func (s Severity) String() string {
-	if s == Warning {
+	switch s {
+	case Warning:
 		return "warning"
+	case Note:
+		return "note"
 	}
 	return "error"
 }
@@ -105,8 +111,8 @@ func (ds Diagnostics) Error() string {
 // Short renders the one-line form "file:line:col: message".
 func (d Diagnostic) Short() string {
 	s := fmt.Sprintf("%s: %s", d.Subject, d.Summary)
-	if d.Severity == Warning {
-		s = fmt.Sprintf("%s: warning: %s", d.Subject, d.Summary)
+	if d.Severity == Warning || d.Severity == Note {
+		s = fmt.Sprintf("%s: %s: %s", d.Subject, d.Severity, d.Summary)
 	}
 	if d.Code != "" {
 		s += " [" + d.Code + "]"

@@ -601,33 +601,63 @@ func (l *loader) timestamp(t *table, key string, required bool) (time.Time, bool
 	return time.Time{}, false
 }
 
+// WeightTolerance is how far from 1 the written weights may sum and still
+// be read as fractions of the traffic (0.3333 three times sums to 0.9999).
+// Weights further from 1 are read as ratios (50/25/25, or 2 and 1), and
+// the loader adds a note showing the split they stand for. Either way the
+// weights are divided by their sum.
+const WeightTolerance = 1e-3
+
 func (l *loader) variants(t *table) {
 	s := l.spec
 	sum := 0.0
+	good := true
 	for _, name := range t.keys() {
 		w, ok := t.num(name)
 		if !ok {
-			if _, isNum := t.m[name].(float64); !isNum {
-				if _, isInt := t.m[name].(int64); !isInt {
-					continue
-				}
-			}
+			good = false
 			continue
 		}
 		if w <= 0 {
-			t.l.errAt(t.p(name), CodeWeights, "", "variant `%s` has weight %v; weights must be positive", name, w)
+			t.l.errAt(t.p(name), CodeWeights, "weights are shares or ratios of the traffic, e.g. 0.5 and 0.5, or 50 and 50", "variant `%s` has weight %v; weights must be positive", name, w)
+			good = false
 		}
 		l.ident(t.p(name), name, "variant name", true)
-		s.Variants = append(s.Variants, Variant{Name: name, Weight: w, At: t.l.rng(t.p(name), true)})
+		s.Variants = append(s.Variants, Variant{Name: name, Weight: w, Written: w, WrittenText: l.rawValue(t.p(name)), At: t.l.rng(t.p(name), true)})
 		sum += w
 	}
 	if len(t.m) < 2 {
 		t.l.errAt(t.path, CodeVariants, "list the baseline first, then at least one treatment, e.g. control = 0.5 and treatment = 0.5", "an experiment needs at least two variants, found %d", len(t.m))
 		return
 	}
-	if len(s.Variants) == len(t.m) && math.Abs(sum-1) > 1e-9 {
-		t.l.errAt(t.path, CodeWeights, "write weights as fractions of the traffic that sum to 1, e.g. 0.5 and 0.5", "planned weights sum to %v, not 1", strconv.FormatFloat(sum, 'g', 10, 64))
+	if !good || math.IsInf(sum, 0) || sum <= 0 {
+		if good {
+			t.l.errAt(t.path, CodeWeights, "write smaller weights, e.g. 0.5 and 0.5", "planned weights are too large to add up")
+		}
+		return
 	}
+	for i := range s.Variants {
+		s.Variants[i].Weight = s.Variants[i].Written / sum
+	}
+	if math.Abs(sum-1) <= WeightTolerance {
+		return
+	}
+	parts := make([]string, len(s.Variants))
+	for i, v := range s.Variants {
+		parts[i] = fmt.Sprintf("%s %s", v.Name, strconv.FormatFloat(100*v.Weight, 'f', 2, 64)+"%")
+	}
+	l.diags = append(l.diags, Diagnostic{Severity: Note, Code: CodeWeights, Subject: l.rng(t.path, true),
+		Summary: fmt.Sprintf("planned weights sum to %s and are read as ratios: %s", strconv.FormatFloat(sum, 'g', 10, 64), strings.Join(parts, ", ")),
+		Hint:    "write fractions that sum to 1 (within " + strconv.FormatFloat(WeightTolerance, 'g', -1, 64) + ") to silence this note"})
+}
+
+// rawValue returns the text of a key's value as written in the spec.
+func (l *loader) rawValue(path []string) string {
+	loc, ok := l.ix.keys[pathKey(path...)]
+	if !ok {
+		return ""
+	}
+	return string(l.src[loc.value[0]:loc.value[1]])
 }
 
 // ident checks that name can be used as an identifier.

@@ -37,9 +37,15 @@ type Spec struct {
 
 // Variant is one arm with its planned allocation weight.
 type Variant struct {
-	Name   string
+	Name string
+	// Weight is the planned share of traffic: the written weights divided
+	// by their sum, so the weights of all variants add up to 1.
 	Weight float64
-	At     Range
+	// Written is the weight as written in the spec (0.3333, 50, 2), for
+	// display.
+	Written     float64
+	WrittenText string
+	At          Range
 }
 
 // Source is a table, view or file the SQL reads from.
