@@ -17,6 +17,7 @@ import (
 	"github.com/BurntSushi/toml"
 
 	"github.com/assay-dev/assay/metrics/expr"
+	"github.com/assay-dev/assay/metrics/timefmt"
 )
 
 // LoadFile reads and checks the spec at path. It returns the spec (nil when
@@ -391,7 +392,7 @@ func (l *loader) load(raw map[string]any) {
 	srcs := map[string]*Source{}
 	if st := root.sub("sources", true); st != nil {
 		for _, name := range st.keys() {
-			src := l.source(name, st.sub(name, false, "table", "file", "unit", "time", "static", "columns"))
+			src := l.source(name, st.sub(name, false, "table", "file", "unit", "time", "time_format", "static", "columns"))
 			if src != nil {
 				srcs[name] = src
 				s.Sources = append(s.Sources, src)
@@ -777,6 +778,22 @@ func (l *loader) source(name string, t *table) *Source {
 	}
 	src.Unit = col("unit", true)
 	src.Time = col("time", false)
+	if tf, ok := t.str("time_format", false, ""); ok {
+		f, err := timefmt.Parse(tf)
+		switch {
+		case src.Time == "":
+			l.errKey(t.p("time_format"), CodeSource, "set time = \"column\" too, or drop time_format", "source `%s` has a time_format but no time column", name)
+		case err != nil:
+			hint := "one of " + strings.Join(timefmt.Names, ", ") + ", or a layout of " + timefmt.Verbs
+			if sg := Suggest(tf, timefmt.Names); sg != "" {
+				l.errAt(t.p("time_format"), CodeValue, hint, "%v; did you mean %q?", err, sg)
+			} else {
+				l.errAt(t.p("time_format"), CodeValue, hint, "%v", err)
+			}
+		default:
+			src.TimeFormat = f
+		}
+	}
 	src.Static, _ = t.boolean("static")
 	if src.Static && src.Time != "" {
 		l.errAt(t.p("static"), CodeSource, "drop `time` for a static attribute source, or drop `static`", "source `%s` has a time column and is marked static", name)
@@ -872,7 +889,26 @@ func (l *loader) expression(t *table, key string, src *Source, boolean bool) *Ex
 	if node == nil || len(ds) > 0 {
 		return nil
 	}
+	l.annotateTimes(node, src)
 	return &Expr{Text: text, Node: node, At: at}
+}
+
+// annotateTimes records, in each local-time function call of n, the
+// experiment's time zone and how the column stores times (the source's
+// time_format applies to its time column only).
+func (l *loader) annotateTimes(n expr.Node, src *Source) {
+	expr.Walk(n, func(x expr.Node) bool {
+		f, ok := x.(*expr.Func)
+		if !ok || !expr.IsLocal(f.Name) || len(f.Args) != 1 {
+			return true
+		}
+		tr := &expr.TimeRead{Zone: l.spec.TZName}
+		if c, ok := f.Args[0].(*expr.Column); ok && src != nil && c.Name == src.Time {
+			tr.Format = src.TimeFormat
+		}
+		f.Time = tr
+		return true
+	})
 }
 
 // exprOrigin returns the byte offset in the file where the expression text

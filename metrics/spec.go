@@ -4,6 +4,7 @@ import (
 	"time"
 
 	"github.com/assay-dev/assay/metrics/expr"
+	"github.com/assay-dev/assay/metrics/timefmt"
 )
 
 // Spec is a checked experiment definition. Every user-written part keeps
@@ -56,7 +57,10 @@ type Source struct {
 	File       string   // file path (DuckDB reads it directly), or ""
 	Unit       string   // unit id column
 	Time       string   // event time column, "" for a static attribute source
-	Static     bool     // attribute values do not change over time
+	// TimeFormat is how the time column stores times; the zero value is a
+	// native timestamp.
+	TimeFormat timefmt.Format
+	Static     bool // attribute values do not change over time
 	Columns    []string
 	At         Range
 }
