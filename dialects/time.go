@@ -97,11 +97,18 @@ func (d DuckDB) Local(us, tz, part string) string {
 	return "CAST(" + l + " AS DATE)"
 }
 
-// StoredMicros implements Dialect. Text is cast to VARCHAR first, since
-// DuckDB's CSV reader may already have typed the column.
+// StoredMicros implements Dialect. DuckDB's CSV reader may already have
+// read a text column as a TIMESTAMP (its sniffer knows several layouts),
+// so text is parsed only when the column is VARCHAR; CASE evaluates only
+// the branch it takes.
 func (d DuckDB) StoredMicros(x string, f timefmt.Format, tz string) string {
 	if f.Kind == timefmt.Text {
-		return d.Micros("strptime(CAST("+x+" AS VARCHAR), "+d.String(strftimeLayout(f, "%M", "%S", "%S.%f"))+")", tz)
+		// strptime gives a TIMESTAMP (no zone): wall-clock time in tz.
+		p := "CASE WHEN typeof(" + x + ") = 'VARCHAR' THEN strptime(CAST(" + x + " AS VARCHAR), " + d.String(strftimeLayout(f, "%M", "%S", "%S.%f")) + ") ELSE CAST(" + x + " AS TIMESTAMP) END"
+		if !isUTC(tz) {
+			p = "timezone(" + d.String(tz) + ", " + p + ")"
+		}
+		return "epoch_us(" + p + ")"
 	}
 	return epochMicros(x, f, "DOUBLE", "BIGINT")
 }
@@ -139,7 +146,11 @@ func pgParts(l, part, isodow string) string {
 // without time zone recovers the wall-clock fields read.
 func (d Postgres) StoredMicros(x string, f timefmt.Format, tz string) string {
 	if f.Kind == timefmt.Text {
-		return d.Micros("CAST(to_timestamp("+x+", "+d.String(pgLayout(f, "US"))+") AS TIMESTAMP)", tz)
+		p := "CAST(to_timestamp(" + x + ", " + d.String(pgLayout(f, "US")) + ") AS TIMESTAMP)"
+		if !isUTC(tz) {
+			p += " AT TIME ZONE " + d.String(tz)
+		}
+		return "CAST(EXTRACT(EPOCH FROM " + p + ") * 1000000 AS BIGINT)"
 	}
 	return epochMicros(x, f, "DOUBLE PRECISION", "BIGINT")
 }
