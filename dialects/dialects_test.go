@@ -228,7 +228,8 @@ var fileSource = regexp.MustCompile(`(?m)^file = "([^"]*?)([A-Za-z_]+)\.(parquet
 func testSpecs(t *testing.T, tables bool) map[string]string {
 	t.Helper()
 	paths, _ := filepath.Glob("../testdata/golden/*/spec.toml")
-	paths = append(paths, "../testdata/demo/reorder.toml")
+	local, _ := filepath.Glob("testdata/golden/*/spec.toml")
+	paths = append(append(paths, local...), "../testdata/demo/reorder.toml")
 	out := map[string]string{}
 	dir := t.TempDir()
 	for _, p := range paths {

@@ -1,4 +1,4 @@
--- assay 0.1.0 per-variant statistics query for experiment time-format (spec fingerprint 21bed6d06e71ba61)
+-- assay 0.1.0 per-variant statistics query for experiment time-format (spec fingerprint 5ac13a29c19e0451)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Berlin.
 -- Exposures are read in [2026-05-31T22:00:00Z, 2026-06-28T22:00:00Z); outcome windows must have ended by 2026-06-28T22:00:00Z.
 WITH
@@ -57,16 +57,15 @@ eligible AS (
   WHERE NOT c.is_crossover
     AND NOT c.is_unknown_variant
 ),
--- One pass over signups for: m_signup_3d, m_weekday_signups_3d.
+-- One pass over signups for: m_signup_3d, m_signups_3d.
 `pass_signups` AS (
   SELECT
     r.unit_id,
     -- m_signup_3d: count of rows in [trigger + 0d, trigger + 3d)
-    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 259200000000 THEN 1 END) AS `m_signup_3d`,
-    -- m_weekday_signups_3d: count of rows where local_weekday(signed_up) <= 5 in [trigger + 0d, trigger + 3d)
-    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 259200000000 AND ((MOD(EXTRACT(DAYOFWEEK FROM TIMESTAMP_MICROS(UNIX_MICROS(TIMESTAMP(PARSE_DATETIME('%d/%m/%Y %H:%M:%S', r.`c_signed_up`), 'Europe/Berlin'))) AT TIME ZONE 'Europe/Berlin') + 5, 7) + 1) <= 5) THEN 1 END) AS `m_weekday_signups_3d`
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 259200000000 THEN 1 END) AS `m_signup_3d`
+    -- m_signups_3d: count of rows in [trigger + 0d, trigger + 3d): the same as m_signup_3d
   FROM (
-    SELECT e.unit_id, UNIX_MICROS(TIMESTAMP(PARSE_DATETIME('%d/%m/%Y %H:%M:%S', s.`signed_up`), 'Europe/Berlin')) - e.trigger_us AS dt_us, s.`signed_up` AS `c_signed_up`
+    SELECT e.unit_id, UNIX_MICROS(TIMESTAMP(PARSE_DATETIME('%d/%m/%Y %H:%M:%S', s.`signed_up`), 'Europe/Berlin')) - e.trigger_us AS dt_us
     FROM eligible AS e
     JOIN `web`.`signups` AS s ON s.`visitor_id` = e.unit_id
   ) AS r
@@ -81,7 +80,7 @@ unit_values AS (
     e.trigger_day,
     (e.trigger_us + 259200000000 <= 1782684000000000) AS mature_3d,
     coalesce(p1.`m_signup_3d`, 0) AS `m_signup_3d`,
-    coalesce(p1.`m_weekday_signups_3d`, 0) AS `m_weekday_signups_3d`
+    coalesce(p1.`m_signup_3d`, 0) AS `m_signups_3d`
   FROM eligible AS e
   LEFT JOIN `pass_signups` AS p1 ON p1.unit_id = e.unit_id
 ),
@@ -89,28 +88,28 @@ unit_values AS (
 -- partial sums stay small (numerically stable whatever the engine's merge order).
 centres AS (
   SELECT
-    avg(CASE WHEN u.mature_3d THEN CAST(u.`m_weekday_signups_3d` AS FLOAT64) END) AS `c_weekday_signups_3d`
+    avg(CASE WHEN u.mature_3d THEN CAST(u.`m_signups_3d` AS FLOAT64) END) AS `c_signups_3d`
   FROM unit_values AS u
 )
 SELECT
-  '21bed6d06e71ba61' AS spec_fingerprint,
+  '5ac13a29c19e0451' AS spec_fingerprint,
   u.variant AS variant,
   count(*) AS units,
   -- signup_3d (primary, proportion): share of units whose count of rows is above 0; window [trigger + 0d, trigger + 3d), mature units only
   count(CASE WHEN u.mature_3d THEN 1 END) AS `signup_3d__n`,
   avg(CASE WHEN u.mature_3d THEN CASE WHEN u.`m_signup_3d` > 0 THEN 1.0 ELSE 0.0 END END) AS `signup_3d__mean`,
   VAR_SAMP(CASE WHEN u.mature_3d THEN CASE WHEN u.`m_signup_3d` > 0 THEN 1.0 ELSE 0.0 END END) AS `signup_3d__var`,
-  -- weekday_signups_3d (secondary, mean): mean per unit of count of rows where local_weekday(signed_up) <= 5; window [trigger + 0d, trigger + 3d), mature units only
-  count(CASE WHEN u.mature_3d THEN 1 END) AS `weekday_signups_3d__n`,
-  CASE WHEN min(CASE WHEN u.mature_3d THEN CAST(u.`m_weekday_signups_3d` AS FLOAT64) END) = max(CASE WHEN u.mature_3d THEN CAST(u.`m_weekday_signups_3d` AS FLOAT64) END) THEN min(CASE WHEN u.mature_3d THEN CAST(u.`m_weekday_signups_3d` AS FLOAT64) END) ELSE min(c0.`c_weekday_signups_3d`) + avg((CASE WHEN u.mature_3d THEN CAST(u.`m_weekday_signups_3d` AS FLOAT64) END - c0.`c_weekday_signups_3d`)) END AS `weekday_signups_3d__mean`,
-  VAR_SAMP((CASE WHEN u.mature_3d THEN CAST(u.`m_weekday_signups_3d` AS FLOAT64) END - c0.`c_weekday_signups_3d`)) AS `weekday_signups_3d__var`
+  -- signups_3d (secondary, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 3d), mature units only
+  count(CASE WHEN u.mature_3d THEN 1 END) AS `signups_3d__n`,
+  CASE WHEN min(CASE WHEN u.mature_3d THEN CAST(u.`m_signups_3d` AS FLOAT64) END) = max(CASE WHEN u.mature_3d THEN CAST(u.`m_signups_3d` AS FLOAT64) END) THEN min(CASE WHEN u.mature_3d THEN CAST(u.`m_signups_3d` AS FLOAT64) END) ELSE min(c0.`c_signups_3d`) + avg((CASE WHEN u.mature_3d THEN CAST(u.`m_signups_3d` AS FLOAT64) END - c0.`c_signups_3d`)) END AS `signups_3d__mean`,
+  VAR_SAMP((CASE WHEN u.mature_3d THEN CAST(u.`m_signups_3d` AS FLOAT64) END - c0.`c_signups_3d`)) AS `signups_3d__var`
 FROM unit_values AS u
 CROSS JOIN centres AS c0
 GROUP BY u.variant
 ORDER BY u.variant
 ;
 
--- assay 0.1.0 health query for experiment time-format (spec fingerprint 21bed6d06e71ba61)
+-- assay 0.1.0 health query for experiment time-format (spec fingerprint 5ac13a29c19e0451)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Berlin.
 -- Exposures are read in [2026-05-31T22:00:00Z, 2026-06-28T22:00:00Z); outcome windows must have ended by 2026-06-28T22:00:00Z.
 WITH

@@ -1,4 +1,4 @@
--- assay 0.1.0 per-variant statistics query for experiment local-time (spec fingerprint 9e949b47d6a28b93)
+-- assay 0.1.0 per-variant statistics query for experiment local-time (spec fingerprint 2c354e292afbe15a)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as America/Chicago.
 -- Exposures are read in [2026-03-02T06:00:00Z, 2026-03-30T05:00:00Z); outcome windows must have ended by 2026-03-30T05:00:00Z.
 WITH
@@ -57,12 +57,14 @@ eligible AS (
   WHERE NOT c.is_crossover
     AND NOT c.is_unknown_variant
 ),
--- One pass over orders for: m_staffed_orders_14d, m_first_week_revenue.
+-- One pass over orders for: m_staffed_orders_14d, m_weekday_signups_14d, m_first_week_revenue.
 `pass_orders` AS (
   SELECT
     r.unit_id,
     -- m_staffed_orders_14d: count of rows where local_hour(ordered_at) BETWEEN 9 AND 16 AND local_weekday(ordered_at) <= 5 in [trigger + 0d, trigger + 14d)
     count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (HOUR(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')) BETWEEN 9 AND 16 AND (WEEKDAY(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')) + 1) <= 5) THEN 1 END) AS `m_staffed_orders_14d`,
+    -- m_weekday_signups_14d: count of rows where local_weekday(ordered_at) >= 6 AND local_date(ordered_at) <> CAST('2026-03-08' AS DATE) in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND ((WEEKDAY(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')) + 1) >= 6 AND DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')) <> CAST(_utf8mb4'2026-03-08' COLLATE utf8mb4_bin AS DATE)) THEN 1 END) AS `m_weekday_signups_14d`,
     -- m_first_week_revenue: sum of CASE WHEN local_week(ordered_at) = CAST('2026-03-02' AS DATE) THEN total ELSE 0 END in [trigger + 0d, trigger + 14d)
     CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND CAST(CASE WHEN DATE_SUB(DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')), INTERVAL WEEKDAY(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')) DAY) = CAST(_utf8mb4'2026-03-02' COLLATE utf8mb4_bin AS DATE) THEN r.`c_total` ELSE 0 END AS DOUBLE) - CAST(CASE WHEN DATE_SUB(DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')), INTERVAL WEEKDAY(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')) DAY) = CAST(_utf8mb4'2026-03-02' COLLATE utf8mb4_bin AS DATE) THEN r.`c_total` ELSE 0 END AS DOUBLE) = 0 THEN CAST(CAST(CASE WHEN DATE_SUB(DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')), INTERVAL WEEKDAY(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')) DAY) = CAST(_utf8mb4'2026-03-02' COLLATE utf8mb4_bin AS DATE) THEN r.`c_total` ELSE 0 END AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS `m_first_week_revenue`,
     count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND NOT (CAST(CASE WHEN DATE_SUB(DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')), INTERVAL WEEKDAY(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')) DAY) = CAST(_utf8mb4'2026-03-02' COLLATE utf8mb4_bin AS DATE) THEN r.`c_total` ELSE 0 END AS DOUBLE) - CAST(CASE WHEN DATE_SUB(DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')), INTERVAL WEEKDAY(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(r.`c_ordered_at`, 'America/Chicago', '+00:00')), TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'America/Chicago')) DAY) = CAST(_utf8mb4'2026-03-02' COLLATE utf8mb4_bin AS DATE) THEN r.`c_total` ELSE 0 END AS DOUBLE) = 0) THEN 1 END) AS `m_first_week_revenue__nonfinite`
@@ -82,6 +84,7 @@ unit_values AS (
     e.trigger_day,
     (e.trigger_us + 1209600000000 <= 1774846800000000) AS mature_14d,
     coalesce(p1.`m_staffed_orders_14d`, 0) AS `m_staffed_orders_14d`,
+    coalesce(p1.`m_weekday_signups_14d`, 0) AS `m_weekday_signups_14d`,
     coalesce(p1.`m_first_week_revenue`, 0) AS `m_first_week_revenue`,
     coalesce(p1.`m_first_week_revenue__nonfinite`, 0) AS `m_first_week_revenue__nonfinite`
   FROM eligible AS e
@@ -92,17 +95,22 @@ unit_values AS (
 centres AS (
   SELECT
     avg(CASE WHEN u.mature_14d THEN CAST(u.`m_staffed_orders_14d` AS DOUBLE) END) AS `c_staffed_orders_14d`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_weekday_signups_14d` AS DOUBLE) END) AS `c_weekday_signups_14d`,
     avg(CASE WHEN u.mature_14d THEN CAST(u.`m_first_week_revenue` AS DOUBLE) END) AS `c_first_week_revenue`
   FROM unit_values AS u
 )
 SELECT
-  '9e949b47d6a28b93' AS spec_fingerprint,
+  '2c354e292afbe15a' AS spec_fingerprint,
   u.variant AS variant,
   count(*) AS units,
   -- staffed_orders_14d (primary, mean): mean per unit of count of rows where local_hour(ordered_at) BETWEEN 9 AND 16 AND local_weekday(ordered_at) <= 5; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS `staffed_orders_14d__n`,
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_staffed_orders_14d` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_staffed_orders_14d` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_staffed_orders_14d` AS DOUBLE) END) ELSE min(c0.`c_staffed_orders_14d`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_staffed_orders_14d` AS DOUBLE) END - c0.`c_staffed_orders_14d`)) END AS `staffed_orders_14d__mean`,
   VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_staffed_orders_14d` AS DOUBLE) END - c0.`c_staffed_orders_14d`)) AS `staffed_orders_14d__var`,
+  -- weekday_signups_14d (secondary, mean): mean per unit of count of rows where local_weekday(ordered_at) >= 6 AND local_date(ordered_at) <> CAST('2026-03-08' AS DATE); window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS `weekday_signups_14d__n`,
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_weekday_signups_14d` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_weekday_signups_14d` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_weekday_signups_14d` AS DOUBLE) END) ELSE min(c0.`c_weekday_signups_14d`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_weekday_signups_14d` AS DOUBLE) END - c0.`c_weekday_signups_14d`)) END AS `weekday_signups_14d__mean`,
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_weekday_signups_14d` AS DOUBLE) END - c0.`c_weekday_signups_14d`)) AS `weekday_signups_14d__var`,
   -- first_week_revenue (secondary, mean): mean per unit of sum of CASE WHEN local_week(ordered_at) = CAST('2026-03-02' AS DATE) THEN total ELSE 0 END; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS `first_week_revenue__n`,
   sum(u.`m_first_week_revenue__nonfinite`) AS `first_week_revenue__nonfinite_rows`,
@@ -114,7 +122,7 @@ GROUP BY u.variant
 ORDER BY u.variant
 ;
 
--- assay 0.1.0 health query for experiment local-time (spec fingerprint 9e949b47d6a28b93)
+-- assay 0.1.0 health query for experiment local-time (spec fingerprint 2c354e292afbe15a)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as America/Chicago.
 -- Exposures are read in [2026-03-02T06:00:00Z, 2026-03-30T05:00:00Z); outcome windows must have ended by 2026-03-30T05:00:00Z.
 WITH

@@ -1,4 +1,4 @@
--- assay 0.1.0 per-variant statistics query for experiment local-time (spec fingerprint 9e949b47d6a28b93)
+-- assay 0.1.0 per-variant statistics query for experiment local-time (spec fingerprint 2c354e292afbe15a)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as America/Chicago.
 -- Exposures are read in [2026-03-02T06:00:00Z, 2026-03-30T05:00:00Z); outcome windows must have ended by 2026-03-30T05:00:00Z.
 WITH
@@ -7,11 +7,11 @@ exposure_rows AS (
   SELECT
     x."visitor_id" AS unit_id,
     CAST(x."arm" AS VARCHAR) AS variant,
-    CAST(to_unixtime(with_timezone(x."viewed_at", 'America/Chicago')) * 1000000 AS BIGINT) AS ts_us,
-    coalesce(CAST((from_unixtime_nanos(CAST(to_unixtime(with_timezone(x."viewed_at", 'America/Chicago')) * 1000000 AS BIGINT) * 1000) AT TIME ZONE 'America/Chicago') AS DATE) >= CAST('2026-03-02' AS DATE), FALSE) AS qualifies
+    DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', x."viewed_at")) AS ts_us,
+    coalesce(CAST(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', x."viewed_at")), 6)) AS DATE) >= CAST('2026-03-02' AS DATE), FALSE) AS qualifies
   FROM "shop"."page_views" AS x
   WHERE x."visitor_id" IS NOT NULL AND x."viewed_at" IS NOT NULL
-    AND CAST(to_unixtime(with_timezone(x."viewed_at", 'America/Chicago')) * 1000000 AS BIGINT) >= 1772431200000000 AND CAST(to_unixtime(with_timezone(x."viewed_at", 'America/Chicago')) * 1000000 AS BIGINT) < 1774846800000000
+    AND DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', x."viewed_at")) >= 1772431200000000 AND DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', x."viewed_at")) < 1774846800000000
 ),
 -- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
 -- greatest variant it was seen in (when they differ, the unit crossed over).
@@ -45,7 +45,7 @@ cohort AS (
     t.unit_id,
     t.variant,
     t.trigger_us,
-    CAST(from_unixtime_nanos(t.trigger_us * 1000) AT TIME ZONE 'America/Chicago' AS DATE) AS trigger_day,
+    CAST(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(t.trigger_us, 6)) AS DATE) AS trigger_day,
     t.is_crossover,
     (t.variant IS NULL OR t.variant NOT IN ('control', 'hours_banner')) AS is_unknown_variant
   FROM triggers AS t
@@ -57,17 +57,19 @@ eligible AS (
   WHERE NOT c.is_crossover
     AND NOT c.is_unknown_variant
 ),
--- One pass over orders for: m_staffed_orders_14d, m_first_week_revenue.
+-- One pass over orders for: m_staffed_orders_14d, m_weekday_signups_14d, m_first_week_revenue.
 "pass_orders" AS (
   SELECT
     r.unit_id,
     -- m_staffed_orders_14d: count of rows where local_hour(ordered_at) BETWEEN 9 AND 16 AND local_weekday(ordered_at) <= 5 in [trigger + 0d, trigger + 14d)
-    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (hour((from_unixtime_nanos(CAST(to_unixtime(with_timezone(r."c_ordered_at", 'America/Chicago')) * 1000000 AS BIGINT) * 1000) AT TIME ZONE 'America/Chicago')) BETWEEN 9 AND 16 AND day_of_week((from_unixtime_nanos(CAST(to_unixtime(with_timezone(r."c_ordered_at", 'America/Chicago')) * 1000000 AS BIGINT) * 1000) AT TIME ZONE 'America/Chicago')) <= 5) THEN 1 END) AS "m_staffed_orders_14d",
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (HOUR(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6))) BETWEEN 9 AND 16 AND DAYOFWEEKISO(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6))) <= 5) THEN 1 END) AS "m_staffed_orders_14d",
+    -- m_weekday_signups_14d: count of rows where local_weekday(ordered_at) >= 6 AND local_date(ordered_at) <> CAST('2026-03-08' AS DATE) in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (DAYOFWEEKISO(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6))) >= 6 AND CAST(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6)) AS DATE) <> CAST('2026-03-08' AS DATE)) THEN 1 END) AS "m_weekday_signups_14d",
     -- m_first_week_revenue: sum of CASE WHEN local_week(ordered_at) = CAST('2026-03-02' AS DATE) THEN total ELSE 0 END in [trigger + 0d, trigger + 14d)
-    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND CAST(CASE WHEN CAST(date_trunc('week', (from_unixtime_nanos(CAST(to_unixtime(with_timezone(r."c_ordered_at", 'America/Chicago')) * 1000000 AS BIGINT) * 1000) AT TIME ZONE 'America/Chicago')) AS DATE) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE) - CAST(CASE WHEN CAST(date_trunc('week', (from_unixtime_nanos(CAST(to_unixtime(with_timezone(r."c_ordered_at", 'America/Chicago')) * 1000000 AS BIGINT) * 1000) AT TIME ZONE 'America/Chicago')) AS DATE) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE) = 0 THEN CAST(CAST(CASE WHEN CAST(date_trunc('week', (from_unixtime_nanos(CAST(to_unixtime(with_timezone(r."c_ordered_at", 'America/Chicago')) * 1000000 AS BIGINT) * 1000) AT TIME ZONE 'America/Chicago')) AS DATE) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS "m_first_week_revenue",
-    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND NOT (CAST(CASE WHEN CAST(date_trunc('week', (from_unixtime_nanos(CAST(to_unixtime(with_timezone(r."c_ordered_at", 'America/Chicago')) * 1000000 AS BIGINT) * 1000) AT TIME ZONE 'America/Chicago')) AS DATE) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE) - CAST(CASE WHEN CAST(date_trunc('week', (from_unixtime_nanos(CAST(to_unixtime(with_timezone(r."c_ordered_at", 'America/Chicago')) * 1000000 AS BIGINT) * 1000) AT TIME ZONE 'America/Chicago')) AS DATE) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE) = 0) THEN 1 END) AS "m_first_week_revenue__nonfinite"
+    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND CAST(CASE WHEN DATEADD(day, 1 - DAYOFWEEKISO(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6))), CAST(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6)) AS DATE)) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE) - CAST(CASE WHEN DATEADD(day, 1 - DAYOFWEEKISO(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6))), CAST(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6)) AS DATE)) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE) = 0 THEN CAST(CAST(CASE WHEN DATEADD(day, 1 - DAYOFWEEKISO(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6))), CAST(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6)) AS DATE)) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE) AS NUMBER(38, 10)) END) AS DOUBLE) AS "m_first_week_revenue",
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND NOT (CAST(CASE WHEN DATEADD(day, 1 - DAYOFWEEKISO(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6))), CAST(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6)) AS DATE)) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE) - CAST(CASE WHEN DATEADD(day, 1 - DAYOFWEEKISO(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6))), CAST(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', r."c_ordered_at")), 6)) AS DATE)) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE) = 0) THEN 1 END) AS "m_first_week_revenue__nonfinite"
   FROM (
-    SELECT e.unit_id, CAST(to_unixtime(with_timezone(s."ordered_at", 'America/Chicago')) * 1000000 AS BIGINT) - e.trigger_us AS dt_us, s."ordered_at" AS "c_ordered_at", s."total" AS "c_total"
+    SELECT e.unit_id, DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', s."ordered_at")) - e.trigger_us AS dt_us, s."ordered_at" AS "c_ordered_at", s."total" AS "c_total"
     FROM eligible AS e
     JOIN "shop"."orders" AS s ON s."visitor_id" = e.unit_id
   ) AS r
@@ -82,6 +84,7 @@ unit_values AS (
     e.trigger_day,
     (e.trigger_us + 1209600000000 <= 1774846800000000) AS mature_14d,
     coalesce(p1."m_staffed_orders_14d", 0) AS "m_staffed_orders_14d",
+    coalesce(p1."m_weekday_signups_14d", 0) AS "m_weekday_signups_14d",
     coalesce(p1."m_first_week_revenue", 0) AS "m_first_week_revenue",
     coalesce(p1."m_first_week_revenue__nonfinite", 0) AS "m_first_week_revenue__nonfinite"
   FROM eligible AS e
@@ -92,29 +95,34 @@ unit_values AS (
 centres AS (
   SELECT
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_staffed_orders_14d" AS DOUBLE) END) AS "c_staffed_orders_14d",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_weekday_signups_14d" AS DOUBLE) END) AS "c_weekday_signups_14d",
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_first_week_revenue" AS DOUBLE) END) AS "c_first_week_revenue"
   FROM unit_values AS u
 )
 SELECT
-  '9e949b47d6a28b93' AS spec_fingerprint,
+  '2c354e292afbe15a' AS spec_fingerprint,
   u.variant AS variant,
   count(*) AS units,
   -- staffed_orders_14d (primary, mean): mean per unit of count of rows where local_hour(ordered_at) BETWEEN 9 AND 16 AND local_weekday(ordered_at) <= 5; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "staffed_orders_14d__n",
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_staffed_orders_14d" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_staffed_orders_14d" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_staffed_orders_14d" AS DOUBLE) END) ELSE min(c0."c_staffed_orders_14d") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_staffed_orders_14d" AS DOUBLE) END - c0."c_staffed_orders_14d")) END AS "staffed_orders_14d__mean",
-  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_staffed_orders_14d" AS DOUBLE) END - c0."c_staffed_orders_14d")) AS "staffed_orders_14d__var",
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u."m_staffed_orders_14d" AS DOUBLE) END - c0."c_staffed_orders_14d")) AS "staffed_orders_14d__var",
+  -- weekday_signups_14d (secondary, mean): mean per unit of count of rows where local_weekday(ordered_at) >= 6 AND local_date(ordered_at) <> CAST('2026-03-08' AS DATE); window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS "weekday_signups_14d__n",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_weekday_signups_14d" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_weekday_signups_14d" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_weekday_signups_14d" AS DOUBLE) END) ELSE min(c0."c_weekday_signups_14d") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_weekday_signups_14d" AS DOUBLE) END - c0."c_weekday_signups_14d")) END AS "weekday_signups_14d__mean",
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u."m_weekday_signups_14d" AS DOUBLE) END - c0."c_weekday_signups_14d")) AS "weekday_signups_14d__var",
   -- first_week_revenue (secondary, mean): mean per unit of sum of CASE WHEN local_week(ordered_at) = CAST('2026-03-02' AS DATE) THEN total ELSE 0 END; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "first_week_revenue__n",
   sum(u."m_first_week_revenue__nonfinite") AS "first_week_revenue__nonfinite_rows",
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_first_week_revenue" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_first_week_revenue" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_first_week_revenue" AS DOUBLE) END) ELSE min(c0."c_first_week_revenue") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_first_week_revenue" AS DOUBLE) END - c0."c_first_week_revenue")) END AS "first_week_revenue__mean",
-  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_first_week_revenue" AS DOUBLE) END - c0."c_first_week_revenue")) AS "first_week_revenue__var"
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u."m_first_week_revenue" AS DOUBLE) END - c0."c_first_week_revenue")) AS "first_week_revenue__var"
 FROM unit_values AS u
 CROSS JOIN centres AS c0
 GROUP BY u.variant
 ORDER BY u.variant
 ;
 
--- assay 0.1.0 health query for experiment local-time (spec fingerprint 9e949b47d6a28b93)
+-- assay 0.1.0 health query for experiment local-time (spec fingerprint 2c354e292afbe15a)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as America/Chicago.
 -- Exposures are read in [2026-03-02T06:00:00Z, 2026-03-30T05:00:00Z); outcome windows must have ended by 2026-03-30T05:00:00Z.
 WITH
@@ -123,11 +131,11 @@ exposure_rows AS (
   SELECT
     x."visitor_id" AS unit_id,
     CAST(x."arm" AS VARCHAR) AS variant,
-    CAST(to_unixtime(with_timezone(x."viewed_at", 'America/Chicago')) * 1000000 AS BIGINT) AS ts_us,
-    coalesce(CAST((from_unixtime_nanos(CAST(to_unixtime(with_timezone(x."viewed_at", 'America/Chicago')) * 1000000 AS BIGINT) * 1000) AT TIME ZONE 'America/Chicago') AS DATE) >= CAST('2026-03-02' AS DATE), FALSE) AS qualifies
+    DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', x."viewed_at")) AS ts_us,
+    coalesce(CAST(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', x."viewed_at")), 6)) AS DATE) >= CAST('2026-03-02' AS DATE), FALSE) AS qualifies
   FROM "shop"."page_views" AS x
   WHERE x."visitor_id" IS NOT NULL AND x."viewed_at" IS NOT NULL
-    AND CAST(to_unixtime(with_timezone(x."viewed_at", 'America/Chicago')) * 1000000 AS BIGINT) >= 1772431200000000 AND CAST(to_unixtime(with_timezone(x."viewed_at", 'America/Chicago')) * 1000000 AS BIGINT) < 1774846800000000
+    AND DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', x."viewed_at")) >= 1772431200000000 AND DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', x."viewed_at")) < 1774846800000000
 ),
 -- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
 -- greatest variant it was seen in (when they differ, the unit crossed over).
@@ -161,7 +169,7 @@ cohort AS (
     t.unit_id,
     t.variant,
     t.trigger_us,
-    CAST(from_unixtime_nanos(t.trigger_us * 1000) AT TIME ZONE 'America/Chicago' AS DATE) AS trigger_day,
+    CAST(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(t.trigger_us, 6)) AS DATE) AS trigger_day,
     t.is_crossover,
     (t.variant IS NULL OR t.variant NOT IN ('control', 'hours_banner')) AS is_unknown_variant
   FROM triggers AS t
@@ -171,8 +179,8 @@ ignored_rows AS (
   SELECT
     count(CASE WHEN x."visitor_id" IS NULL THEN 1 END) AS null_unit,
     count(CASE WHEN x."viewed_at" IS NULL THEN 1 END) AS null_time,
-    count(CASE WHEN CAST(to_unixtime(with_timezone(x."viewed_at", 'America/Chicago')) * 1000000 AS BIGINT) < 1772431200000000 THEN 1 END) AS before_start,
-    count(CASE WHEN CAST(to_unixtime(with_timezone(x."viewed_at", 'America/Chicago')) * 1000000 AS BIGINT) >= 1774846800000000 THEN 1 END) AS after_end
+    count(CASE WHEN DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', x."viewed_at")) < 1772431200000000 THEN 1 END) AS before_start,
+    count(CASE WHEN DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('America/Chicago', 'UTC', x."viewed_at")) >= 1774846800000000 THEN 1 END) AS after_end
   FROM "shop"."page_views" AS x
 ),
 -- Rows of orders that no metric or rule can use: no unit or no time.
@@ -181,9 +189,9 @@ nulls_1 AS (
   FROM "shop"."orders" AS s
 )
 SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
-  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(from_unixtime_nanos(ts_us * 1000) AT TIME ZONE 'America/Chicago' AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
+  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(ts_us, 6)) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
   FROM exposure_rows
-  GROUP BY variant, CAST(from_unixtime_nanos(ts_us * 1000) AT TIME ZONE 'America/Chicago' AS DATE)
+  GROUP BY variant, CAST(CONVERT_TIMEZONE('UTC', 'America/Chicago', TO_TIMESTAMP_NTZ(ts_us, 6)) AS DATE)
   UNION ALL
   SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
