@@ -126,7 +126,7 @@ func (pr *printer) expr(e *metrics.Expr, alias string) string {
 
 // time renders a source's time column as microseconds.
 func (pr *printer) time(src *metrics.Source, alias string) string {
-	return pr.d.Micros(alias+"."+pr.id(src.Time), pr.p.TZ)
+	return dialects.TimeMicros(pr.d, alias+"."+pr.id(src.Time), src.TimeFormat, pr.p.TZ)
 }
 
 func (pr *printer) header(what string) {
@@ -646,7 +646,7 @@ const slack = 2 * 86400e6
 // window's start and end.
 func (pr *printer) prefilter(src *metrics.Source, alias string, from, to int64) string {
 	tl, ok := pr.d.(dialects.TimeLiterals)
-	if !ok {
+	if !ok || src.TimeFormat.Text != "" { // stored as text or epoch numbers: no timestamp literal compares
 		return ""
 	}
 	col := alias + "." + pr.id(src.Time)

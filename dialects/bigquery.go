@@ -96,6 +96,7 @@ func (BigQuery) OneZero(cond string) string { return "CASE WHEN " + cond + " THE
 // Expr implements Dialect.
 func (d BigQuery) Expr(n expr.Node, col func(string) string) string {
 	return expr.Render(safeDivision(n, true), style{
+		d:   d,
 		col: col, str: d.String,
 		fn: func(name string, args []string) string {
 			switch name {

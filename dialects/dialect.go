@@ -11,6 +11,7 @@ import (
 	"sort"
 
 	"github.com/assay-dev/assay/metrics/expr"
+	"github.com/assay-dev/assay/metrics/timefmt"
 )
 
 // Dialect is the engine-specific part of SQL printing. Each method's
@@ -34,6 +35,19 @@ type Dialect interface {
 	// Day converts integer microseconds since the epoch to the calendar date
 	// in tz: DuckDB `CAST(make_timestamp(x) AS DATE)` for UTC.
 	Day(us, tz string) string
+	// Local renders a calendar part of the instant us (integer
+	// microseconds since the epoch) as seen in tz; part is PartDate,
+	// PartWeek (the date of the week's Monday), PartHour (0–23) or
+	// PartWeekday (ISO, Monday = 1): DuckDB `hour(make_timestamp(us))` for
+	// the hour in UTC, PostgreSQL `CAST(EXTRACT(HOUR FROM (TIMESTAMP
+	// '1970-01-01 00:00:00' + us * INTERVAL '1 microsecond')) AS INTEGER)`.
+	Local(us, tz, part string) string
+	// StoredMicros converts a time column stored as f (epoch numbers or
+	// text; see package timefmt) to integer microseconds since the epoch;
+	// text is wall-clock time in tz: DuckDB `CAST(CAST(x AS DOUBLE) * 1000
+	// AS BIGINT)` for epoch_millis, PostgreSQL `... to_timestamp(x,
+	// 'YYYY-MM-DD HH24:MI:SS') ...` for "%Y-%m-%d %H:%M:%S".
+	StoredMicros(x string, f timefmt.Format, tz string) string
 	// Text casts to a character string: DuckDB `CAST(x AS VARCHAR)`,
 	// MySQL `CAST(x AS CHAR)`.
 	Text(x string) string

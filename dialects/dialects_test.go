@@ -31,49 +31,53 @@ import (
 	"github.com/assay-dev/assay/metrics"
 )
 
-// Functions each dialect's output may call, lower case. Aggregates and
+// Functions each dialect's output may call, lower case. The local-time
+// and stored-time functions (date_trunc, hour, isodow, strptime,
+// to_timestamp, str_to_date, weekday, date_sub, parse_datetime, dateadd,
+// dayofweekiso, date_parse, day_of_week) were added from the same pages,
+// from memory of them. Aggregates and
 // window functions included; CAST, EXTRACT and type names with a length
 // such as VARCHAR(65535) are syntax, not calls.
 var allowed = map[string][]string{
 	// https://duckdb.org/docs/sql/functions/overview (aggregates:
 	// /docs/sql/functions/aggregates, timestamps:
 	// /docs/sql/functions/timestamptz, files: /docs/data/overview)
-	"duckdb": {"abs", "max", "min", "avg", "ceil", "coalesce", "concat", "count", "covar_samp", "epoch_us", "exp", "floor",
+	"duckdb": {"date_trunc", "hour", "isodow", "strptime", "abs", "max", "min", "avg", "ceil", "coalesce", "concat", "count", "covar_samp", "epoch_us", "exp", "floor",
 		"greatest", "least", "length", "ln", "lower", "make_timestamp", "mod", "nullif", "pow", "quantile_cont",
 		"read_csv", "read_json", "read_parquet", "round", "row_number", "sign", "sqrt", "substr", "sum", "timezone",
 		"trim", "typeof", "upper", "var_samp"},
 	// https://www.postgresql.org/docs/current/functions-aggregate.html,
 	// /functions-math.html, /functions-string.html, /functions-window.html
-	"postgres": {"abs", "max", "min", "avg", "ceil", "char_length", "coalesce", "count", "covar_samp", "exp", "floor", "greatest",
+	"postgres": {"date_trunc", "to_timestamp", "abs", "max", "min", "avg", "ceil", "char_length", "coalesce", "count", "covar_samp", "exp", "floor", "greatest",
 		"least", "ln", "lower", "mod", "nullif", "percentile_cont", "pg_typeof", "power", "round", "row_number",
 		"sign", "sqrt", "substr", "sum", "trim", "upper", "var_samp"},
 	// https://dev.mysql.com/doc/refman/8.0/en/built-in-function-reference.html
 	// and https://mariadb.com/kb/en/built-in-functions/ (both list each one)
-	"mysql": {"abs", "max", "min", "avg", "ceiling", "char_length", "coalesce", "concat", "convert_tz", "count", "date", "exp",
+	"mysql": {"date_sub", "hour", "str_to_date", "weekday", "abs", "max", "min", "avg", "ceiling", "char_length", "coalesce", "concat", "convert_tz", "count", "date", "exp",
 		"floor", "greatest", "group_concat", "least", "ln", "lower", "mod", "nullif", "power", "round", "row_number",
 		"sign", "sqrt", "substring", "substring_index", "sum", "timestampadd", "timestampdiff", "trim", "upper",
 		"var_samp"},
 	// https://cloud.google.com/bigquery/docs/reference/standard-sql/functions-all
-	"bigquery": {"abs", "max", "min", "array_agg", "avg", "ceil", "coalesce", "concat", "count", "covar_samp", "date", "exp",
+	"bigquery": {"date_trunc", "parse_datetime", "abs", "max", "min", "array_agg", "avg", "ceil", "coalesce", "concat", "count", "covar_samp", "date", "exp",
 		"floor", "greatest", "least", "length", "ln", "lower", "mod", "nullif", "pow", "round", "row_number",
 		"safe_offset", "sign", "sqrt", "substr", "sum", "timestamp", "timestamp_micros", "trim", "unix_micros",
 		"upper", "var_samp"},
 	// https://docs.snowflake.com/en/sql-reference/functions-all
-	"snowflake": {"abs", "max", "min", "avg", "ceil", "coalesce", "concat", "convert_timezone", "count", "covar_samp", "date_part",
+	"snowflake": {"dateadd", "dayofweekiso", "hour", "abs", "max", "min", "avg", "ceil", "coalesce", "concat", "convert_timezone", "count", "covar_samp", "date_part",
 		"exp", "floor", "greatest", "least", "length", "ln", "lower", "mod", "nullif", "percentile_cont", "power",
 		"round", "row_number", "sign", "sqrt", "substr", "sum", "to_timestamp_ntz", "trim", "upper", "var_samp"},
 	// https://trino.io/docs/current/functions/list.html
-	"trino": {"abs", "max", "min", "array_agg", "array_sort", "avg", "ceil", "ceiling", "coalesce", "count", "covar_samp",
+	"trino": {"date_parse", "date_trunc", "day_of_week", "hour", "abs", "max", "min", "array_agg", "array_sort", "avg", "ceil", "ceiling", "coalesce", "count", "covar_samp",
 		"element_at", "exp", "floor", "from_unixtime_nanos", "greatest", "least", "length", "ln", "lower", "mod",
 		"nullif", "power", "round", "row_number", "sign", "sqrt", "substr", "sum", "to_unixtime", "trim", "upper",
 		"var_samp", "with_timezone"},
 	// https://spark.apache.org/docs/latest/api/sql/index.html
-	"spark": {"abs", "max", "min", "avg", "ceil", "char_length", "coalesce", "concat", "count", "covar_samp", "exp", "floor",
+	"spark": {"date_trunc", "hour", "to_timestamp", "weekday", "abs", "max", "min", "avg", "ceil", "char_length", "coalesce", "concat", "count", "covar_samp", "exp", "floor",
 		"from_utc_timestamp", "greatest", "least", "ln", "lower", "mod", "nullif", "percentile", "power", "round",
 		"row_number", "sign", "sqrt", "substr", "sum", "timestamp_micros", "to_utc_timestamp", "trim",
 		"unix_micros", "upper", "var_samp"},
 	// https://docs.aws.amazon.com/redshift/latest/dg/c_SQL_functions.html
-	"redshift": {"abs", "max", "min", "avg", "ceil", "coalesce", "convert_timezone", "count", "datediff", "exp", "floor",
+	"redshift": {"date_trunc", "to_timestamp", "abs", "max", "min", "avg", "ceil", "coalesce", "convert_timezone", "count", "datediff", "exp", "floor",
 		"greatest", "least", "length", "ln", "lower", "mod", "nullif", "percentile_cont", "power", "round",
 		"row_number", "sign", "sqrt", "substring", "sum", "trim", "upper", "var_samp"},
 }
@@ -224,7 +228,8 @@ var fileSource = regexp.MustCompile(`(?m)^file = "([^"]*?)([A-Za-z_]+)\.(parquet
 func testSpecs(t *testing.T, tables bool) map[string]string {
 	t.Helper()
 	paths, _ := filepath.Glob("../testdata/golden/*/spec.toml")
-	paths = append(paths, "../testdata/demo/reorder.toml")
+	local, _ := filepath.Glob("testdata/golden/*/spec.toml")
+	paths = append(append(paths, local...), "../testdata/demo/reorder.toml")
 	out := map[string]string{}
 	dir := t.TempDir()
 	for _, p := range paths {
@@ -275,7 +280,7 @@ columns = ["u", "v", "t", "a", "b", "s", "odd ` + "`" + ` col\"q"]
 [exposure]
 source = "ex"
 variant = "v"
-filter = '''lower(s) = 'x' OR upper(trim(s)) LIKE 'A%' OR substr(s, 1, 2) IN ('ab', 'cd') OR concat(s, 'it''s', s) = 'a\b' OR CAST(a AS VARCHAR) = '' OR CAST(s AS DATE) IS NULL OR CAST(s AS TIMESTAMP) IS NOT NULL OR CAST(a AS BOOLEAN) OR a BETWEEN 1 AND 2 OR CASE WHEN a > 1 THEN TRUE ELSE FALSE END OR "odd ` + "`" + ` col""q" = 'tab	here''''
+filter = '''lower(s) = 'x' OR upper(trim(s)) LIKE 'A%' OR substr(s, 1, 2) IN ('ab', 'cd') OR concat(s, 'it''s', s) = 'a\b' OR CAST(a AS VARCHAR) = '' OR CAST('2026-05-01' AS DATE) IS NULL OR CAST('2026-05-01 00:00:00' AS TIMESTAMP) IS NOT NULL OR local_date(t) = CAST('2026-05-01' AS DATE) OR local_week(t) = CAST('2026-04-27' AS DATE) OR local_hour(t) = 9 OR local_weekday(t) = 7 OR CAST(a AS BOOLEAN) OR a BETWEEN 1 AND 2 OR CASE WHEN a > 1 THEN TRUE ELSE FALSE END OR "odd ` + "`" + ` col""q" = 'tab	here''''
 
 [metrics.everything]
 role = "primary"

@@ -144,6 +144,9 @@ type duckStyle struct {
 func (s duckStyle) Column(name string) string { return s.col(name) }
 func (s duckStyle) String(v string) string    { return s.d.String(v) }
 
+// Local implements expr.LocalStyle.
+func (s duckStyle) Local(f *expr.Func, x string) string { return localCall(s.d, f, x) }
+
 func (s duckStyle) Func(name string, args []string) string {
 	switch name {
 	case "ceil":

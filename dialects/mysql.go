@@ -111,6 +111,7 @@ func (d MySQL) OneZero(cond string) string {
 // Expr implements Dialect.
 func (d MySQL) Expr(n expr.Node, col func(string) string) string {
 	return expr.Render(safeDivision(n, false), style{
+		d:   d,
 		col: col,
 		str: func(s string) string { return "_utf8mb4" + d.String(s) + " COLLATE utf8mb4_bin" },
 		fn: func(name string, args []string) string {

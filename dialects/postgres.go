@@ -89,6 +89,7 @@ func (Postgres) OneZero(cond string) string { return "CASE WHEN " + cond + " THE
 // Expr implements Dialect.
 func (d Postgres) Expr(n expr.Node, col func(string) string) string {
 	return expr.Render(safeDivision(n, false), style{
+		d:   d,
 		col: col, str: d.String,
 		fn: func(name string, args []string) string {
 			switch name {
@@ -124,12 +125,14 @@ type style struct {
 	str  func(string) string
 	fn   func(name string, args []string) string
 	cast func(x string, to expr.Type) string
+	d    Dialect // prints the local-time functions
 }
 
 func (s style) Column(name string) string              { return s.col(name) }
 func (s style) String(v string) string                 { return s.str(v) }
 func (s style) Func(name string, args []string) string { return s.fn(name, args) }
 func (s style) Cast(x string, to expr.Type) string     { return s.cast(x, to) }
+func (s style) Local(f *expr.Func, x string) string    { return localCall(s.d, f, x) }
 func call(name string, args []string) string           { return name + "(" + strings.Join(args, ", ") + ")" }
 func concatOp(args []string) string                    { return "(" + strings.Join(args, " || ") + ")" }
 func isUTC(tz string) bool                             { return tz == "" || tz == "UTC" }

@@ -89,6 +89,7 @@ func (d Redshift) OneZero(cond string) string {
 // Expr implements Dialect.
 func (d Redshift) Expr(n expr.Node, col func(string) string) string {
 	return expr.Render(safeDivision(n, false), style{
+		d:   d,
 		col: col, str: d.String,
 		fn: func(name string, args []string) string {
 			switch name {

@@ -87,6 +87,7 @@ func (d Snowflake) OneZero(cond string) string {
 // Expr implements Dialect.
 func (d Snowflake) Expr(n expr.Node, col func(string) string) string {
 	return expr.Render(safeDivision(n, false), style{
+		d:   d,
 		col: col, str: d.String,
 		fn: func(name string, args []string) string { return call(strings.ToUpper(name), args) },
 		cast: func(x string, to expr.Type) string {

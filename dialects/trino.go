@@ -92,6 +92,7 @@ func (d Trino) OneZero(cond string) string {
 // Expr implements Dialect.
 func (d Trino) Expr(n expr.Node, col func(string) string) string {
 	return expr.Render(safeDivision(n, false), style{
+		d:   d,
 		col: col, str: d.String,
 		fn: func(name string, args []string) string {
 			if name == "concat" {

@@ -260,10 +260,10 @@ func checkColumns(spec *metrics.Spec, src *metrics.Source, what string, cols []c
 		if !ok {
 			c, ok = folded[strings.ToLower(src.Time)]
 		}
-		if ok && c.Type != "" && !isTimeType(c.Type) {
+		if ok && c.Type != "" && !isTimeType(c.Type) && src.TimeFormat.Text == "" {
 			ds = append(ds, metrics.Diagnostic{Code: metrics.CodeSource, Subject: rangeOr(spec, src.At, "sources", src.Name, "time"),
 				Summary: fmt.Sprintf("source `%s`: time column `%s` is %s, not a date or timestamp", src.Name, src.Time, c.Type),
-				Hint:    "point `time` at a TIMESTAMP column, or cast the column in a view"})
+				Hint:    "point `time` at a TIMESTAMP column, or declare how it stores times with time_format"})
 		}
 	}
 	return ds

@@ -22,10 +22,11 @@ const (
 	// CodeDuplicate: a name is declared twice.
 	//   columns = ["id", "id"]
 	CodeDuplicate = "duplicate"
-	// CodeWeights: planned allocation weights do not sum to 1.
+	// CodeWeights: a planned allocation weight that is not positive (also the
+	// code of the note that reads weights not summing to 1 as ratios).
 	//   [variants]
 	//   control = 0.5
-	//   shelf = 0.6
+	//   shelf = -0.5
 	CodeWeights = "weights"
 	// CodeVariants: fewer than two variants.
 	//   [variants]

@@ -34,11 +34,17 @@ type Severity int
 const (
 	Error Severity = iota
 	Warning
+	// Note records how assay read something the spec left implicit, such
+	// as weights it normalised; it needs no action.
+	Note
 )
 
 func (s Severity) String() string {
-	if s == Warning {
+	switch s {
+	case Warning:
 		return "warning"
+	case Note:
+		return "note"
 	}
 	return "error"
 }
@@ -105,8 +111,8 @@ func (ds Diagnostics) Error() string {
 // Short renders the one-line form "file:line:col: message".
 func (d Diagnostic) Short() string {
 	s := fmt.Sprintf("%s: %s", d.Subject, d.Summary)
-	if d.Severity == Warning {
-		s = fmt.Sprintf("%s: warning: %s", d.Subject, d.Summary)
+	if d.Severity == Warning || d.Severity == Note {
+		s = fmt.Sprintf("%s: %s: %s", d.Subject, d.Severity, d.Summary)
 	}
 	if d.Code != "" {
 		s += " [" + d.Code + "]"
@@ -194,25 +200,40 @@ func sanitizeLine(s string) string {
 
 // posAt converts a byte offset of src into a Pos.
 func posAt(src []byte, off int) Pos {
-	if off > len(src) {
-		off = len(src)
-	}
-	if off < 0 {
-		off = 0
-	}
-	line, col := 1, 1
-	for i := 0; i < off; {
-		if src[i] == '\n' {
-			line++
-			col = 1
-			i++
-			continue
+	return newLineIndex(src).pos(off)
+}
+
+// lineIndex maps byte offsets to line and column in O(log lines + line
+// length), so that locating every key of a large spec stays linear in the
+// spec's size rather than quadratic (a scan from the file's start per
+// lookup made a 3000-metric spec take over a minute to check).
+type lineIndex struct {
+	src    []byte
+	starts []int // byte offset of the first byte of each line
+}
+
+func newLineIndex(src []byte) *lineIndex {
+	starts := []int{0}
+	for i, c := range src {
+		if c == '\n' {
+			starts = append(starts, i+1)
 		}
-		_, size := utf8.DecodeRune(src[i:])
+	}
+	return &lineIndex{src: src, starts: starts}
+}
+
+// pos returns the position of byte offset off, clamped to the text. Columns
+// count runes from 1.
+func (x *lineIndex) pos(off int) Pos {
+	off = min(max(off, 0), len(x.src))
+	line := sort.SearchInts(x.starts, off+1) - 1 // last start <= off
+	col := 1
+	for i := x.starts[line]; i < off; {
+		_, size := utf8.DecodeRune(x.src[i:])
 		col++
 		i += size
 	}
-	return Pos{Line: line, Column: col, Byte: off}
+	return Pos{Line: line + 1, Column: col, Byte: off}
 }
 
 // Suggest returns the candidate closest to s by edit distance when the

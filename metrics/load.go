@@ -17,6 +17,7 @@ import (
 	"github.com/BurntSushi/toml"
 
 	"github.com/assay-dev/assay/metrics/expr"
+	"github.com/assay-dev/assay/metrics/timefmt"
 )
 
 // LoadFile reads and checks the spec at path. It returns the spec (nil when
@@ -71,8 +72,8 @@ func Load(file string, src []byte) (*Spec, Diagnostics) {
 func (l *loader) syntaxDiag(err error) Diagnostic {
 	var pe toml.ParseError
 	if errors.As(err, &pe) {
-		start := posAt(l.src, pe.Position.Start)
-		end := posAt(l.src, pe.Position.Start+max(pe.Position.Len, 1))
+		start := l.pos(pe.Position.Start)
+		end := l.pos(pe.Position.Start + max(pe.Position.Len, 1))
 		msg := pe.Message
 		hint := ""
 		if pe.Usage != "" {
@@ -89,9 +90,18 @@ func (l *loader) syntaxDiag(err error) Diagnostic {
 type loader struct {
 	file  string
 	src   []byte
+	lines *lineIndex // built on first use
 	ix    *keyIndex
 	diags Diagnostics
 	spec  *Spec
+}
+
+// pos returns the position of byte offset off in the spec text.
+func (l *loader) pos(off int) Pos {
+	if l.lines == nil {
+		l.lines = newLineIndex(l.src)
+	}
+	return l.lines.pos(off)
 }
 
 // rng returns the range of a key path's value (or key when keyOnly).
@@ -102,7 +112,7 @@ func (l *loader) rng(path []string, keyOnly bool) Range {
 			if keyOnly || n < len(path) {
 				r = loc.key
 			}
-			return Range{File: l.file, Start: posAt(l.src, r[0]), End: posAt(l.src, r[1])}
+			return Range{File: l.file, Start: l.pos(r[0]), End: l.pos(r[1])}
 		}
 	}
 	return Range{File: l.file, Start: Pos{Line: 1, Column: 1}, End: Pos{Line: 1, Column: 2, Byte: 1}}
@@ -178,24 +188,35 @@ func contains(list []string, s string) bool {
 
 // keys returns the table's keys in file order.
 func (t *table) keys() []string {
-	ks := make([]string, 0, len(t.m))
+	type keyed struct {
+		k   string
+		seq int
+	}
+	ks := make([]keyed, 0, len(t.m))
+	prefix := pathKey(t.path...)
+	if len(t.path) > 0 {
+		prefix += "\x1f"
+	}
 	for k := range t.m {
-		ks = append(ks, k)
-	}
-	seq := func(k string) int {
-		if loc, ok := t.l.ix.keys[pathKey(append(append([]string{}, t.path...), k)...)]; ok {
-			return loc.seq
+		// The sequence number is looked up once per key, not once per
+		// comparison: tables such as [metrics] can hold thousands of keys.
+		seq := math.MaxInt
+		if loc, ok := t.l.ix.keys[prefix+k]; ok {
+			seq = loc.seq
 		}
-		return math.MaxInt
+		ks = append(ks, keyed{k, seq})
 	}
-	sort.SliceStable(ks, func(i, j int) bool {
-		si, sj := seq(ks[i]), seq(ks[j])
-		if si != sj {
-			return si < sj
+	sort.Slice(ks, func(i, j int) bool {
+		if ks[i].seq != ks[j].seq {
+			return ks[i].seq < ks[j].seq
 		}
-		return ks[i] < ks[j]
+		return ks[i].k < ks[j].k
 	})
-	return ks
+	out := make([]string, len(ks))
+	for i, x := range ks {
+		out[i] = x.k
+	}
+	return out
 }
 
 func (t *table) p(key string) []string { return append(append([]string{}, t.path...), key) }
@@ -371,7 +392,7 @@ func (l *loader) load(raw map[string]any) {
 	srcs := map[string]*Source{}
 	if st := root.sub("sources", true); st != nil {
 		for _, name := range st.keys() {
-			src := l.source(name, st.sub(name, false, "table", "file", "unit", "time", "static", "columns"))
+			src := l.source(name, st.sub(name, false, "table", "file", "unit", "time", "time_format", "static", "columns"))
 			if src != nil {
 				srcs[name] = src
 				s.Sources = append(s.Sources, src)
@@ -581,33 +602,63 @@ func (l *loader) timestamp(t *table, key string, required bool) (time.Time, bool
 	return time.Time{}, false
 }
 
+// WeightTolerance is how far from 1 the written weights may sum and still
+// be read as fractions of the traffic (0.3333 three times sums to 0.9999).
+// Weights further from 1 are read as ratios (50/25/25, or 2 and 1), and
+// the loader adds a note showing the split they stand for. Either way the
+// weights are divided by their sum.
+const WeightTolerance = 1e-3
+
 func (l *loader) variants(t *table) {
 	s := l.spec
 	sum := 0.0
+	good := true
 	for _, name := range t.keys() {
 		w, ok := t.num(name)
 		if !ok {
-			if _, isNum := t.m[name].(float64); !isNum {
-				if _, isInt := t.m[name].(int64); !isInt {
-					continue
-				}
-			}
+			good = false
 			continue
 		}
 		if w <= 0 {
-			t.l.errAt(t.p(name), CodeWeights, "", "variant `%s` has weight %v; weights must be positive", name, w)
+			t.l.errAt(t.p(name), CodeWeights, "weights are shares or ratios of the traffic, e.g. 0.5 and 0.5, or 50 and 50", "variant `%s` has weight %v; weights must be positive", name, w)
+			good = false
 		}
 		l.ident(t.p(name), name, "variant name", true)
-		s.Variants = append(s.Variants, Variant{Name: name, Weight: w, At: t.l.rng(t.p(name), true)})
+		s.Variants = append(s.Variants, Variant{Name: name, Weight: w, Written: w, WrittenText: l.rawValue(t.p(name)), At: t.l.rng(t.p(name), true)})
 		sum += w
 	}
 	if len(t.m) < 2 {
 		t.l.errAt(t.path, CodeVariants, "list the baseline first, then at least one treatment, e.g. control = 0.5 and treatment = 0.5", "an experiment needs at least two variants, found %d", len(t.m))
 		return
 	}
-	if len(s.Variants) == len(t.m) && math.Abs(sum-1) > 1e-9 {
-		t.l.errAt(t.path, CodeWeights, "write weights as fractions of the traffic that sum to 1, e.g. 0.5 and 0.5", "planned weights sum to %v, not 1", strconv.FormatFloat(sum, 'g', 10, 64))
+	if !good || math.IsInf(sum, 0) || sum <= 0 {
+		if good {
+			t.l.errAt(t.path, CodeWeights, "write smaller weights, e.g. 0.5 and 0.5", "planned weights are too large to add up")
+		}
+		return
 	}
+	for i := range s.Variants {
+		s.Variants[i].Weight = s.Variants[i].Written / sum
+	}
+	if math.Abs(sum-1) <= WeightTolerance {
+		return
+	}
+	parts := make([]string, len(s.Variants))
+	for i, v := range s.Variants {
+		parts[i] = fmt.Sprintf("%s %s", v.Name, strconv.FormatFloat(100*v.Weight, 'f', 2, 64)+"%")
+	}
+	l.diags = append(l.diags, Diagnostic{Severity: Note, Code: CodeWeights, Subject: l.rng(t.path, true),
+		Summary: fmt.Sprintf("planned weights sum to %s and are read as ratios: %s", strconv.FormatFloat(sum, 'g', 10, 64), strings.Join(parts, ", ")),
+		Hint:    "write fractions that sum to 1 (within " + strconv.FormatFloat(WeightTolerance, 'g', -1, 64) + ") to silence this note"})
+}
+
+// rawValue returns the text of a key's value as written in the spec.
+func (l *loader) rawValue(path []string) string {
+	loc, ok := l.ix.keys[pathKey(path...)]
+	if !ok {
+		return ""
+	}
+	return string(l.src[loc.value[0]:loc.value[1]])
 }
 
 // ident checks that name can be used as an identifier.
@@ -727,6 +778,22 @@ func (l *loader) source(name string, t *table) *Source {
 	}
 	src.Unit = col("unit", true)
 	src.Time = col("time", false)
+	if tf, ok := t.str("time_format", false, ""); ok {
+		f, err := timefmt.Parse(tf)
+		switch {
+		case src.Time == "":
+			l.errKey(t.p("time_format"), CodeSource, "set time = \"column\" too, or drop time_format", "source `%s` has a time_format but no time column", name)
+		case err != nil:
+			hint := "one of " + strings.Join(timefmt.Names, ", ") + ", or a layout of " + timefmt.Verbs
+			if sg := Suggest(tf, timefmt.Names); sg != "" {
+				l.errAt(t.p("time_format"), CodeValue, hint, "%v; did you mean %q?", err, sg)
+			} else {
+				l.errAt(t.p("time_format"), CodeValue, hint, "%v", err)
+			}
+		default:
+			src.TimeFormat = f
+		}
+	}
 	src.Static, _ = t.boolean("static")
 	if src.Static && src.Time != "" {
 		l.errAt(t.p("static"), CodeSource, "drop `time` for a static attribute source, or drop `static`", "source `%s` has a time column and is marked static", name)
@@ -786,7 +853,7 @@ func (l *loader) expression(t *table, key string, src *Source, boolean bool) *Ex
 		if !mapped {
 			return at
 		}
-		return Range{File: l.file, Start: posAt(l.src, valueStart+sp.Start), End: posAt(l.src, valueStart+max(sp.End, sp.Start+1))}
+		return Range{File: l.file, Start: l.pos(valueStart + sp.Start), End: l.pos(valueStart + max(sp.End, sp.Start+1))}
 	}
 	node, ds := expr.Parse(text)
 	if node != nil && src != nil {
@@ -822,7 +889,26 @@ func (l *loader) expression(t *table, key string, src *Source, boolean bool) *Ex
 	if node == nil || len(ds) > 0 {
 		return nil
 	}
+	l.annotateTimes(node, src)
 	return &Expr{Text: text, Node: node, At: at}
+}
+
+// annotateTimes records, in each local-time function call of n, the
+// experiment's time zone and how the column stores times (the source's
+// time_format applies to its time column only).
+func (l *loader) annotateTimes(n expr.Node, src *Source) {
+	expr.Walk(n, func(x expr.Node) bool {
+		f, ok := x.(*expr.Func)
+		if !ok || !expr.IsLocal(f.Name) || len(f.Args) != 1 {
+			return true
+		}
+		tr := &expr.TimeRead{Zone: l.spec.TZName}
+		if c, ok := f.Args[0].(*expr.Column); ok && src != nil && c.Name == src.Time {
+			tr.Format = src.TimeFormat
+		}
+		f.Time = tr
+		return true
+	})
 }
 
 // exprOrigin returns the byte offset in the file where the expression text

@@ -4,6 +4,7 @@ import (
 	"time"
 
 	"github.com/assay-dev/assay/metrics/expr"
+	"github.com/assay-dev/assay/metrics/timefmt"
 )
 
 // Spec is a checked experiment definition. Every user-written part keeps
@@ -37,9 +38,15 @@ type Spec struct {
 
 // Variant is one arm with its planned allocation weight.
 type Variant struct {
-	Name   string
+	Name string
+	// Weight is the planned share of traffic: the written weights divided
+	// by their sum, so the weights of all variants add up to 1.
 	Weight float64
-	At     Range
+	// Written is the weight as written in the spec (0.3333, 50, 2), for
+	// display.
+	Written     float64
+	WrittenText string
+	At          Range
 }
 
 // Source is a table, view or file the SQL reads from.
@@ -50,7 +57,10 @@ type Source struct {
 	File       string   // file path (DuckDB reads it directly), or ""
 	Unit       string   // unit id column
 	Time       string   // event time column, "" for a static attribute source
-	Static     bool     // attribute values do not change over time
+	// TimeFormat is how the time column stores times; the zero value is a
+	// native timestamp.
+	TimeFormat timefmt.Format
+	Static     bool // attribute values do not change over time
 	Columns    []string
 	At         Range
 }

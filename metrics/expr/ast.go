@@ -1,5 +1,7 @@
 package expr
 
+import "github.com/assay-dev/assay/metrics/timefmt"
+
 // Span is a half-open byte range [Start, End) in the expression text that
 // Parse was given.
 type Span struct {
@@ -121,6 +123,17 @@ type Func struct {
 	Name string
 	Args []Node
 	Sp   Span
+	// Time is how a local-time function (see LocalFuncs) reads its column:
+	// set by the spec loader, nil until then (printers then use UTC and a
+	// native timestamp). Equal ignores it.
+	Time *TimeRead
+}
+
+// TimeRead is the time zone a local-time function works in and how its
+// column stores times.
+type TimeRead struct {
+	Zone   string // IANA name; "" or "UTC" for UTC
+	Format timefmt.Format
 }
 
 // Case is a CASE expression. Operand is nil for a searched CASE

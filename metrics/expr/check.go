@@ -174,6 +174,12 @@ func (t *typer) errorf(sp Span, hint, format string, args ...any) {
 	}
 }
 
+func (t *typer) errorf2(code string, sp Span, hint, format string, args ...any) {
+	if t.diags != nil {
+		*t.diags = append(*t.diags, Diagnostic{Code: code, Msg: fmt.Sprintf(format, args...), Hint: hint, Span: sp})
+	}
+}
+
 // want checks that operand n, of kind got, has kind k (or is unknown).
 func (t *typer) want(n Node, got, k Kind, what string) {
 	if got != KindUnknown && got != k {
@@ -258,6 +264,14 @@ func (t *typer) kind(n Node) Kind {
 		}
 		return KindBoolean
 	case *Func:
+		if IsLocal(n.Name) {
+			for _, a := range n.Args {
+				if _, ok := a.(*Column); !ok {
+					t.errorf2(CodeLocalArg, a.Span(), "write e.g. "+n.Name+"(created_at)", "`%s` takes a column name", n.Name)
+				}
+			}
+			return funcs[n.Name].result
+		}
 		spec := funcs[n.Name]
 		if spec.args == nil {
 			k := t.unify(n.Args, "`"+n.Name+"`")
@@ -306,6 +320,10 @@ func (t *typer) kind(n Node) Kind {
 		return KindBoolean
 	case *Cast:
 		t.kind(n.X)
+		if _, lit := n.X.(*Literal); !lit && (n.To == TypeDate || n.To == TypeTimestamp) {
+			t.errorf2(CodeTimeCast, n.Sp, "use local_date(col), local_week(col), local_hour(col) or local_weekday(col), which read the time in the experiment's time_zone",
+				"CAST to %s of a value that is not a literal depends on the engine's session time zone", n.To)
+		}
 		switch n.To {
 		case TypeDouble, TypeBigInt:
 			return KindNumeric

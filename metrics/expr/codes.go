@@ -36,6 +36,8 @@ package expr
 //	E-EXPR-COLUMN        amout > 0                         unknown column (from Check)
 //	E-EXPR-TYPE          amount + 'x'                      operand of the wrong kind (from Check)
 //	E-EXPR-KIND          amount + 1  used as a filter      expression of the wrong kind (from ExpectKind)
+//	E-EXPR-TIME-CAST     CAST(created_at AS DATE)          time cast that depends on the session time zone (from Check)
+//	E-EXPR-LOCAL-ARG     local_date(a + 1)                 local-time function on something other than a column (from Check)
 const (
 	CodeEmpty        = "E-EXPR-EMPTY"
 	CodeLimit        = "E-EXPR-LIMIT"
@@ -69,4 +71,6 @@ const (
 	CodeColumn       = "E-EXPR-COLUMN"
 	CodeType         = "E-EXPR-TYPE"
 	CodeKind         = "E-EXPR-KIND"
+	CodeTimeCast     = "E-EXPR-TIME-CAST"
+	CodeLocalArg     = "E-EXPR-LOCAL-ARG"
 )

@@ -23,7 +23,12 @@
 // strings), "quoted identifiers", NOT/AND/OR, comparisons (= <> != < <= >
 // >=), + - * / %, IS [NOT] NULL, [NOT] IN (list), [NOT] BETWEEN, [NOT] LIKE,
 // CASE, CAST(x AS DOUBLE PRECISION | BIGINT | VARCHAR | DATE | TIMESTAMP |
-// BOOLEAN), and the allow-listed functions (see AllowedFuncs). Everything
+// BOOLEAN), and the allow-listed functions (see AllowedFuncs), among them
+// the local-time functions local_date, local_week, local_hour and
+// local_weekday (see LocalFuncs), which read a time column in the
+// experiment's time zone. A CAST to DATE or TIMESTAMP of anything but a
+// literal is refused (E-EXPR-TIME-CAST): its result would depend on the
+// engine's session time zone. Everything
 // else is rejected with a diagnostic that says why and what to write
 // instead; codes.go lists every code.
 //

@@ -51,6 +51,36 @@ var funcs = map[string]funcSpec{
 	"length":   {1, 1, []Kind{KindString}, KindNumeric},
 	"substr":   {2, 3, []Kind{KindString, KindNumeric, KindNumeric}, KindString},
 	"concat":   {1, -1, []Kind{KindString}, KindString},
+	// The local-time functions read a time column in the experiment's
+	// time zone (see LocalFuncs).
+	"local_date":    {1, 1, []Kind{KindUnknown}, KindTemporal},
+	"local_week":    {1, 1, []Kind{KindUnknown}, KindTemporal},
+	"local_hour":    {1, 1, []Kind{KindUnknown}, KindNumeric},
+	"local_weekday": {1, 1, []Kind{KindUnknown}, KindNumeric},
+}
+
+// LocalFuncs are the functions that turn an instant into a calendar
+// field as seen in the experiment's time zone, whatever the engine's
+// session time zone:
+//
+//   - local_date(t): the DATE;
+//   - local_week(t): the DATE of the Monday that starts t's ISO 8601 week;
+//   - local_hour(t): the hour, 0 to 23;
+//   - local_weekday(t): the ISO 8601 weekday, 1 (Monday) to 7 (Sunday).
+//
+// Their one argument is a column name. The spec loader records the zone
+// and the column's stored format in Func.Time; dialect printers render
+// them through LocalStyle.
+var LocalFuncs = []string{"local_date", "local_week", "local_hour", "local_weekday"}
+
+// IsLocal reports whether name is one of LocalFuncs.
+func IsLocal(name string) bool {
+	for _, f := range LocalFuncs {
+		if f == name {
+			return true
+		}
+	}
+	return false
 }
 
 // funcAliases maps accepted alternative spellings to the canonical name.

@@ -22,6 +22,16 @@ type Style interface {
 	Cast(x string, to Type) string
 }
 
+// LocalStyle is implemented by styles that print the local-time functions
+// (LocalFuncs) in their engine's spelling. Styles without it print them as
+// ordinary calls, as ANSI does, which Parse reads back.
+type LocalStyle interface {
+	// Local returns the SQL for f applied to the rendered column x, read in
+	// f.Time's zone and format (UTC and a native timestamp when f.Time is
+	// nil).
+	Local(f *Func, x string) string
+}
+
 // ANSI is a Style that prints standard SQL: double-quoted identifiers (with
 // " doubled), single-quoted strings (with ' doubled, backslash literal),
 // CAST(x AS DOUBLE PRECISION) and upper-case function names, with
@@ -158,6 +168,10 @@ func (r renderer) node(n Node, min int) {
 		r.b.WriteString(" " + n.Op + " ")
 		r.node(n.R, rmin)
 	case *Func:
+		if ls, ok := r.s.(LocalStyle); ok && IsLocal(n.Name) && len(n.Args) == 1 {
+			r.b.WriteString(ls.Local(n, Render(n.Args[0], r.s)))
+			return
+		}
 		args := make([]string, len(n.Args))
 		for i, a := range n.Args {
 			args[i] = Render(a, r.s)

@@ -1,0 +1,238 @@
+-- assay 0.1.0 per-variant statistics query for experiment local-time (spec fingerprint 2c354e292afbe15a)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as America/Chicago.
+-- Exposures are read in [2026-03-02T06:00:00Z, 2026-03-30T05:00:00Z); outcome windows must have ended by 2026-03-30T05:00:00Z.
+WITH
+-- Exposure rows of views inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x."visitor_id" AS unit_id,
+    CAST(x."arm" AS TEXT) AS variant,
+    CASE WHEN pg_typeof(x."viewed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."viewed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."viewed_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END AS ts_us,
+    coalesce(CAST(((TIMESTAMP '1970-01-01 00:00:00' + CASE WHEN pg_typeof(x."viewed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."viewed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."viewed_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago') AS DATE) >= CAST('2026-03-02' AS DATE), FALSE) AS qualifies
+  FROM "shop"."page_views" AS x
+  WHERE x."visitor_id" IS NOT NULL AND x."viewed_at" IS NOT NULL
+    AND CASE WHEN pg_typeof(x."viewed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."viewed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."viewed_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END >= 1772431200000000 AND CASE WHEN pg_typeof(x."viewed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."viewed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."viewed_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END < 1774846800000000
+),
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over).
+exposed_units AS (
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi,
+    (count(variant) = count(*)) AS variant_always_set
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure (a row qualifies when: local_date(viewed_at) >= CAST('2026-03-02' AS DATE)).
+-- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- its qualifying rows at the trigger time.
+triggers AS (
+  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  UNION ALL
+  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  FROM exposed_units AS u
+  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST((TIMESTAMP '1970-01-01 00:00:00' + t.trigger_us * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago' AS DATE) AS trigger_day,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'hours_banner')) AS is_unknown_variant
+  FROM triggers AS t
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day
+  FROM cohort AS c
+  WHERE NOT c.is_crossover
+    AND NOT c.is_unknown_variant
+),
+-- One pass over orders for: m_staffed_orders_14d, m_weekday_signups_14d, m_first_week_revenue.
+"pass_orders" AS (
+  SELECT
+    r.unit_id,
+    -- m_staffed_orders_14d: count of rows where local_hour(ordered_at) BETWEEN 9 AND 16 AND local_weekday(ordered_at) <= 5 in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (CAST(EXTRACT(HOUR FROM ((TIMESTAMP '1970-01-01 00:00:00' + CASE WHEN pg_typeof(r."c_ordered_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM r."c_ordered_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM r."c_ordered_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago')) AS INTEGER) BETWEEN 9 AND 16 AND CAST(EXTRACT(ISODOW FROM ((TIMESTAMP '1970-01-01 00:00:00' + CASE WHEN pg_typeof(r."c_ordered_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM r."c_ordered_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM r."c_ordered_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago')) AS INTEGER) <= 5) THEN 1 END) AS "m_staffed_orders_14d",
+    -- m_weekday_signups_14d: count of rows where local_weekday(ordered_at) >= 6 AND local_date(ordered_at) <> CAST('2026-03-08' AS DATE) in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (CAST(EXTRACT(ISODOW FROM ((TIMESTAMP '1970-01-01 00:00:00' + CASE WHEN pg_typeof(r."c_ordered_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM r."c_ordered_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM r."c_ordered_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago')) AS INTEGER) >= 6 AND CAST(((TIMESTAMP '1970-01-01 00:00:00' + CASE WHEN pg_typeof(r."c_ordered_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM r."c_ordered_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM r."c_ordered_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago') AS DATE) <> CAST('2026-03-08' AS DATE)) THEN 1 END) AS "m_weekday_signups_14d",
+    -- m_first_week_revenue: sum of CASE WHEN local_week(ordered_at) = CAST('2026-03-02' AS DATE) THEN total ELSE 0 END in [trigger + 0d, trigger + 14d)
+    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND CAST(CASE WHEN CAST(date_trunc('week', ((TIMESTAMP '1970-01-01 00:00:00' + CASE WHEN pg_typeof(r."c_ordered_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM r."c_ordered_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM r."c_ordered_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago')) AS DATE) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE PRECISION) - CAST(CASE WHEN CAST(date_trunc('week', ((TIMESTAMP '1970-01-01 00:00:00' + CASE WHEN pg_typeof(r."c_ordered_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM r."c_ordered_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM r."c_ordered_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago')) AS DATE) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE PRECISION) = 0 THEN CAST(CAST(CASE WHEN CAST(date_trunc('week', ((TIMESTAMP '1970-01-01 00:00:00' + CASE WHEN pg_typeof(r."c_ordered_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM r."c_ordered_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM r."c_ordered_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago')) AS DATE) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE PRECISION) AS NUMERIC(38, 10)) END) AS DOUBLE PRECISION) AS "m_first_week_revenue",
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND NOT (CAST(CASE WHEN CAST(date_trunc('week', ((TIMESTAMP '1970-01-01 00:00:00' + CASE WHEN pg_typeof(r."c_ordered_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM r."c_ordered_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM r."c_ordered_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago')) AS DATE) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE PRECISION) - CAST(CASE WHEN CAST(date_trunc('week', ((TIMESTAMP '1970-01-01 00:00:00' + CASE WHEN pg_typeof(r."c_ordered_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM r."c_ordered_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM r."c_ordered_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago')) AS DATE) = CAST('2026-03-02' AS DATE) THEN r."c_total" ELSE 0 END AS DOUBLE PRECISION) = 0) THEN 1 END) AS "m_first_week_revenue__nonfinite"
+  FROM (
+    SELECT e.unit_id, CASE WHEN pg_typeof(s."ordered_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM s."ordered_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM s."ordered_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END - e.trigger_us AS dt_us, s."ordered_at" AS "c_ordered_at", s."total" AS "c_total"
+    FROM eligible AS e
+    JOIN "shop"."orders" AS s ON s."visitor_id" = e.unit_id
+  ) AS r
+  WHERE r.dt_us >= 0 AND r.dt_us < 1209600000000
+  GROUP BY r.unit_id
+),
+-- One row per eligible unit; a unit without outcome rows counts as zero.
+unit_values AS (
+  SELECT
+    e.unit_id,
+    e.variant,
+    e.trigger_day,
+    (e.trigger_us + 1209600000000 <= 1774846800000000) AS mature_14d,
+    coalesce(p1."m_staffed_orders_14d", 0) AS "m_staffed_orders_14d",
+    coalesce(p1."m_weekday_signups_14d", 0) AS "m_weekday_signups_14d",
+    coalesce(p1."m_first_week_revenue", 0) AS "m_first_week_revenue",
+    coalesce(p1."m_first_week_revenue__nonfinite", 0) AS "m_first_week_revenue__nonfinite"
+  FROM eligible AS e
+  LEFT JOIN "pass_orders" AS p1 ON p1.unit_id = e.unit_id
+),
+-- Centres: pooled means, subtracted before the variance and covariance aggregates so their
+-- partial sums stay small (numerically stable whatever the engine's merge order).
+centres AS (
+  SELECT
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_staffed_orders_14d" AS DOUBLE PRECISION) END) AS "c_staffed_orders_14d",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_weekday_signups_14d" AS DOUBLE PRECISION) END) AS "c_weekday_signups_14d",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_first_week_revenue" AS DOUBLE PRECISION) END) AS "c_first_week_revenue"
+  FROM unit_values AS u
+)
+SELECT
+  '2c354e292afbe15a' AS spec_fingerprint,
+  u.variant AS variant,
+  count(*) AS units,
+  -- staffed_orders_14d (primary, mean): mean per unit of count of rows where local_hour(ordered_at) BETWEEN 9 AND 16 AND local_weekday(ordered_at) <= 5; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS "staffed_orders_14d__n",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_staffed_orders_14d" AS DOUBLE PRECISION) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_staffed_orders_14d" AS DOUBLE PRECISION) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_staffed_orders_14d" AS DOUBLE PRECISION) END) ELSE min(c0."c_staffed_orders_14d") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_staffed_orders_14d" AS DOUBLE PRECISION) END - c0."c_staffed_orders_14d")) END AS "staffed_orders_14d__mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_staffed_orders_14d" AS DOUBLE PRECISION) END - c0."c_staffed_orders_14d")) AS "staffed_orders_14d__var",
+  -- weekday_signups_14d (secondary, mean): mean per unit of count of rows where local_weekday(ordered_at) >= 6 AND local_date(ordered_at) <> CAST('2026-03-08' AS DATE); window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS "weekday_signups_14d__n",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_weekday_signups_14d" AS DOUBLE PRECISION) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_weekday_signups_14d" AS DOUBLE PRECISION) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_weekday_signups_14d" AS DOUBLE PRECISION) END) ELSE min(c0."c_weekday_signups_14d") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_weekday_signups_14d" AS DOUBLE PRECISION) END - c0."c_weekday_signups_14d")) END AS "weekday_signups_14d__mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_weekday_signups_14d" AS DOUBLE PRECISION) END - c0."c_weekday_signups_14d")) AS "weekday_signups_14d__var",
+  -- first_week_revenue (secondary, mean): mean per unit of sum of CASE WHEN local_week(ordered_at) = CAST('2026-03-02' AS DATE) THEN total ELSE 0 END; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS "first_week_revenue__n",
+  sum(u."m_first_week_revenue__nonfinite") AS "first_week_revenue__nonfinite_rows",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_first_week_revenue" AS DOUBLE PRECISION) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_first_week_revenue" AS DOUBLE PRECISION) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_first_week_revenue" AS DOUBLE PRECISION) END) ELSE min(c0."c_first_week_revenue") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_first_week_revenue" AS DOUBLE PRECISION) END - c0."c_first_week_revenue")) END AS "first_week_revenue__mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_first_week_revenue" AS DOUBLE PRECISION) END - c0."c_first_week_revenue")) AS "first_week_revenue__var"
+FROM unit_values AS u
+CROSS JOIN centres AS c0
+GROUP BY u.variant
+ORDER BY u.variant
+;
+
+-- assay 0.1.0 health query for experiment local-time (spec fingerprint 2c354e292afbe15a)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as America/Chicago.
+-- Exposures are read in [2026-03-02T06:00:00Z, 2026-03-30T05:00:00Z); outcome windows must have ended by 2026-03-30T05:00:00Z.
+WITH
+-- Exposure rows of views inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x."visitor_id" AS unit_id,
+    CAST(x."arm" AS TEXT) AS variant,
+    CASE WHEN pg_typeof(x."viewed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."viewed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."viewed_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END AS ts_us,
+    coalesce(CAST(((TIMESTAMP '1970-01-01 00:00:00' + CASE WHEN pg_typeof(x."viewed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."viewed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."viewed_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago') AS DATE) >= CAST('2026-03-02' AS DATE), FALSE) AS qualifies
+  FROM "shop"."page_views" AS x
+  WHERE x."visitor_id" IS NOT NULL AND x."viewed_at" IS NOT NULL
+    AND CASE WHEN pg_typeof(x."viewed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."viewed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."viewed_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END >= 1772431200000000 AND CASE WHEN pg_typeof(x."viewed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."viewed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."viewed_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END < 1774846800000000
+),
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over).
+exposed_units AS (
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi,
+    (count(variant) = count(*)) AS variant_always_set
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure (a row qualifies when: local_date(viewed_at) >= CAST('2026-03-02' AS DATE)).
+-- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- its qualifying rows at the trigger time.
+triggers AS (
+  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  UNION ALL
+  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  FROM exposed_units AS u
+  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST((TIMESTAMP '1970-01-01 00:00:00' + t.trigger_us * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago' AS DATE) AS trigger_day,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'hours_banner')) AS is_unknown_variant
+  FROM triggers AS t
+),
+-- Exposure rows outside the analysis window, or without a unit or time.
+ignored_rows AS (
+  SELECT
+    count(CASE WHEN x."visitor_id" IS NULL THEN 1 END) AS null_unit,
+    count(CASE WHEN x."viewed_at" IS NULL THEN 1 END) AS null_time,
+    count(CASE WHEN CASE WHEN pg_typeof(x."viewed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."viewed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."viewed_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END < 1772431200000000 THEN 1 END) AS before_start,
+    count(CASE WHEN CASE WHEN pg_typeof(x."viewed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM x."viewed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM x."viewed_at" AT TIME ZONE 'America/Chicago') * 1000000 AS BIGINT) END >= 1774846800000000 THEN 1 END) AS after_end
+  FROM "shop"."page_views" AS x
+),
+-- Rows of orders that no metric or rule can use: no unit or no time.
+nulls_1 AS (
+  SELECT count(*) - count(s."visitor_id") AS null_unit, count(*) - count(s."ordered_at") AS null_time
+  FROM "shop"."orders" AS s
+)
+SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
+  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST((TIMESTAMP '1970-01-01 00:00:00' + ts_us * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago' AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
+  FROM exposure_rows
+  GROUP BY variant, CAST((TIMESTAMP '1970-01-01 00:00:00' + ts_us * INTERVAL '1 microsecond') AT TIME ZONE 'UTC' AT TIME ZONE 'America/Chicago' AS DATE)
+  UNION ALL
+  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  GROUP BY variant, trigger_day
+  UNION ALL
+  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NULL
+  UNION ALL
+  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_crossover
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_unknown_variant
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_crossover OR is_unknown_variant
+  GROUP BY variant
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'orders:null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM nulls_1
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'orders:null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM nulls_1
+) AS h
+ORDER BY h.kind, h.reason, h.variant, h.day
+;

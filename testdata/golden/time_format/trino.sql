@@ -1,0 +1,225 @@
+-- assay 0.1.0 per-variant statistics query for experiment time-format (spec fingerprint 5ac13a29c19e0451)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Berlin.
+-- Exposures are read in [2026-05-31T22:00:00Z, 2026-06-28T22:00:00Z); outcome windows must have ended by 2026-06-28T22:00:00Z.
+WITH
+-- Exposure rows of impressions inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x."visitor_id" AS unit_id,
+    CAST(x."arm" AS VARCHAR) AS variant,
+    CAST(CAST(x."shown_ms" AS DOUBLE) * 1000 AS BIGINT) AS ts_us,
+    TRUE AS qualifies
+  FROM "web"."form_impressions" AS x
+  WHERE x."visitor_id" IS NOT NULL AND x."shown_ms" IS NOT NULL
+    AND CAST(CAST(x."shown_ms" AS DOUBLE) * 1000 AS BIGINT) >= 1780264800000000 AND CAST(CAST(x."shown_ms" AS DOUBLE) * 1000 AS BIGINT) < 1782684000000000
+),
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over).
+exposed_units AS (
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi,
+    (count(variant) = count(*)) AS variant_always_set
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure.
+-- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- its qualifying rows at the trigger time.
+triggers AS (
+  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  UNION ALL
+  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  FROM exposed_units AS u
+  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST(from_unixtime_nanos(t.trigger_us * 1000) AT TIME ZONE 'Europe/Berlin' AS DATE) AS trigger_day,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'short_form', 'shortest_form')) AS is_unknown_variant
+  FROM triggers AS t
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day
+  FROM cohort AS c
+  WHERE NOT c.is_crossover
+    AND NOT c.is_unknown_variant
+),
+-- One pass over signups for: m_signup_3d, m_signups_3d.
+"pass_signups" AS (
+  SELECT
+    r.unit_id,
+    -- m_signup_3d: count of rows in [trigger + 0d, trigger + 3d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 259200000000 THEN 1 END) AS "m_signup_3d"
+    -- m_signups_3d: count of rows in [trigger + 0d, trigger + 3d): the same as m_signup_3d
+  FROM (
+    SELECT e.unit_id, CAST(to_unixtime(with_timezone(date_parse(s."signed_up", '%d/%m/%Y %H:%i:%s'), 'Europe/Berlin')) * 1000000 AS BIGINT) - e.trigger_us AS dt_us
+    FROM eligible AS e
+    JOIN "web"."signups" AS s ON s."visitor_id" = e.unit_id
+  ) AS r
+  WHERE r.dt_us >= 0 AND r.dt_us < 259200000000
+  GROUP BY r.unit_id
+),
+-- One row per eligible unit; a unit without outcome rows counts as zero.
+unit_values AS (
+  SELECT
+    e.unit_id,
+    e.variant,
+    e.trigger_day,
+    (e.trigger_us + 259200000000 <= 1782684000000000) AS mature_3d,
+    coalesce(p1."m_signup_3d", 0) AS "m_signup_3d",
+    coalesce(p1."m_signup_3d", 0) AS "m_signups_3d"
+  FROM eligible AS e
+  LEFT JOIN "pass_signups" AS p1 ON p1.unit_id = e.unit_id
+),
+-- Centres: pooled means, subtracted before the variance and covariance aggregates so their
+-- partial sums stay small (numerically stable whatever the engine's merge order).
+centres AS (
+  SELECT
+    avg(CASE WHEN u.mature_3d THEN CAST(u."m_signups_3d" AS DOUBLE) END) AS "c_signups_3d"
+  FROM unit_values AS u
+)
+SELECT
+  '5ac13a29c19e0451' AS spec_fingerprint,
+  u.variant AS variant,
+  count(*) AS units,
+  -- signup_3d (primary, proportion): share of units whose count of rows is above 0; window [trigger + 0d, trigger + 3d), mature units only
+  count(CASE WHEN u.mature_3d THEN 1 END) AS "signup_3d__n",
+  avg(CASE WHEN u.mature_3d THEN CASE WHEN u."m_signup_3d" > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END) AS "signup_3d__mean",
+  var_samp(CASE WHEN u.mature_3d THEN CASE WHEN u."m_signup_3d" > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END) AS "signup_3d__var",
+  -- signups_3d (secondary, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 3d), mature units only
+  count(CASE WHEN u.mature_3d THEN 1 END) AS "signups_3d__n",
+  CASE WHEN min(CASE WHEN u.mature_3d THEN CAST(u."m_signups_3d" AS DOUBLE) END) = max(CASE WHEN u.mature_3d THEN CAST(u."m_signups_3d" AS DOUBLE) END) THEN min(CASE WHEN u.mature_3d THEN CAST(u."m_signups_3d" AS DOUBLE) END) ELSE min(c0."c_signups_3d") + avg((CASE WHEN u.mature_3d THEN CAST(u."m_signups_3d" AS DOUBLE) END - c0."c_signups_3d")) END AS "signups_3d__mean",
+  var_samp((CASE WHEN u.mature_3d THEN CAST(u."m_signups_3d" AS DOUBLE) END - c0."c_signups_3d")) AS "signups_3d__var"
+FROM unit_values AS u
+CROSS JOIN centres AS c0
+GROUP BY u.variant
+ORDER BY u.variant
+;
+
+-- assay 0.1.0 health query for experiment time-format (spec fingerprint 5ac13a29c19e0451)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Berlin.
+-- Exposures are read in [2026-05-31T22:00:00Z, 2026-06-28T22:00:00Z); outcome windows must have ended by 2026-06-28T22:00:00Z.
+WITH
+-- Exposure rows of impressions inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x."visitor_id" AS unit_id,
+    CAST(x."arm" AS VARCHAR) AS variant,
+    CAST(CAST(x."shown_ms" AS DOUBLE) * 1000 AS BIGINT) AS ts_us,
+    TRUE AS qualifies
+  FROM "web"."form_impressions" AS x
+  WHERE x."visitor_id" IS NOT NULL AND x."shown_ms" IS NOT NULL
+    AND CAST(CAST(x."shown_ms" AS DOUBLE) * 1000 AS BIGINT) >= 1780264800000000 AND CAST(CAST(x."shown_ms" AS DOUBLE) * 1000 AS BIGINT) < 1782684000000000
+),
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over).
+exposed_units AS (
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi,
+    (count(variant) = count(*)) AS variant_always_set
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure.
+-- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- its qualifying rows at the trigger time.
+triggers AS (
+  SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  UNION ALL
+  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  FROM exposed_units AS u
+  JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    CAST(from_unixtime_nanos(t.trigger_us * 1000) AT TIME ZONE 'Europe/Berlin' AS DATE) AS trigger_day,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'short_form', 'shortest_form')) AS is_unknown_variant
+  FROM triggers AS t
+),
+-- Exposure rows outside the analysis window, or without a unit or time.
+ignored_rows AS (
+  SELECT
+    count(CASE WHEN x."visitor_id" IS NULL THEN 1 END) AS null_unit,
+    count(CASE WHEN x."shown_ms" IS NULL THEN 1 END) AS null_time,
+    count(CASE WHEN CAST(CAST(x."shown_ms" AS DOUBLE) * 1000 AS BIGINT) < 1780264800000000 THEN 1 END) AS before_start,
+    count(CASE WHEN CAST(CAST(x."shown_ms" AS DOUBLE) * 1000 AS BIGINT) >= 1782684000000000 THEN 1 END) AS after_end
+  FROM "web"."form_impressions" AS x
+),
+-- Rows of signups that no metric or rule can use: no unit or no time.
+nulls_1 AS (
+  SELECT count(*) - count(s."visitor_id") AS null_unit, count(*) - count(s."signed_up") AS null_time
+  FROM "web"."signups" AS s
+)
+SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
+  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, CAST(from_unixtime_nanos(ts_us * 1000) AT TIME ZONE 'Europe/Berlin' AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
+  FROM exposure_rows
+  GROUP BY variant, CAST(from_unixtime_nanos(ts_us * 1000) AT TIME ZONE 'Europe/Berlin' AS DATE)
+  UNION ALL
+  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  GROUP BY variant, trigger_day
+  UNION ALL
+  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM exposed_units AS u
+  WHERE u.trigger_us IS NULL
+  UNION ALL
+  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_crossover
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_unknown_variant
+  GROUP BY variant
+  UNION ALL
+  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE is_crossover OR is_unknown_variant
+  GROUP BY variant
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
+  FROM ignored_rows
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'signups:null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  FROM nulls_1
+  UNION ALL
+  SELECT 'ignored_outcome_rows' AS kind, 'signups:null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  FROM nulls_1
+) AS h
+ORDER BY h.kind, h.reason, h.variant, h.day
+;
