@@ -198,7 +198,7 @@ window = ["0d", "3d"]
 	if err != nil {
 		t.Fatal(err)
 	}
-	res, err := engine.Query(context.Background(), openDuck(t, dir), q, nil)
+	res, err := engine.Query(context.Background(), openDuck(t, dir), p, q, true)
 	if err != nil {
 		t.Fatalf("%v\n%s", err, q.Script(true, true))
 	}

@@ -51,7 +51,7 @@ var ErrInput = errors.New("input")
 
 type inputError struct{ msg string }
 
-func (e inputError) Error() string { return e.msg }
+func (e inputError) Error() string   { return e.msg }
 func (e inputError) Is(t error) bool { return t == ErrInput }
 
 func inputf(format string, args ...any) error { return inputError{fmt.Sprintf(format, args...)} }

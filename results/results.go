@@ -44,9 +44,9 @@ func (r *Row) Stat(mp *compiler.MetricPlan, st compiler.Stat) float64 {
 
 // HealthRow is one row of the health query.
 type HealthRow struct {
-	Kind                          compiler.HealthKind
+	Kind                         compiler.HealthKind
 	Reason, Source, Variant, Day string
-	Rows, Units                   int64
+	Rows, Units                  int64
 }
 
 // Set is the decoded result of one run.

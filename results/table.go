@@ -181,4 +181,3 @@ func value(row []any, i int) any {
 	}
 	return nil
 }
-

@@ -14,30 +14,30 @@ exposure_rows AS (
     AND CAST(CAST(x.`shown_ms` AS FLOAT64) * 1000 AS INT64) >= 1780264800000000 AND CAST(CAST(x.`shown_ms` AS FLOAT64) * 1000 AS INT64) < 1782684000000000
 ),
 -- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
--- greatest variant it was seen in (when they differ, the unit crossed over).
+-- greatest variant it was seen in (when they differ, the unit crossed over). Rows without a
+-- variant count for the trigger time but never decide the variant.
 exposed_units AS (
   SELECT
     unit_id,
     min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
     min(variant) AS variant_lo,
-    max(variant) AS variant_hi,
-    (count(variant) = count(*)) AS variant_always_set
+    max(variant) AS variant_hi
   FROM exposure_rows
   GROUP BY unit_id
 ),
 -- Trigger: each unit's first qualifying exposure.
--- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- A unit seen in one variant takes it; a crossover is reported under the least variant among
 -- its qualifying rows at the trigger time.
 triggers AS (
   SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
   FROM exposed_units AS u
-  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  WHERE u.trigger_us IS NOT NULL AND NOT coalesce(u.variant_lo <> u.variant_hi, FALSE)
   UNION ALL
-  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  SELECT u.unit_id, coalesce(min(r.variant), u.variant_lo) AS variant, u.trigger_us, TRUE AS is_crossover
   FROM exposed_units AS u
   JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
-  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
-  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
+  WHERE coalesce(u.variant_lo <> u.variant_hi, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo
 ),
 -- Every triggered unit with the reasons it may be excluded.
 cohort AS (
@@ -54,8 +54,8 @@ cohort AS (
 eligible AS (
   SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day
   FROM cohort AS c
-  WHERE NOT c.is_crossover
-    AND NOT c.is_unknown_variant
+  WHERE NOT c.`is_crossover`
+    AND NOT c.`is_unknown_variant`
 ),
 -- One pass over signups for: m_signup_3d, m_signups_3d.
 `pass_signups` AS (
@@ -84,17 +84,20 @@ unit_values AS (
   FROM eligible AS e
   LEFT JOIN `pass_signups` AS p1 ON p1.unit_id = e.unit_id
 ),
--- Centres: pooled means, subtracted before the variance and covariance aggregates so their
--- partial sums stay small (numerically stable whatever the engine's merge order).
+-- Centres: each variant's means, subtracted before the variance and covariance aggregates so
+-- their partial sums stay small (numerically stable whatever the engine's merge order).
 centres AS (
   SELECT
+    u.variant,
     avg(CASE WHEN u.mature_3d THEN CAST(u.`m_signups_3d` AS FLOAT64) END) AS `c_signups_3d`
   FROM unit_values AS u
+  GROUP BY u.variant
 )
 SELECT
-  '5ac13a29c19e0451' AS spec_fingerprint,
-  u.variant AS variant,
-  count(*) AS units,
+  '5ac13a29c19e0451' AS `spec_fingerprint`,
+  'as_of=2026-06-28T22:00:00Z' AS `compile_options`,
+  u.variant AS `variant`,
+  count(*) AS `units`,
   -- signup_3d (primary, proportion): share of units whose count of rows is above 0; window [trigger + 0d, trigger + 3d), mature units only
   count(CASE WHEN u.mature_3d THEN 1 END) AS `signup_3d__n`,
   avg(CASE WHEN u.mature_3d THEN CASE WHEN u.`m_signup_3d` > 0 THEN 1.0 ELSE 0.0 END END) AS `signup_3d__mean`,
@@ -104,9 +107,9 @@ SELECT
   CASE WHEN min(CASE WHEN u.mature_3d THEN CAST(u.`m_signups_3d` AS FLOAT64) END) = max(CASE WHEN u.mature_3d THEN CAST(u.`m_signups_3d` AS FLOAT64) END) THEN min(CASE WHEN u.mature_3d THEN CAST(u.`m_signups_3d` AS FLOAT64) END) ELSE min(c0.`c_signups_3d`) + avg((CASE WHEN u.mature_3d THEN CAST(u.`m_signups_3d` AS FLOAT64) END - c0.`c_signups_3d`)) END AS `signups_3d__mean`,
   VAR_SAMP((CASE WHEN u.mature_3d THEN CAST(u.`m_signups_3d` AS FLOAT64) END - c0.`c_signups_3d`)) AS `signups_3d__var`
 FROM unit_values AS u
-CROSS JOIN centres AS c0
+JOIN centres AS c0 ON c0.variant = u.variant
 GROUP BY u.variant
-ORDER BY u.variant
+ORDER BY `variant`
 ;
 
 -- assay 0.1.0 health query for experiment time-format (spec fingerprint 5ac13a29c19e0451)
@@ -125,30 +128,30 @@ exposure_rows AS (
     AND CAST(CAST(x.`shown_ms` AS FLOAT64) * 1000 AS INT64) >= 1780264800000000 AND CAST(CAST(x.`shown_ms` AS FLOAT64) * 1000 AS INT64) < 1782684000000000
 ),
 -- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
--- greatest variant it was seen in (when they differ, the unit crossed over).
+-- greatest variant it was seen in (when they differ, the unit crossed over). Rows without a
+-- variant count for the trigger time but never decide the variant.
 exposed_units AS (
   SELECT
     unit_id,
     min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
     min(variant) AS variant_lo,
-    max(variant) AS variant_hi,
-    (count(variant) = count(*)) AS variant_always_set
+    max(variant) AS variant_hi
   FROM exposure_rows
   GROUP BY unit_id
 ),
 -- Trigger: each unit's first qualifying exposure.
--- A unit always seen in one variant takes it; any other unit takes the least variant among
+-- A unit seen in one variant takes it; a crossover is reported under the least variant among
 -- its qualifying rows at the trigger time.
 triggers AS (
   SELECT u.unit_id, u.variant_lo AS variant, u.trigger_us, FALSE AS is_crossover
   FROM exposed_units AS u
-  WHERE u.trigger_us IS NOT NULL AND u.variant_lo = u.variant_hi AND u.variant_always_set
+  WHERE u.trigger_us IS NOT NULL AND NOT coalesce(u.variant_lo <> u.variant_hi, FALSE)
   UNION ALL
-  SELECT u.unit_id, min(r.variant) AS variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover
+  SELECT u.unit_id, coalesce(min(r.variant), u.variant_lo) AS variant, u.trigger_us, TRUE AS is_crossover
   FROM exposed_units AS u
   JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
-  WHERE NOT coalesce(u.variant_lo = u.variant_hi AND u.variant_always_set, FALSE)
-  GROUP BY u.unit_id, u.trigger_us, u.variant_lo, u.variant_hi
+  WHERE coalesce(u.variant_lo <> u.variant_hi, FALSE)
+  GROUP BY u.unit_id, u.trigger_us, u.variant_lo
 ),
 -- Every triggered unit with the reasons it may be excluded.
 cohort AS (
@@ -170,56 +173,77 @@ ignored_rows AS (
     count(CASE WHEN CAST(CAST(x.`shown_ms` AS FLOAT64) * 1000 AS INT64) >= 1782684000000000 THEN 1 END) AS after_end
   FROM `web`.`form_impressions` AS x
 ),
+-- Exposure rows in the window without a variant: they count for the trigger time only.
+variantless_rows AS (
+  SELECT count(*) - count(variant) AS null_variant FROM exposure_rows
+),
+-- Undeclared variant values of triggered units, the 10 with the most units.
+unknown_values AS (
+  SELECT v.variant, v.units FROM (
+    SELECT c.variant, count(*) AS units,
+      row_number() OVER (ORDER BY count(*) DESC, c.variant) AS value_rank
+    FROM cohort AS c
+    WHERE c.is_unknown_variant AND c.variant IS NOT NULL AND NOT c.is_crossover
+    GROUP BY c.variant
+  ) AS v
+  WHERE v.value_rank <= 10
+),
 -- Rows of signups that no metric or rule can use: no unit or no time.
 nulls_1 AS (
   SELECT count(*) - count(s.`visitor_id`) AS null_unit, count(*) - count(s.`signed_up`) AS null_time
   FROM `web`.`signups` AS s
 )
-SELECT h.kind, h.reason, h.variant, h.day, h.row_count, h.unit_count FROM (
-  SELECT 'exposures' AS kind, NULL AS reason, variant AS variant, DATE(TIMESTAMP_MICROS(ts_us), 'Europe/Berlin') AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
+SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (
+  SELECT 'exposures' AS kind, NULL AS reason, NULL AS source, variant AS variant, DATE(TIMESTAMP_MICROS(ts_us), 'Europe/Berlin') AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
   FROM exposure_rows
   GROUP BY variant, DATE(TIMESTAMP_MICROS(ts_us), 'Europe/Berlin')
   UNION ALL
-  SELECT 'triggers' AS kind, NULL AS reason, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS unit_count
+  SELECT 'triggers' AS kind, NULL AS reason, NULL AS source, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
   GROUP BY variant, trigger_day
   UNION ALL
-  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  SELECT 'never_triggered' AS kind, NULL AS reason, NULL AS source, NULL AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM exposed_units AS u
   WHERE u.trigger_us IS NULL
   UNION ALL
-  SELECT 'excluded' AS kind, 'crossover' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  SELECT 'excluded' AS kind, 'crossover' AS reason, NULL AS source, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
-  WHERE is_crossover
+  WHERE `is_crossover`
   GROUP BY variant
   UNION ALL
-  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  SELECT 'excluded' AS kind, 'unknown_variant' AS reason, NULL AS source, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
-  WHERE is_unknown_variant
+  WHERE `is_unknown_variant`
   GROUP BY variant
   UNION ALL
-  SELECT 'excluded' AS kind, 'any' AS reason, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  SELECT 'excluded' AS kind, 'any' AS reason, NULL AS source, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
-  WHERE is_crossover OR is_unknown_variant
+  WHERE `is_crossover` OR `is_unknown_variant`
   GROUP BY variant
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS source, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
   FROM ignored_rows
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  SELECT 'ignored_rows' AS kind, 'null_time' AS reason, NULL AS source, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
   FROM ignored_rows
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS unit_count
+  SELECT 'ignored_rows' AS kind, 'null_variant' AS reason, NULL AS source, NULL AS variant, NULL AS day, null_variant AS row_count, NULL AS unit_count
+  FROM variantless_rows
+  UNION ALL
+  SELECT 'ignored_rows' AS kind, 'before_start' AS reason, NULL AS source, NULL AS variant, NULL AS day, before_start AS row_count, NULL AS unit_count
   FROM ignored_rows
   UNION ALL
-  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
+  SELECT 'ignored_rows' AS kind, 'after_end' AS reason, NULL AS source, NULL AS variant, NULL AS day, after_end AS row_count, NULL AS unit_count
   FROM ignored_rows
   UNION ALL
-  SELECT 'ignored_outcome_rows' AS kind, 'signups:null_unit' AS reason, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
+  SELECT 'ignored_outcome_rows' AS kind, 'null_unit' AS reason, 'signups' AS source, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
   FROM nulls_1
   UNION ALL
-  SELECT 'ignored_outcome_rows' AS kind, 'signups:null_time' AS reason, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
+  SELECT 'ignored_outcome_rows' AS kind, 'null_time' AS reason, 'signups' AS source, NULL AS variant, NULL AS day, null_time AS row_count, NULL AS unit_count
   FROM nulls_1
+  UNION ALL
+  SELECT 'unknown_variant' AS kind, NULL AS reason, NULL AS source, variant AS variant, NULL AS day, units AS row_count, units AS unit_count
+  FROM unknown_values
 ) AS h
-ORDER BY h.kind, h.reason, h.variant, h.day
+ORDER BY h.kind, h.reason, h.source, h.variant, h.day
 ;
