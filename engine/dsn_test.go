@@ -46,8 +46,8 @@ func TestRedactDSN(t *testing.T) {
 		{"postgres://assay@h/db?sslmode=disable&password=s3cret", "postgres://assay@h/db?sslmode=disable&password=xxxxx"},
 		{"postgres://assay@h/db?PassWord=s3cret&sslpassword=k3y", "postgres://assay@h/db?PassWord=xxxxx&sslpassword=xxxxx"},
 		{"mysql://assay@h/db?password=s3cret&tls=true", "mysql://assay@h/db?password=xxxxx&tls=true"},
-		{"postgres://u:pa/ss@h/db", "postgres://u:xxxxx@h/db"},  // unescaped '/': the URL does not parse
-		{"postgres://u:12/ss@h/db", "postgres://u:xxxxx@h/db"},  // parses as host u, port 12: the '@' is unaccounted for
+		{"postgres://u:pa/ss@h/db", "postgres://u:xxxxx@h/db"}, // unescaped '/': the URL does not parse
+		{"postgres://u:12/ss@h/db", "postgres://u:xxxxx@h/db"}, // parses as host u, port 12: the '@' is unaccounted for
 		{"postgres://u:p%zz@h/db?password=x%zz", "postgres://u:xxxxx@h/db?password=xxxxx"},
 		{"host=h port=5432 user=u password=s3cret dbname=db", "host=h port=5432 user=u password=xxxxx dbname=db"},
 		{`host=h password='two words\'q' dbname=db`, "host=h password=xxxxx dbname=db"},
