@@ -24,7 +24,8 @@ import (
 //     than the exposure source's unit id column, naming both sources and
 //     both types;
 //   - as warnings, columns that match only without regard to letter case,
-//     and sources without a single row.
+//     and sources without a single row (naming the declared file of a
+//     source that StandInEmpty replaced by an empty view).
 //
 // Each diagnostic points at the spec's declaration of the source (its
 // `table`, `file`, `columns` or `time` key). The queries are portable SQL
@@ -70,7 +71,11 @@ func CheckCatalog(ctx context.Context, db *sql.DB, spec *metrics.Spec, d dialect
 		if c, ok := findColumn(cols, src.Unit); ok && c.Type != "" {
 			units = append(units, unitColumn{src: src, what: what, typ: c.Type})
 		}
-		if empty, err := isEmpty(ctx, db, rel); err == nil && empty {
+		if _, stoodIn := StoodIn(src); stoodIn {
+			ds = append(ds, metrics.Diagnostic{Severity: metrics.Warning, Code: metrics.CodeSource, Subject: at,
+				Summary: fmt.Sprintf("source `%s`: %s has no rows; it is read as an empty table of the declared columns", src.Name, what),
+				Hint:    "every metric that reads it will be zero for every unit"})
+		} else if empty, err := isEmpty(ctx, db, rel); err == nil && empty {
 			ds = append(ds, metrics.Diagnostic{Severity: metrics.Warning, Code: metrics.CodeSource, Subject: at,
 				Summary: fmt.Sprintf("source `%s`: %s has no rows", src.Name, what),
 				Hint:    "every metric that reads it will be zero for every unit"})
@@ -198,6 +203,9 @@ type catalogTable struct {
 // for messages, and the spec range to blame.
 func sourceRelation(spec *metrics.Spec, src *metrics.Source, d dialects.Dialect) (rel, what string, at metrics.Range) {
 	at = rangeOr(spec, src.At, "sources", src.Name, "table")
+	if file, ok := StoodIn(src); ok {
+		return d.Table(src.TableParts), fmt.Sprintf("file %q", file), rangeOr(spec, src.At, "sources", src.Name, "file")
+	}
 	if src.File != "" {
 		at = rangeOr(spec, src.At, "sources", src.Name, "file")
 		f, err := d.File(src.File)
