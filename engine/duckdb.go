@@ -88,6 +88,9 @@ func OpenDuckDB(opt DuckDBOptions) (*sql.DB, error) {
 		return nil
 	})
 	if err != nil {
+		if opt.MemoryLimit != "" && strings.Contains(err.Error(), "memory_limit=") {
+			return nil, fmt.Errorf("memory limit %q is not a size DuckDB can read: write a number and a unit, for example 8GB or 500MB", opt.MemoryLimit)
+		}
 		return nil, cleanDuckErr(err)
 	}
 	db := sql.OpenDB(conn)

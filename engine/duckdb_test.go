@@ -159,7 +159,8 @@ func TestDuckDBWritesRefused(t *testing.T) {
 }
 
 // TestDuckDBRefusesBadPaths checks the messages for a directory, a file
-// that is not a DuckDB database, and a negative thread count.
+// that is not a DuckDB database, a device, a negative thread count and a
+// memory limit that is not a size (or smuggles in another option).
 func TestDuckDBRefusesBadPaths(t *testing.T) {
 	dir := t.TempDir()
 	csv := filepath.Join(dir, "orders.csv")
@@ -175,6 +176,8 @@ func TestDuckDBRefusesBadPaths(t *testing.T) {
 		{"not a database", engine.DuckDBOptions{Path: csv}, "cannot open database file"},
 		{"device", engine.DuckDBOptions{Path: os.DevNull}, "not a regular file"},
 		{"negative threads", engine.DuckDBOptions{Threads: -1}, "threads must be 1 or more"},
+		{"bad memory limit", engine.DuckDBOptions{MemoryLimit: "lots"}, `memory limit "lots" is not a size`},
+		{"memory limit with an option", engine.DuckDBOptions{MemoryLimit: "8GB&access_mode=read_write"}, "is not a size"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			db, err := engine.OpenDuckDB(tc.opt)
