@@ -20,8 +20,12 @@ import (
 //   - declared columns that the source does not have, with the columns
 //     (and types) it does have;
 //   - a time column whose type is not a date or timestamp;
+//   - a unit id column whose type is of another kind (number, text, ...)
+//     than the exposure source's unit id column, naming both sources and
+//     both types;
 //   - as warnings, columns that match only without regard to letter case,
-//     and sources without a single row.
+//     and sources without a single row (naming the declared file of a
+//     source that StandInEmpty replaced by an empty view).
 //
 // Each diagnostic points at the spec's declaration of the source (its
 // `table`, `file`, `columns` or `time` key). The queries are portable SQL
@@ -31,6 +35,7 @@ func CheckCatalog(ctx context.Context, db *sql.DB, spec *metrics.Spec, d dialect
 	var ds metrics.Diagnostics
 	var tables []catalogTable
 	tablesRead := false
+	var units []unitColumn
 	for _, src := range spec.Sources {
 		if err := ctx.Err(); err != nil {
 			ds = append(ds, metrics.Diagnostic{Code: metrics.CodeSource, Subject: src.At,
@@ -63,14 +68,126 @@ func CheckCatalog(ctx context.Context, db *sql.DB, spec *metrics.Spec, d dialect
 			continue
 		}
 		ds = append(ds, checkColumns(spec, src, what, cols)...)
-		if empty, err := isEmpty(ctx, db, rel); err == nil && empty {
+		if c, ok := findColumn(cols, src.Unit); ok && c.Type != "" {
+			units = append(units, unitColumn{src: src, what: what, typ: c.Type})
+		}
+		if _, stoodIn := StoodIn(src); stoodIn {
+			ds = append(ds, metrics.Diagnostic{Severity: metrics.Warning, Code: metrics.CodeSource, Subject: at,
+				Summary: fmt.Sprintf("source `%s`: %s has no rows; it is read as an empty table of the declared columns", src.Name, what),
+				Hint:    "every metric that reads it will be zero for every unit"})
+		} else if empty, err := isEmpty(ctx, db, rel); err == nil && empty {
 			ds = append(ds, metrics.Diagnostic{Severity: metrics.Warning, Code: metrics.CodeSource, Subject: at,
 				Summary: fmt.Sprintf("source `%s`: %s has no rows", src.Name, what),
 				Hint:    "every metric that reads it will be zero for every unit"})
 		}
 	}
+	ds = append(ds, checkUnitTypes(spec, units)...)
 	ds.Sort()
 	return ds
+}
+
+// unitColumn is the unit id column of a source as the engine reports it.
+type unitColumn struct {
+	src  *metrics.Source
+	what string
+	typ  string
+}
+
+// findColumn returns the column called name, matched exactly or else
+// without regard to letter case.
+func findColumn(cols []catalogColumn, name string) (catalogColumn, bool) {
+	for _, c := range cols {
+		if c.Name == name {
+			return c, true
+		}
+	}
+	for _, c := range cols {
+		if strings.EqualFold(c.Name, name) {
+			return c, true
+		}
+	}
+	return catalogColumn{}, false
+}
+
+// checkUnitTypes refuses sources whose unit id column is of a different
+// kind of type than the exposure source's: every source is joined to the
+// exposures on unit id, and an engine joins a number to a text by
+// converting one to the other, so that '007' meets 7, or never meets it,
+// depending on the engine. Integers of different widths are compatible,
+// and so are integers and decimals; texts of any length are compatible.
+// When the exposure source's type is unknown, the first source with a
+// known type is the reference.
+func checkUnitTypes(spec *metrics.Spec, units []unitColumn) metrics.Diagnostics {
+	if len(units) < 2 {
+		return nil
+	}
+	ref := units[0]
+	for _, u := range units {
+		if u.src == spec.Exposure.Source {
+			ref = u
+			break
+		}
+	}
+	refKind := typeKind(ref.typ)
+	if refKind == "" {
+		return nil
+	}
+	var ds metrics.Diagnostics
+	for _, u := range units {
+		k := typeKind(u.typ)
+		if u.src == ref.src || k == "" || k == refKind {
+			continue
+		}
+		role := "the exposure source"
+		if ref.src != spec.Exposure.Source {
+			role = "source"
+		}
+		ds = append(ds, metrics.Diagnostic{Code: metrics.CodeSource,
+			Subject: rangeOr(spec, u.src.At, "sources", u.src.Name, "unit"),
+			Summary: fmt.Sprintf("source `%s`: unit column `%s` is %s, but %s `%s` has unit column `%s` of type %s",
+				u.src.Name, u.src.Unit, u.typ, role, ref.src.Name, ref.src.Unit, ref.typ),
+			Hint: fmt.Sprintf("unit ids are joined across sources; a %s and a %s are compared only after converting one of them, so ids such as '007' and 7 would match or not depending on the engine. Give both columns the same type (cast one in a view)", kindNoun[k], kindNoun[refKind])})
+	}
+	return ds
+}
+
+// kindNoun names a type kind in messages.
+var kindNoun = map[string]string{
+	"number": "number", "float": "floating-point number", "text": "text",
+	"uuid": "UUID", "time": "date or time", "bool": "boolean", "binary": "binary value",
+}
+
+// typeKind returns the kind of a column type as the drivers of DuckDB,
+// PostgreSQL and MySQL name it: "number" (integers of any width, signed or
+// not, and decimals), "float", "text", "uuid", "time", "bool", "binary", or
+// "" for a type this check does not know, which it leaves alone.
+func typeKind(t string) string {
+	t = strings.ToUpper(strings.TrimSpace(t))
+	if i := strings.IndexByte(t, '('); i >= 0 {
+		t = strings.TrimSpace(t[:i])
+	}
+	t = strings.TrimPrefix(t, "UNSIGNED ")
+	switch t {
+	case "TINYINT", "SMALLINT", "MEDIUMINT", "INTEGER", "INT", "BIGINT", "HUGEINT", "UHUGEINT",
+		"UTINYINT", "USMALLINT", "UINTEGER", "UBIGINT", "INT1", "INT2", "INT4", "INT8", "INT16", "INT32", "INT64",
+		"SERIAL", "BIGSERIAL", "SMALLSERIAL", "DECIMAL", "NUMERIC", "NUMBER", "YEAR":
+		return "number"
+	case "FLOAT", "DOUBLE", "REAL", "FLOAT4", "FLOAT8", "DOUBLE PRECISION":
+		return "float"
+	case "VARCHAR", "CHAR", "BPCHAR", "TEXT", "STRING", "NVARCHAR", "NCHAR", "CHARACTER", "CHARACTER VARYING",
+		"TINYTEXT", "MEDIUMTEXT", "LONGTEXT", "NAME", "CITEXT", "ENUM":
+		return "text"
+	case "UUID":
+		return "uuid"
+	case "BOOLEAN", "BOOL":
+		return "bool"
+	case "BLOB", "BYTEA", "BINARY", "VARBINARY", "TINYBLOB", "MEDIUMBLOB", "LONGBLOB":
+		return "binary"
+	}
+	if isTimeType(t) || t == "TIME" || t == "TIMETZ" {
+		return "time"
+	}
+	return ""
 }
 
 // catalogColumn is a column as the engine reports it.
@@ -86,6 +203,9 @@ type catalogTable struct {
 // for messages, and the spec range to blame.
 func sourceRelation(spec *metrics.Spec, src *metrics.Source, d dialects.Dialect) (rel, what string, at metrics.Range) {
 	at = rangeOr(spec, src.At, "sources", src.Name, "table")
+	if file, ok := StoodIn(src); ok {
+		return d.Table(src.TableParts), fmt.Sprintf("file %q", file), rangeOr(spec, src.At, "sources", src.Name, "file")
+	}
 	if src.File != "" {
 		at = rangeOr(spec, src.At, "sources", src.Name, "file")
 		f, err := d.File(src.File)

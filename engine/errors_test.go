@@ -38,3 +38,32 @@ func TestOutOfRangeSumHint(t *testing.T) {
 		})
 	}
 }
+
+// TestOutOfMemoryHint checks that running out of memory is reported with
+// advice in terms of assay's flags (--memory-limit, --threads) and without
+// DuckDB's advice, which names SQL settings (SET memory_limit=...) that a
+// user of assay cannot type. The query builds one list of ten million
+// strings, which a 20 MB limit cannot hold and DuckDB cannot spill.
+func TestOutOfMemoryHint(t *testing.T) {
+	db, err := engine.OpenDuckDB(engine.DuckDBOptions{Threads: 1, MemoryLimit: "20MB"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	var n int64
+	err = db.QueryRow("SELECT len(list(x::VARCHAR || 'abcdefghijkl')) FROM range(10000000) t(x)").Scan(&n)
+	if err == nil {
+		t.Fatalf("query succeeded under a 20 MB limit (%d values); want an out-of-memory error", n)
+	}
+	msg := engine.CleanError(err).Error()
+	for _, want := range []string{"Out of Memory", "--memory-limit", "--threads"} {
+		if !strings.Contains(msg, want) {
+			t.Errorf("message lacks %q:\n%s", want, msg)
+		}
+	}
+	for _, bad := range []string{"SET ", "memory_limit", "preserve_insertion_order"} {
+		if strings.Contains(msg, bad) {
+			t.Errorf("message names the SQL setting %q:\n%s", bad, msg)
+		}
+	}
+}

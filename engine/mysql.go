@@ -37,14 +37,21 @@ func MySQLConfig(dsn string) (*mysql.Config, error) {
 	rememberSecret(dsn)
 	u, err := url.Parse(dsn)
 	if err != nil {
-		return nil, Redact(fmt.Errorf("cannot read the MySQL connection string %s: %w", RedactDSN(dsn), err))
+		return nil, Redact(fmt.Errorf("cannot read the MySQL connection string %s: %s", RedactDSN(dsn), urlProblem))
 	}
 	scheme := strings.ToLower(u.Scheme)
 	if scheme != "mysql" && scheme != "mariadb" {
 		return nil, fmt.Errorf("not a mysql:// connection string: %s", RedactDSN(dsn))
 	}
 	cfg := mysql.NewConfig()
-	if q := u.RawQuery; q != "" {
+	// A password given as a query parameter is the connection's password,
+	// never a parameter for the driver: it would send unknown parameters
+	// to the server as session variables.
+	q, queryPW, err := takePassword(u.RawQuery)
+	if err != nil {
+		return nil, Redact(fmt.Errorf("cannot read the parameters of %s: %w", RedactDSN(dsn), err))
+	}
+	if q != "" {
 		// Let the driver read its own parameters.
 		parsed, err := mysql.ParseDSN("/?" + q)
 		if err != nil {
@@ -55,6 +62,9 @@ func MySQLConfig(dsn string) (*mysql.Config, error) {
 	if u.User != nil {
 		cfg.User = u.User.Username()
 		cfg.Passwd, _ = u.User.Password()
+	}
+	if _, has := u.User.Password(); !has && queryPW != "" {
+		cfg.Passwd = queryPW
 	}
 	cfg.Net = "tcp"
 	cfg.Addr = u.Host
@@ -67,6 +77,29 @@ func MySQLConfig(dsn string) (*mysql.Config, error) {
 		cfg.Timeout = 30 * time.Second
 	}
 	return cfg, nil
+}
+
+// takePassword removes the password parameter from a raw query string and
+// returns the rest as written, and the password unescaped.
+func takePassword(raw string) (rest, pw string, err error) {
+	var keep []string
+	for _, p := range strings.Split(raw, "&") {
+		if p == "" {
+			continue
+		}
+		k, v, _ := strings.Cut(p, "=")
+		if uk, e := url.QueryUnescape(k); e == nil {
+			k = uk
+		}
+		if strings.EqualFold(strings.TrimSpace(k), "password") {
+			if pw, err = url.QueryUnescape(v); err != nil {
+				return "", "", fmt.Errorf("the password parameter is not correctly escaped")
+			}
+			continue
+		}
+		keep = append(keep, p)
+	}
+	return strings.Join(keep, "&"), pw, nil
 }
 
 // OpenMySQL connects to MySQL 8 or MariaDB through go-sql-driver/mysql with

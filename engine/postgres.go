@@ -3,10 +3,14 @@ package engine
 import (
 	"context"
 	"database/sql"
+	"errors"
 	"fmt"
+	"net/url"
+	"strings"
 	"time"
 
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/stdlib"
 )
 
@@ -28,9 +32,16 @@ var postgresSession = []string{
 // postgresql:// connection string, in a read-only session.
 func OpenPostgres(ctx context.Context, dsn string) (*sql.DB, error) {
 	rememberSecret(dsn)
+	if !isKeyValue(dsn) {
+		if _, err := url.Parse(dsn); err != nil {
+			// The URL parser's message quotes the text around the fault,
+			// which may be part of the password.
+			return nil, Redact(fmt.Errorf("cannot read the PostgreSQL connection string %s: %s", RedactDSN(dsn), urlProblem))
+		}
+	}
 	cfg, err := pgx.ParseConfig(dsn)
 	if err != nil {
-		return nil, Redact(fmt.Errorf("cannot read the PostgreSQL connection string %s: %w", RedactDSN(dsn), err))
+		return nil, Redact(fmt.Errorf("cannot read the PostgreSQL connection string %s: %w", RedactDSN(dsn), parseProblem(err)))
 	}
 	if cfg.ConnectTimeout == 0 {
 		cfg.ConnectTimeout = 30 * time.Second
@@ -48,4 +59,20 @@ func OpenPostgres(ctx context.Context, dsn string) (*sql.DB, error) {
 		return nil, Redact(fmt.Errorf("cannot connect to PostgreSQL at %s: %w", RedactDSN(dsn), err))
 	}
 	return db, nil
+}
+
+// parseProblem returns pgx's reason for refusing a connection string
+// without the copy of the string it quotes: pgx masks passwords there by
+// patterns that miss some quoted ones (a quoted password with an escaped
+// quote shows its tail), and the message already shows RedactDSN's copy.
+func parseProblem(err error) error {
+	var pe *pgconn.ParseConfigError
+	if !errors.As(err, &pe) {
+		return err
+	}
+	msg := pe.Error()
+	if i := strings.LastIndex(msg, "`: "); i >= 0 {
+		return redacted{msg: msg[i+3:], err: err}
+	}
+	return redacted{msg: "not a valid connection string", err: err}
 }
