@@ -7,6 +7,7 @@ import (
 	"os"
 	"os/signal"
 	"path/filepath"
+	"strings"
 	"time"
 
 	"github.com/assay-dev/assay/compiler"
@@ -72,11 +73,16 @@ func cmdCalibrate(args []string, stdout, stderr io.Writer) int {
 		return openFailed(stderr, err)
 	}
 	defer eng.Close()
-	if src, cds := specText(path), eng.Check(ctx, spec); len(cds) > 0 {
-		printDiags(stderr, cds, src)
-		if cds.HasErrors() {
-			return ExitInput
-		}
+	cds, empty, err := eng.Check(ctx, spec)
+	if err != nil {
+		return queryFailed(ctx, stderr, err)
+	}
+	printDiags(stderr, cds, specText(path))
+	if cds.HasErrors() {
+		return ExitInput
+	}
+	if len(empty) > 0 {
+		fmt.Fprintf(stderr, "assay calibrate: warning: sources without rows, read as zeros: %s\n", strings.Join(empty, ", "))
 	}
 	plan, q, ds, err := eng.Compile(ctx, spec, opt)
 	printDiags(stderr, ds, nil)

@@ -8,7 +8,6 @@ import (
 	"os"
 	"os/signal"
 	"path/filepath"
-	"strings"
 	"time"
 
 	"github.com/assay-dev/assay/compiler"
@@ -52,9 +51,17 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "assay run: --format must be text, json or markdown\n")
 		return ExitInput
 	}
-	if e := strings.ToLower(filepath.Ext(*save)); *save != "" && e != ".json" && e != ".csv" {
-		fmt.Fprintln(stderr, "assay run: --save needs a .json or .csv file")
-		return ExitInput
+	// The --save target is checked before any query runs, so that a long
+	// run does not end with its results lost (a symbolic link is written
+	// through, to its final target).
+	saveTarget := ""
+	if *save != "" {
+		t, err := report.ResolveSaveTarget(*save)
+		if err != nil {
+			fmt.Fprintf(stderr, "assay run: %v\n", err)
+			return ExitInput
+		}
+		saveTarget = t
 	}
 	spec, ok := load(path, stderr)
 	if !ok {
@@ -78,9 +85,14 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	prog := newProgress(stderr)
 	defer prog.Done()
 	prog.Stage("checking sources and columns")
-	if src, cds := specText(path), eng.Check(ctx, spec); len(cds) > 0 {
+	cds, empty, err := eng.Check(ctx, spec)
+	if err != nil {
 		prog.Pause()
-		printDiags(stderr, cds, src)
+		return queryFailed(ctx, stderr, err)
+	}
+	if len(cds) > 0 {
+		prog.Pause()
+		printDiags(stderr, cds, specText(path))
 		if cds.HasErrors() {
 			return ExitInput
 		}
@@ -107,23 +119,30 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		prog.Pause()
 		return queryFailed(ctx, stderr, err)
 	}
-	ropt := report.Options{SRMAlpha: *srmAlpha, Adjust: *adjust}
+	ropt := report.Options{SRMAlpha: *srmAlpha, Adjust: *adjust, EmptySources: empty}
 	rep, err := report.Analyze(plan, set, ropt)
 	if err != nil {
 		prog.Pause()
 		fmt.Fprintf(stderr, "assay: %v\n", err)
 		return ExitEngine
 	}
-	if *save != "" && ctx.Err() == nil {
+	saveFailed := false
+	if saveTarget != "" && ctx.Err() == nil {
 		prog.Stage("saving " + *save)
-		if err := report.Save(*save, rep, start); err != nil {
+		if err := report.Save(saveTarget, rep, start); err != nil {
+			// The report still goes to stdout; the exit code says the save
+			// failed.
 			prog.Pause()
-			fmt.Fprintf(stderr, "assay: %v\n", err)
-			return ExitEngine
+			fmt.Fprintf(stderr, "assay: %v (the report is printed below)\n", err)
+			saveFailed = true
 		}
 	}
 	prog.Done()
-	return emitReport(rep, *format, *failHarm, stdout, stderr)
+	code = emitReport(rep, *format, *failHarm, stdout, stderr)
+	if saveFailed && code == ExitOK {
+		return ExitEngine
+	}
+	return code
 }
 
 // openFailed reports an error from opening the engine or compiling for

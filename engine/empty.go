@@ -11,6 +11,7 @@ import (
 
 	"github.com/assay-dev/assay/dialects"
 	"github.com/assay-dev/assay/metrics"
+	"github.com/assay-dev/assay/results"
 )
 
 // EmptySources returns the names of the sources of spec that have no rows,
@@ -213,7 +214,7 @@ func exposureUnitType(ctx context.Context, db *sql.DB, spec *metrics.Spec, d dia
 	}
 	for i, c := range cols {
 		if c == "column_type" {
-			if t := text(vals[i]); t != "" {
+			if t := results.Text(vals[i]); t != "" {
 				return t, nil
 			}
 		}

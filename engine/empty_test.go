@@ -115,7 +115,7 @@ func TestEmptyOutcomeSourcesReadAsZeros(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	res, err := engine.Query(ctx, db, q, nil)
+	res, err := engine.Query(ctx, db, plan, q, true)
 	if err != nil {
 		t.Fatalf("query: %v", engine.CleanError(err))
 	}
@@ -127,7 +127,7 @@ func TestEmptyOutcomeSourcesReadAsZeros(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	ref, err := engine.Query(ctx, db, fq, nil)
+	ref, err := engine.Query(ctx, db, fplan, fq, true)
 	if err != nil {
 		t.Fatalf("reference query: %v", engine.CleanError(err))
 	}

@@ -11,7 +11,6 @@ import (
 	"database/sql"
 	"errors"
 	"fmt"
-	"os"
 
 	"github.com/assay-dev/assay/compiler"
 	"github.com/assay-dev/assay/dialects"
@@ -59,7 +58,7 @@ func inputf(format string, args ...any) error { return inputError{fmt.Sprintf(fo
 // Open opens the target's engine.
 func Open(ctx context.Context, t Target) (*Engine, error) {
 	if t.DSN == "" && t.DB == "" {
-		t.DSN = os.Getenv("ASSAY_DSN")
+		t.DSN = engine.DSNFromEnv()
 	}
 	if t.Dialect == "" {
 		t.Dialect = "duckdb"
@@ -94,9 +93,27 @@ func Open(ctx context.Context, t Target) (*Engine, error) {
 }
 
 // Check checks the spec's sources against the engine's catalogue, before
-// any query runs.
-func (e *Engine) Check(ctx context.Context, spec *metrics.Spec) metrics.Diagnostics {
-	return engine.CheckCatalog(ctx, e.DB, spec, e.Dialect)
+// any query runs. Sources without rows (a header-only CSV, a 0-byte file,
+// an empty table) are found first; on DuckDB an empty file is read as an
+// empty relation of its declared columns (the spec's source is pointed at
+// it), so that its metrics are zero rather than refused. Empty lists
+// them, for the report's cautions.
+func (e *Engine) Check(ctx context.Context, spec *metrics.Spec) (ds metrics.Diagnostics, empty []string, err error) {
+	empty, err = engine.EmptySources(ctx, e.DB, spec, e.Dialect)
+	if err != nil {
+		return nil, nil, err
+	}
+	if len(empty) > 0 {
+		sds, err := engine.StandInEmpty(ctx, e.DB, spec, e.Dialect, empty)
+		if err != nil {
+			return nil, nil, err
+		}
+		ds = append(ds, sds...)
+		if ds.HasErrors() {
+			return ds, empty, nil
+		}
+	}
+	return append(ds, engine.CheckCatalog(ctx, e.DB, spec, e.Dialect)...), empty, nil
 }
 
 // Compile compiles spec with opt for the engine's dialect, checking what

@@ -301,6 +301,9 @@ type Options struct {
 	// mechanism metrics, several treatment variants and segment results:
 	// "holm" (default), "bh" (Benjamini–Hochberg), "bonferroni" or "none".
 	Adjust string
+	// EmptySources are sources that had no rows: their metrics are zero for
+	// every unit, which the cautions say.
+	EmptySources []string
 }
 
 func (o Options) withDefaults() Options {
@@ -386,6 +389,11 @@ func Analyze(p *compiler.Plan, set *results.Set, opt Options) (*Report, error) {
 		}
 	}
 	r.Cautions = cautions(p, r)
+	for _, src := range opt.EmptySources {
+		last := len(r.Cautions) - 1
+		note := fmt.Sprintf("Source %s has no rows: every metric that reads it is zero for every unit. Check that the extract or table is complete before reading those metrics.", src)
+		r.Cautions = append(r.Cautions[:last], note, r.Cautions[last])
+	}
 	for g := range p.GroupBy {
 		r.addBreakdown(p, g, set.Group(g), opt)
 	}
