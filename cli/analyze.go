@@ -3,6 +3,7 @@ package cli
 import (
 	"fmt"
 	"io"
+	"slices"
 	"strings"
 
 	"github.com/assay-dev/assay/compiler"
@@ -20,7 +21,7 @@ func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 	cf := compileFlags{dialect: "duckdb"}
 	fs.StringVar(&cf.asOf, "as-of", "", "the --as-of the query was compiled with (RFC 3339); default: the one the result carries")
 	cf.registerBreakdowns(fs)
-	aggs := fs.String("aggregates", "", "the main query's result, exported as CSV or JSON (required)")
+	aggs := fs.String("aggregates", "", "the main query's result, exported as CSV or JSON (required); on engines without GROUPING SETS, the results of the main query and of each breakdown query, comma-separated")
 	health := fs.String("health", "", "the health query's result, exported as CSV or JSON (recommended: exposure, trigger and exclusion counts)")
 	format := fs.String("format", "text", "output format: text, json or markdown")
 	failHarm := fs.Bool("fail-on-harm", false, "exit with code 5 when a guard metric shows harm")
@@ -52,7 +53,7 @@ func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 	if !ok {
 		return ExitInput
 	}
-	t, err := results.ReadTable(*aggs)
+	t, err := readTables(strings.Split(*aggs, ","))
 	if err != nil {
 		fmt.Fprintf(stderr, "assay analyze: %v\n", err)
 		return ExitInput
@@ -103,6 +104,28 @@ func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 		return ExitInput
 	}
 	return emitReport(rep, *format, *failHarm, stdout, stderr)
+}
+
+// readTables reads exported results with the same columns (the main
+// query and, on engines without GROUPING SETS, each breakdown query) as
+// one table.
+func readTables(paths []string) (*results.Table, error) {
+	var all *results.Table
+	for _, p := range paths {
+		t, err := results.ReadTable(strings.TrimSpace(p))
+		if err != nil {
+			return nil, err
+		}
+		if all == nil {
+			all = t
+			continue
+		}
+		if !slices.EqualFunc(all.Columns, t.Columns, strings.EqualFold) {
+			return nil, fmt.Errorf("%s: its columns differ from those of %s: export the main and breakdown queries of one compile", p, paths[0])
+		}
+		all.Rows = append(all.Rows, t.Rows...)
+	}
+	return all, nil
 }
 
 // resultOptions checks that a main result was computed from this spec

@@ -20,10 +20,16 @@ import (
 // any other dialect Setup and Cleanup are empty and Main and Health each
 // compute the cohort themselves.
 type Queries struct {
-	Setup   string // creates the cohort table; empty when the dialect does not stage
-	Main    string // one row per variant (and grouping key) with sufficient statistics
-	Health  string // exposure and exclusion counts
-	Cleanup string // drops the cohort table; empty when Setup is
+	Setup string // creates the cohort table; empty when the dialect does not stage
+	Main  string // one row per variant (and breakdown key) with sufficient statistics
+	// Breakdowns holds, for dialects without GROUP BY GROUPING SETS
+	// (dialects.NoGroupingSets), one query per breakdown key; Main then
+	// returns the overall rows only. All of them return the same columns
+	// (Plan.Columns), so their rows are read as one result. Elsewhere it is
+	// empty: Main returns every grouping.
+	Breakdowns []string
+	Health     string // exposure and exclusion counts
+	Cleanup    string // drops the cohort table; empty when Setup is
 }
 
 // Script is the statements of q that a run executes, in order, each ended
@@ -40,6 +46,9 @@ func (q Queries) Script(main, health bool) string {
 	add(q.Setup)
 	if main {
 		add(q.Main)
+		for _, b := range q.Breakdowns {
+			add(b)
+		}
 	}
 	if health {
 		add(q.Health)
@@ -63,8 +72,20 @@ func Print(p *Plan, d dialects.Dialect) (Queries, error) {
 		}
 		q.Setup, q.Cleanup = setup, st.DropTemp(StagedTable)+"\n"
 	}
-	main, err := pr.main()
-	if err != nil {
+	var main string
+	var err error
+	if _, union := d.(dialects.NoGroupingSets); union && len(p.GroupBy) > 0 {
+		if main, err = pr.main(overallOnly); err != nil {
+			return Queries{}, err
+		}
+		for i := range p.GroupBy {
+			b, err := pr.main(i)
+			if err != nil {
+				return Queries{}, err
+			}
+			q.Breakdowns = append(q.Breakdowns, b)
+		}
+	} else if main, err = pr.main(allGroupings); err != nil {
 		return Queries{}, err
 	}
 	health, err := pr.health()
@@ -853,10 +874,28 @@ func (pr *printer) indicator(mp *MetricPlan) string {
 	return fmt.Sprintf("CASE WHEN u.%s THEN %s END", mp.Mature, pr.d.OneZero("u."+pr.id(mp.Value.Col)+" > "+strconv.FormatFloat(mp.M.Above, 'g', -1, 64)))
 }
 
-func (pr *printer) main() (string, error) {
+// Groupings a main query returns: every grouping (GROUPING SETS), the
+// overall rows only, or (a GroupBy index) one breakdown only.
+const (
+	allGroupings = -2
+	overallOnly  = -1
+)
+
+// main prints a main query returning grouping (allGroupings, overallOnly
+// or the index of one breakdown).
+func (pr *printer) main(grouping int) (string, error) {
 	p := pr.p
 	pr.b.Reset()
-	pr.header("per-variant statistics")
+	switch {
+	case grouping >= 0:
+		pr.header("per-variant statistics by " + p.GroupBy[grouping].Label())
+		pr.line(0, "-- This engine has no GROUPING SETS: each breakdown is a query of its own, with the same columns.")
+	case grouping == overallOnly && len(p.GroupBy) > 0:
+		pr.header("per-variant statistics (overall)")
+		pr.line(0, "-- This engine has no GROUPING SETS: each breakdown is a query of its own, with the same columns.")
+	default:
+		pr.header("per-variant statistics")
+	}
 	if pr.stage != nil {
 		pr.line(0, "-- Reads the cohort table of the setup statement.")
 		pr.line(0, "WITH")
@@ -867,8 +906,8 @@ func (pr *printer) main() (string, error) {
 	pr.eligible()
 	pr.passes()
 	var segKeys []GroupKey
-	for _, g := range p.GroupBy {
-		if !g.Day {
+	for i, g := range p.GroupBy {
+		if !g.Day && (grouping == allGroupings || grouping == i) {
 			segKeys = append(segKeys, g)
 		}
 	}
@@ -1036,28 +1075,7 @@ func (pr *printer) main() (string, error) {
 		order = append(order, pr.id(g.Name))
 	}
 	switch {
-	case len(p.GroupBy) == 0:
-		pr.line(0, "SELECT")
-		selectList("")
-		pr.line(0, "GROUP BY %s", strings.Join(keys, ", "))
-	case pr.unionGroupings():
-		// No GROUPING SETS on this engine: one SELECT per grouping over the
-		// same CTEs, stacked.
-		for i := -1; i < len(p.GroupBy); i++ {
-			only, ks := "", keys
-			if i >= 0 {
-				g := p.GroupBy[i]
-				only, ks = g.Name, append(append([]string{}, keys...), groupExpr[g.Name])
-				pr.line(0, "UNION ALL")
-				pr.line(0, "-- Broken down by %s.", oneLine(g.Label()))
-			} else {
-				pr.line(0, "-- Overall.")
-			}
-			pr.line(0, "SELECT")
-			selectList(only)
-			pr.line(0, "GROUP BY %s", strings.Join(ks, ", "))
-		}
-	default:
+	case grouping == allGroupings && len(p.GroupBy) > 0:
 		pr.line(0, "-- The overall rows and one set of rows per breakdown, from one pass over the units: in each")
 		pr.line(0, "-- grouping the keys it does not use are NULL.")
 		pr.line(0, "SELECT")
@@ -1067,16 +1085,18 @@ func (pr *printer) main() (string, error) {
 			sets = append(sets, "("+strings.Join(append(append([]string{}, keys...), groupExpr[g.Name]), ", ")+")")
 		}
 		pr.line(0, "GROUP BY GROUPING SETS (%s)", strings.Join(sets, ", "))
+	case grouping >= 0:
+		g := p.GroupBy[grouping]
+		pr.line(0, "SELECT")
+		selectList(g.Name)
+		pr.line(0, "GROUP BY %s", strings.Join(append(append([]string{}, keys...), groupExpr[g.Name]), ", "))
+	default:
+		pr.line(0, "SELECT")
+		selectList("")
+		pr.line(0, "GROUP BY %s", strings.Join(keys, ", "))
 	}
 	pr.line(0, "ORDER BY %s", strings.Join(order, ", "))
 	return pr.b.String(), pr.err
-}
-
-// unionGroupings reports whether breakdowns are printed as a UNION ALL of
-// one grouped SELECT per grouping (engines without GROUPING SETS).
-func (pr *printer) unionGroupings() bool {
-	_, ok := pr.d.(dialects.NoGroupingSets)
-	return ok
 }
 
 // metricStats prints the statistics columns of mp, in the order of

@@ -115,10 +115,13 @@ type Inliner interface {
 }
 
 // NoGroupingSets is implemented by dialects whose engine has no GROUP BY
-// GROUPING SETS (MySQL, MariaDB): the compiler stacks one grouped SELECT per
-// breakdown with UNION ALL over the same CTEs instead.
+// GROUPING SETS (MySQL, MariaDB): the compiler prints one query per
+// breakdown beside the overall one (compiler.Queries.Breakdowns). A UNION
+// ALL of the groupings in one statement was tried first: MariaDB computes
+// every CTE again for each reference, and the demo with two segments did
+// not finish in ten minutes.
 type NoGroupingSets interface {
-	UnionGroupings()
+	SeparateGroupings()
 }
 
 // Stager is implemented by dialects whose engine keeps a temporary table

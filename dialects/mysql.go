@@ -144,6 +144,6 @@ func (d MySQL) Expr(n expr.Node, col func(string) string) string {
 	})
 }
 
-// UnionGroupings implements NoGroupingSets: MySQL and MariaDB have ROLLUP
-// but not GROUPING SETS.
-func (MySQL) UnionGroupings() {}
+// SeparateGroupings implements NoGroupingSets: MySQL and MariaDB have
+// ROLLUP but not GROUPING SETS.
+func (MySQL) SeparateGroupings() {}
