@@ -74,4 +74,9 @@ const (
 	CodeUndefinedMetric = "undefined-metric"
 	// CodeEncoding: the file is not valid UTF-8 text.
 	CodeEncoding = "encoding"
+	// CodeRollout: a rollout step out of order, outside the analysis
+	// period, or with weights that do not name every variant once.
+	//   [rollout.steps.wide]
+	//   start = 2026-02-01T00:00:00Z   # before the analysis start
+	CodeRollout = "rollout"
 )

@@ -373,7 +373,7 @@ func tomlType(v any) string {
 
 // ---- the spec ----
 
-var topKeys = []string{"experiment", "variants", "sources", "exposure", "eligibility", "metrics", "segments"}
+var topKeys = []string{"experiment", "variants", "sources", "exposure", "eligibility", "metrics", "segments", "rollout"}
 
 func (l *loader) load(raw map[string]any) {
 	root := l.table(nil, raw, topKeys...)
@@ -469,6 +469,10 @@ func (l *loader) load(raw map[string]any) {
 			}
 		}
 		l.caseClash(sg, "segment")
+	}
+	// Allocation schedule: see rollout.go.
+	if rt := root.sub("rollout", false, rolloutKeys...); rt != nil {
+		l.rollout(rt)
 	}
 }
 

@@ -32,6 +32,9 @@ type Spec struct {
 	Rules    []*Rule   // eligibility rules, in file order
 	Metrics  []*Metric // in file order
 	Segments []*Segment
+	// Rollout is the allocation schedule when the experiment was launched
+	// in steps (see rollout.go); nil when the spec declares none.
+	Rollout *Rollout
 
 	Ranges map[string]Range // key path ("metrics.orders.window") -> value range
 }

@@ -1,0 +1,182 @@
+package metrics
+
+import (
+	"math"
+	"sort"
+	"strings"
+	"time"
+)
+
+// Rollout is the allocation schedule of an experiment launched in steps:
+// a small test step first (say 5% of units in the treatment), then wider
+// steps. Each unit is analysed with the step in force at its trigger.
+type Rollout struct {
+	Steps []Step // in time order; the first starts at the analysis start
+	// Estimate says how the effect combines steps: EstimateByStep weights
+	// each step's within-step difference by the step's share of units;
+	// EstimateLastStep uses the units triggered in the last step only.
+	Estimate string
+	At       Range
+}
+
+// Rollout estimates.
+const (
+	EstimateByStep   = "by_step"
+	EstimateLastStep = "last_step"
+)
+
+// Step is one allocation step of a rollout.
+type Step struct {
+	Name  string
+	Start time.Time
+	// Weights are the step's shares per variant, in Spec.Variants order,
+	// normalised to sum to 1; Written are the weights as written.
+	Weights []float64
+	Written []float64
+	At      Range
+}
+
+// StepAt returns the index of the step in force at t: the last step whose
+// start is at or before t (0 for times before the first step).
+func (r *Rollout) StepAt(t time.Time) int {
+	i := sort.Search(len(r.Steps), func(i int) bool { return r.Steps[i].Start.After(t) })
+	return max(i-1, 0)
+}
+
+var rolloutKeys = []string{"estimate", "steps"}
+
+var stepKeys = []string{"start", "weights"}
+
+// rollout reads the [rollout] table. It runs after [experiment] and
+// [variants], whose period and names it checks against.
+func (l *loader) rollout(t *table) {
+	s := l.spec
+	ro := &Rollout{At: l.rng(t.path, true)}
+	ro.Estimate = t.enum("estimate", false, EstimateByStep, EstimateByStep, EstimateLastStep)
+	st := t.sub("steps", true)
+	if st == nil {
+		return
+	}
+	if len(st.m) == 0 {
+		l.errAt(st.path, CodeRollout, "declare at least one step, e.g. [rollout.steps.trial] with weights", "[rollout.steps] is empty")
+		return
+	}
+	good := true
+	for i, name := range st.keys() {
+		stt := st.sub(name, false, stepKeys...)
+		if stt == nil {
+			good = false
+			continue
+		}
+		l.ident(stt.path, name, "step name", true)
+		step := Step{Name: name, At: l.rng(stt.path, true)}
+		if stt.has("start") {
+			tm, ok := l.timestamp(stt, "start", false)
+			if !ok {
+				good = false
+			}
+			step.Start = tm
+		} else if i == 0 {
+			step.Start = s.Start
+		} else {
+			stt.missing("start", "when the step began, e.g. start = 2026-03-05T00:00:00Z")
+			good = false
+		}
+		if w, ok := l.stepWeights(stt); ok {
+			step.Written = w
+			step.Weights = normalise(w)
+		} else {
+			good = false
+		}
+		ro.Steps = append(ro.Steps, step)
+	}
+	l.caseClash(st, "step")
+	if !good || s.Start.IsZero() || s.End.IsZero() {
+		s.Rollout = ro
+		return
+	}
+	for i, step := range ro.Steps {
+		path := append(st.p(step.Name), "start")
+		switch {
+		case i == 0 && !step.Start.Equal(s.Start):
+			l.errAt(path, CodeRollout, "the first step begins at the analysis start ("+s.Start.UTC().Format(time.RFC3339)+"); leave its start out to say so",
+				"the first step `%s` starts at %s, not at the analysis start", step.Name, step.Start.UTC().Format(time.RFC3339))
+		case i > 0 && !step.Start.After(ro.Steps[i-1].Start):
+			l.errAt(path, CodeRollout, "list the steps in the order they began, each later than the one before",
+				"step `%s` starts at %s, not after step `%s`", step.Name, step.Start.UTC().Format(time.RFC3339), ro.Steps[i-1].Name)
+		case i > 0 && !step.Start.Before(s.End):
+			l.errAt(path, CodeRollout, "a step that begins at or after the analysis end has no units; drop it or move the end",
+				"step `%s` starts at %s, not before the analysis end %s", step.Name, step.Start.UTC().Format(time.RFC3339), s.End.UTC().Format(time.RFC3339))
+		}
+	}
+	s.Rollout = ro
+}
+
+// stepWeights reads a step's weights table: one positive weight per
+// declared variant, in Spec.Variants order.
+func (l *loader) stepWeights(t *table) ([]float64, bool) {
+	s := l.spec
+	names := make([]string, len(s.Variants))
+	for i, v := range s.Variants {
+		names[i] = v.Name
+	}
+	hint := "one weight per variant, e.g. weights = { " + strings.Join(examplePairs(names), ", ") + " }"
+	wt := t.sub("weights", true, names...)
+	if wt == nil {
+		return nil, false
+	}
+	out := make([]float64, len(names))
+	good := len(names) >= 2
+	for i, n := range names {
+		w, ok := wt.num(n)
+		if !ok {
+			if !wt.has(n) {
+				l.errAt(wt.path, CodeRollout, hint, "`%s` has no weight for variant `%s`", dotted(wt.path), n)
+			}
+			good = false
+			continue
+		}
+		if w <= 0 {
+			l.errAt(wt.p(n), CodeRollout, "every variant needs a positive share in every step; a variant with no traffic is not yet in the experiment", "variant `%s` has weight %v in step `%s`; weights must be positive", n, w, t.path[len(t.path)-1])
+			good = false
+			continue
+		}
+		out[i] = w
+	}
+	for _, k := range wt.keys() {
+		if !contains(names, k) {
+			good = false
+		}
+	}
+	if good {
+		sum := 0.0
+		for _, w := range out {
+			sum += w
+		}
+		if math.IsInf(sum, 0) {
+			l.errAt(wt.path, CodeRollout, "write smaller weights, e.g. 5 and 95", "step weights are too large to add up")
+			good = false
+		}
+	}
+	return out, good
+}
+
+func examplePairs(names []string) []string {
+	out := make([]string, len(names))
+	for i, n := range names {
+		out[i] = n + " = 50"
+	}
+	return out
+}
+
+func normalise(w []float64) []float64 {
+	sum := 0.0
+	for _, x := range w {
+		sum += x
+	}
+	out := make([]float64, len(w))
+	for i, x := range w {
+		out[i] = x / sum
+	}
+	return out
+}
