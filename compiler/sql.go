@@ -747,6 +747,9 @@ func (pr *printer) units(more bool) {
 	pr.line(2, "e.unit_id,")
 	pr.line(2, "e.variant,")
 	pr.line(2, "e.trigger_day,")
+	if p.StepKey() >= 0 {
+		pr.line(2, "e.trigger_us,") // the rollout step's key (rollout.go)
+	}
 	for _, seg := range p.Segments {
 		pr.line(2, "e.%s,", pr.id("seg_"+seg.Name))
 	}
@@ -868,7 +871,7 @@ func (pr *printer) main() (string, error) {
 	pr.passes()
 	var segKeys []GroupKey
 	for _, g := range p.GroupBy {
-		if !g.Day {
+		if g.Segment != nil {
 			segKeys = append(segKeys, g)
 		}
 	}
@@ -981,6 +984,8 @@ func (pr *printer) main() (string, error) {
 	for _, g := range p.GroupBy {
 		if g.Day {
 			groupExpr[g.Name] = "u.trigger_day"
+		} else if g.Step {
+			groupExpr[g.Name] = pr.stepCase("u.trigger_us") // rollout.go
 		} else {
 			groupExpr[g.Name] = keyExpr[g.Name]
 		}
