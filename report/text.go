@@ -102,6 +102,7 @@ func (r *Report) document() *document {
 		d.alarm(a)
 	}
 	r.healthDoc(d)
+	r.rolloutDoc(d) // rollout.go
 	for _, ro := range roleOrder {
 		var ms []MetricInfo
 		for _, m := range r.Metrics {

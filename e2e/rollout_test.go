@@ -1,0 +1,288 @@
+package e2e
+
+// A launch in steps through the whole path: a test step at 95/5 for a
+// week, then 50/50, while the metric drifts down between the steps (units
+// of the first week order more). The planted effect is the same in both
+// steps. The naive pooled difference mixes the steps in each arm's own
+// proportions and is biased; the by-step difference is checked against
+// the post-stratified estimator written out here with gonum from the
+// per-unit data, and its interval must cover the planted effect. Sample
+// ratios are checked per step and overall against the schedule: a planned
+// ramp raises no alarm; an unplanned imbalance in the wide step does.
+
+import (
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"math"
+	"strings"
+	"testing"
+	"time"
+
+	"gonum.org/v1/gonum/stat"
+	"gonum.org/v1/gonum/stat/distuv"
+)
+
+const rolloutTOML = `
+[rollout]
+estimate = "by_step"
+
+[rollout.steps.trial]
+weights = { control = 95, treatment = 5 }
+
+[rollout.steps.wide]
+start = 2026-03-09T00:00:00Z
+weights = { control = 50, treatment = 50 }
+`
+
+// rolloutUnit is one planted unit.
+type rolloutUnit struct {
+	step, arm int // step 0 trial, 1 wide; arm 0 control, 1 treatment
+	y         float64
+}
+
+// rolloutFixture writes units triggered on days 0–6 (trial step, 400 a
+// day) and 7–20 (wide step, 200 a day). A unit lands in the treatment
+// with probability treatShare[step]. Its outcome is a Poisson count of
+// events in [0d, 14d): mean base[step] + effect in the treatment.
+func rolloutFixture(t testing.TB, dir string, treatShare, base [2]float64, effect float64, seed uint64) []rolloutUnit {
+	t.Helper()
+	r := newRand(seed)
+	var expo, ev [][]string
+	var units []rolloutUnit
+	id := 0
+	for d := 0; d < 21; d++ {
+		step, n := 0, 400
+		if d >= 7 {
+			step, n = 1, 200
+		}
+		for range n {
+			u := fmt.Sprintf("u%06d", id)
+			id++
+			arm := 0
+			if r.Float64() < treatShare[step] {
+				arm = 1
+			}
+			trig := within(r, start3T.Add(time.Duration(d)*day), day)
+			expo = append(expo, []string{u, []string{"control", "treatment"}[arm], tsText(trig)})
+			lambda := base[step] + float64(arm)*effect
+			k := poisson(r, lambda)
+			for range k {
+				ev = append(ev, []string{u, tsText(within(r, trig, 14*day))})
+			}
+			units = append(units, rolloutUnit{step: step, arm: arm, y: float64(k)})
+		}
+	}
+	writeBulk(t, dir, "exposures.parquet", []col3{{"unit_id", "VARCHAR"}, {"variant", "VARCHAR"}, {"exposed_at", "TIMESTAMP"}}, expo)
+	writeBulk(t, dir, "events.parquet", []col3{{"unit_id", "VARCHAR"}, {"happened_at", "TIMESTAMP"}}, ev)
+	return units
+}
+
+// rolloutReport is the part of the JSON report this test reads.
+type rolloutReport struct {
+	Alarms []string `json:"alarms"`
+	Health struct {
+		SampleRatio struct {
+			Statistic num  `json:"statistic"`
+			PValue    num  `json:"p_value"`
+			Alarm     bool `json:"alarm"`
+		} `json:"sample_ratio"`
+		SampleRatioDaily struct {
+			AlarmDays []string `json:"alarm_days"`
+		} `json:"sample_ratio_daily"`
+	} `json:"health"`
+	Metrics []struct {
+		Name        string `json:"name"`
+		Comparisons []struct {
+			Method     string `json:"method"`
+			Difference num    `json:"difference"`
+			StdError   num    `json:"std_error"`
+			CILow      num    `json:"ci_low"`
+			CIHigh     num    `json:"ci_high"`
+			PValue     num    `json:"p_value"`
+		} `json:"comparisons"`
+	} `json:"metrics"`
+	Rollout *struct {
+		Estimate string `json:"estimate"`
+		Method   string `json:"method"`
+		Steps    []struct {
+			Name        string           `json:"name"`
+			Eligible    map[string]int64 `json:"eligible_by_variant"`
+			SampleRatio struct {
+				Statistic num  `json:"statistic"`
+				PValue    num  `json:"p_value"`
+				Alarm     bool `json:"alarm"`
+			} `json:"sample_ratio"`
+		} `json:"steps"`
+		Effects []struct {
+			Metric     string `json:"metric"`
+			Difference num    `json:"difference"`
+			Pooled     num    `json:"pooled_difference"`
+		} `json:"effects"`
+	} `json:"rollout"`
+	Cautions []string `json:"cautions"`
+}
+
+func runRollout(t *testing.T, spec string) (int, *rolloutReport) {
+	t.Helper()
+	code, out, errs := runCLI("run", "--format", "json", spec)
+	var r rolloutReport
+	if err := json.NewDecoder(bytes.NewReader([]byte(out))).Decode(&r); err != nil {
+		t.Fatalf("exit %d, stdout is not a JSON report: %v\nstderr:\n%s", code, err, errs)
+	}
+	return code, &r
+}
+
+// stratifiedByHand is the post-stratified difference (Cochran 1977,
+// "Sampling Techniques", §5A.9) written out with gonum: per step the
+// difference of arm means, weighted by the step's share of units, with
+// SE² = Σ w_k²(s²_t/n_t + s²_b/n_b).
+func stratifiedByHand(units []rolloutUnit) (d, se float64) {
+	var ys [2][2][]float64
+	for _, u := range units {
+		ys[u.step][u.arm] = append(ys[u.step][u.arm], u.y)
+	}
+	n := float64(len(units))
+	var v float64
+	for k := range 2 {
+		mb, vb := stat.MeanVariance(ys[k][0], nil)
+		mt, vt := stat.MeanVariance(ys[k][1], nil)
+		nb, nt := float64(len(ys[k][0])), float64(len(ys[k][1]))
+		w := (nb + nt) / n
+		d += w * (mt - mb)
+		v += w * w * (vt/nt + vb/nb)
+	}
+	return d, math.Sqrt(v)
+}
+
+// pooledByHand is the Welch difference of arm means over all units, with
+// its 95% interval (gonum Student's t with Welch–Satterthwaite df).
+func pooledByHand(units []rolloutUnit) (d, lo, hi float64) {
+	var ys [2][]float64
+	for _, u := range units {
+		ys[u.arm] = append(ys[u.arm], u.y)
+	}
+	mb, vb := stat.MeanVariance(ys[0], nil)
+	mt, vt := stat.MeanVariance(ys[1], nil)
+	a, b := vb/float64(len(ys[0])), vt/float64(len(ys[1]))
+	df := (a + b) * (a + b) / (a*a/float64(len(ys[0])-1) + b*b/float64(len(ys[1])-1))
+	q := distuv.StudentsT{Mu: 0, Sigma: 1, Nu: df}.Quantile(0.975)
+	d = mt - mb
+	se := math.Sqrt(a + b)
+	return d, d - q*se, d + q*se
+}
+
+func TestRolloutByStep(t *testing.T) {
+	const effect = 0.5
+	dir := t.TempDir()
+	units := rolloutFixture(t, dir, [2]float64{0.05, 0.5}, [2]float64{4, 2}, effect, 1301)
+	spec := writeText(t, dir, "spec.toml", spec3{Metrics: metricVisits, Extra: rolloutTOML}.toml())
+	code, rep := runRollout(t, spec)
+	if testing.Verbose() {
+		_, out, _ := runCLI("run", spec)
+		t.Log(out)
+	}
+	if code != 0 {
+		t.Fatalf("exit code: got %d, want 0 (a planned ramp is no mismatch); alarms %q", code, rep.Alarms)
+	}
+	if len(rep.Alarms) != 0 {
+		t.Errorf("alarms: got %q, want none for a planned ramp", rep.Alarms)
+	}
+	if rep.Rollout == nil || rep.Rollout.Estimate != "by_step" || len(rep.Rollout.Steps) != 2 {
+		t.Fatalf("rollout section: got %+v, want by_step with two steps", rep.Rollout)
+	}
+	wantD, wantSE := stratifiedByHand(units)
+	c := rep.Metrics[0].Comparisons[0]
+	q := distuv.UnitNormal.Quantile(0.975)
+	runChecks(t, []check3{
+		{"by-step difference", f(c.Difference), wantD, 1e-9, "post-stratified difference by hand (gonum stat.MeanVariance)"},
+		{"by-step std error", f(c.StdError), wantSE, 1e-9, "√Σ w_k²(s²_t/n_t + s²_b/n_b) by hand"},
+		{"by-step ci_low", f(c.CILow), wantD - q*wantSE, 1e-9, "D − z_0.975·SE, gonum UnitNormal quantile"},
+		{"by-step ci_high", f(c.CIHigh), wantD + q*wantSE, 1e-9, "D + z_0.975·SE"},
+	})
+	if !strings.HasPrefix(c.Method, "by-step") {
+		t.Errorf("method: got %q, want it to state the by-step reading", c.Method)
+	}
+	if !(f(c.CILow) <= effect && effect <= f(c.CIHigh)) {
+		t.Errorf("by-step interval [%v, %v] does not cover the planted effect %v", f(c.CILow), f(c.CIHigh), effect)
+	}
+	pd, plo, phi := pooledByHand(units)
+	t.Logf("planted %v; by step %.4f [%.4f, %.4f]; pooled %.4f [%.4f, %.4f]", effect, f(c.Difference), f(c.CILow), f(c.CIHigh), pd, plo, phi)
+	if got := f(rep.Rollout.Effects[0].Pooled); math.Abs(got-pd) > 1e-9 {
+		t.Errorf("pooled difference: got %v, want %v (difference of arm means by hand)", got, pd)
+	}
+	if plo <= effect && effect <= phi {
+		t.Errorf("the pooled interval [%v, %v] covers the planted effect %v; the fixture should make the naive estimate biased", plo, phi, effect)
+	}
+	// Per-step and overall sample ratios against the schedule.
+	w := [][]float64{{0.95, 0.05}, {0.5, 0.5}}
+	var expected [2]float64
+	var obs [2]float64
+	for k, st := range rep.Rollout.Steps {
+		o := []float64{float64(st.Eligible["control"]), float64(st.Eligible["treatment"])}
+		var nk float64
+		for i := range o {
+			obs[i] += o[i]
+			nk += o[i]
+		}
+		x2 := chiSqGOF(o, w[k]) // Source: Pearson Σ(O−E)²/E by hand
+		runChecks(t, []check3{{"step " + st.Name + " chi-square", f(st.SampleRatio.Statistic), x2, 1e-9, "Σ(O−E)²/E with the step's weights"}})
+		expected[0] += nk * w[k][0]
+		expected[1] += nk * w[k][1]
+	}
+	total := obs[0] + obs[1]
+	x2 := chiSqGOF(obs[:], []float64{expected[0] / total, expected[1] / total})
+	runChecks(t, []check3{
+		{"overall chi-square", f(rep.Health.SampleRatio.Statistic), x2, 1e-9, "Σ(O−E)²/E with unit-weighted step shares"},
+		{"overall p", f(rep.Health.SampleRatio.PValue), chiSqSurvival(x2, 1), 1e-9, "distuv.ChiSquared{K: 1} survival"},
+	})
+}
+
+func TestRolloutUnplannedImbalance(t *testing.T) {
+	dir := t.TempDir()
+	// The wide step is declared 50/50 but assigns 60/40.
+	rolloutFixture(t, dir, [2]float64{0.05, 0.4}, [2]float64{2, 2}, 0, 1302)
+	spec := writeText(t, dir, "spec.toml", spec3{Metrics: metricVisits, Extra: rolloutTOML}.toml())
+	code, rep := runRollout(t, spec)
+	if code != 4 {
+		t.Errorf("exit code: got %d, want 4 (sample-ratio mismatch)", code)
+	}
+	if !rep.Health.SampleRatio.Alarm {
+		t.Errorf("overall sample ratio: got no alarm, want one (p = %v)", f(rep.Health.SampleRatio.PValue))
+	}
+	if rep.Rollout == nil || len(rep.Rollout.Steps) != 2 {
+		t.Fatalf("rollout section: got %+v", rep.Rollout)
+	}
+	if rep.Rollout.Steps[0].SampleRatio.Alarm || !rep.Rollout.Steps[1].SampleRatio.Alarm {
+		t.Errorf("per-step alarms: got trial %v, wide %v; want only the wide step", rep.Rollout.Steps[0].SampleRatio.Alarm, rep.Rollout.Steps[1].SampleRatio.Alarm)
+	}
+	if len(rep.Health.SampleRatioDaily.AlarmDays) == 0 {
+		t.Logf("no daily alarm at 200 units a day (expected: a 60/40 split of 200 is p ≈ 0.005 per day)")
+	}
+}
+
+func TestRolloutLastStep(t *testing.T) {
+	dir := t.TempDir()
+	units := rolloutFixture(t, dir, [2]float64{0.05, 0.5}, [2]float64{4, 2}, 0.5, 1303)
+	spec := writeText(t, dir, "spec.toml", spec3{Metrics: metricVisits, Extra: strings.Replace(rolloutTOML, `"by_step"`, `"last_step"`, 1)}.toml())
+	code, rep := runRollout(t, spec)
+	if code != 0 {
+		t.Fatalf("exit code: got %d, want 0; alarms %q", code, rep.Alarms)
+	}
+	var wide []rolloutUnit
+	for _, u := range units {
+		if u.step == 1 {
+			wide = append(wide, u)
+		}
+	}
+	d, lo, hi := pooledByHand(wide) // Welch on the wide step's units only
+	c := rep.Metrics[0].Comparisons[0]
+	runChecks(t, []check3{
+		{"last-step difference", f(c.Difference), d, 1e-9, "difference of arm means of the last step's units, by hand"},
+		{"last-step ci_low", f(c.CILow), lo, 1e-6, "Welch interval by hand (gonum StudentsT quantile)"},
+		{"last-step ci_high", f(c.CIHigh), hi, 1e-6, "Welch interval by hand"},
+	})
+	if !strings.HasPrefix(c.Method, "last-step") {
+		t.Errorf("method: got %q, want it to state the last-step reading", c.Method)
+	}
+}
