@@ -461,7 +461,7 @@ func exclusions(p *Plan) []Exclusion {
 	for _, r := range p.Rules {
 		out = append(out, Exclusion{Reason: RuleReason(r.Name), Flag: "fails_" + r.Name, Rule: r})
 	}
-	return out
+	return priorExclusion(p, out) // rollout.go
 }
 
 func matureCol(endUS int64) string {

@@ -2,6 +2,7 @@ package compiler
 
 import (
 	"strings"
+	"time"
 
 	"github.com/assay-dev/assay/metrics"
 )
@@ -56,4 +57,49 @@ func (pr *printer) stepCase(col string) string {
 	}
 	b.WriteString(" ELSE " + pr.d.String(steps[0].Name) + " END")
 	return b.String()
+}
+
+// ExcludedPrior is the exclusion reason of units exposed in a prior run
+// (the spec's [prior_runs]) before the analysis start; FlagPrior is the
+// cohort's column that marks them.
+const (
+	ExcludedPrior = "previously_exposed"
+	FlagPrior     = "is_previously_exposed"
+)
+
+// priorExclusion appends the prior-run exclusion when the spec declares
+// prior runs.
+func priorExclusion(p *Plan, out []Exclusion) []Exclusion {
+	if len(p.Spec.PriorRuns) == 0 {
+		return out
+	}
+	return append(out, Exclusion{Reason: ExcludedPrior, Flag: FlagPrior})
+}
+
+// priorUnits prints the prior_units CTE: the units with a qualifying row
+// of a prior run's source in its period, cut at the analysis start.
+func (pr *printer) priorUnits() {
+	p := pr.p
+	runs := p.Spec.PriorRuns
+	if len(runs) == 0 {
+		return
+	}
+	pr.line(0, "-- Units exposed in a prior run before the analysis start: excluded as %s.", ExcludedPrior)
+	pr.line(0, "prior_units AS (")
+	for i, r := range runs {
+		if i > 0 {
+			pr.line(1, "UNION")
+		}
+		src := r.Source
+		until := min(r.Until.UnixMicro(), p.StartUS)
+		pr.line(1, "-- Prior run %s: %s in [%s, %s)%s.", oneLine(r.Name), oneLine(src.Name), r.From.UTC().Format(time.RFC3339), time.UnixMicro(until).UTC().Format(time.RFC3339), whereNote(r.Filter))
+		pr.line(1, "SELECT x.%s AS unit_id", pr.id(src.Unit))
+		pr.line(1, "FROM %s AS x", pr.from(src))
+		pr.line(1, "WHERE x.%s IS NOT NULL", pr.id(src.Unit))
+		pr.line(2, "AND %s >= %s AND %s < %s", pr.time(src, "x"), us(r.From.UnixMicro()), pr.time(src, "x"), us(until))
+		if r.Filter != nil {
+			pr.line(2, "AND coalesce(%s, FALSE)", pr.expr(r.Filter, "x"))
+		}
+	}
+	pr.line(0, "),")
 }

@@ -79,4 +79,9 @@ const (
 	//   [rollout.steps.wide]
 	//   start = 2026-02-01T00:00:00Z   # before the analysis start
 	CodeRollout = "rollout"
+	// CodePriorRun: a prior run whose period is empty, starts at or after
+	// the analysis start, or reads a source without a time column.
+	//   [prior_runs.first]
+	//   from = 2026-06-01T00:00:00Z   # after this run's start
+	CodePriorRun = "prior-run"
 )

@@ -180,3 +180,46 @@ func normalise(w []float64) []float64 {
 	}
 	return out
 }
+
+// PriorRun names the exposures of an earlier run of the experiment (or of
+// another experiment on the same feature): units with a qualifying row in
+// Source in [From, Until) have seen the change before, so they are
+// excluded from this analysis ("previously_exposed") and counted by
+// variant. Only rows before the current analysis start count.
+type PriorRun struct {
+	Name        string
+	Source      *Source
+	From, Until time.Time
+	Filter      *Expr // nil: every row
+	At          Range
+}
+
+var priorRunKeys = []string{"source", "from", "until", "filter"}
+
+// priorRun reads one [prior_runs.<name>] table.
+func (l *loader) priorRun(name string, t *table, ref refFunc) *PriorRun {
+	if t == nil {
+		return nil
+	}
+	s := l.spec
+	pr := &PriorRun{Name: name, At: l.rng(t.path, true)}
+	l.ident(t.path, name, "prior run name", true)
+	pr.Source = ref(t, "source")
+	if pr.Source != nil && !pr.Source.IsEvent() {
+		l.errAt(t.p("source"), CodePriorRun, "name an event source with a time column, such as the earlier run's exposure log", "source `%s` has no time column, so earlier exposures cannot be dated", pr.Source.Name)
+	}
+	var okF, okU bool
+	pr.From, okF = l.timestamp(t, "from", true)
+	pr.Until, okU = l.timestamp(t, "until", false)
+	if !t.has("until") {
+		pr.Until, okU = s.Start, !s.Start.IsZero()
+	}
+	if okF && okU && t.has("until") && !pr.Until.After(pr.From) {
+		l.errAt(t.p("until"), CodePriorRun, "", "prior run `%s` ends at %s, not after its start %s", name, pr.Until.UTC().Format(time.RFC3339), pr.From.UTC().Format(time.RFC3339))
+	}
+	if okF && !s.Start.IsZero() && !pr.From.Before(s.Start) {
+		l.errAt(t.p("from"), CodePriorRun, "earlier exposures are those before this run's start", "prior run `%s` starts at %s, not before the analysis start %s", name, pr.From.UTC().Format(time.RFC3339), s.Start.UTC().Format(time.RFC3339))
+	}
+	pr.Filter = l.expression(t, "filter", pr.Source, true)
+	return pr
+}

@@ -35,6 +35,8 @@ type Spec struct {
 	// Rollout is the allocation schedule when the experiment was launched
 	// in steps (see rollout.go); nil when the spec declares none.
 	Rollout *Rollout
+	// PriorRuns are earlier exposures whose units are left out (rollout.go).
+	PriorRuns []*PriorRun
 
 	Ranges map[string]Range // key path ("metrics.orders.window") -> value range
 }

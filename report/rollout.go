@@ -467,10 +467,10 @@ func rolloutMix(p *compiler.Plan, g int, mix *SampleRatio) {
 
 // rolloutCautions are the cautions the schedule adds.
 func rolloutCautions(p *compiler.Plan, r *Report) []string {
+	c := priorCautions(p, r)
 	if r.Rollout == nil {
-		return nil
+		return c
 	}
-	var c []string
 	if r.Rollout.Estimate == metrics.EstimateLastStep {
 		c = append(c, "The primary comparison reads the last rollout step only; its values and comparisons differ from a reading of all units, and other metrics still pool every step (see the by-step estimates in the rollout section).")
 	} else {
@@ -483,6 +483,37 @@ func rolloutCautions(p *compiler.Plan, r *Report) []string {
 		if gap := math.Abs(float64(e.Pooled - e.Difference)); gap > 2*float64(e.StdError) {
 			c = append(c, fmt.Sprintf("Metric %s, %s: the pooled difference (%s) and the by-step difference (%s) differ by more than two standard errors; the steps mixed the arms in different proportions while the metric changed over time.", e.Metric, e.Variant, signed(e.Pooled), signed(e.Difference)))
 		}
+	}
+	return c
+}
+
+// priorCautions are the cautions on earlier exposures: units of declared
+// prior runs left out, and exposure rows before the start whether or not
+// any prior run is declared (a rerun's units have seen the change).
+func priorCautions(p *compiler.Plan, r *Report) []string {
+	var c []string
+	h := r.Health
+	if !h.Available {
+		return nil
+	}
+	for _, e := range h.Exclusions {
+		if e.Reason != compiler.ExcludedPrior || e.Units == 0 {
+			continue
+		}
+		var parts []string
+		for _, v := range p.Variants {
+			parts = append(parts, fmt.Sprintf("%s %d", v, e.ByVariant[v]))
+		}
+		c = append(c, fmt.Sprintf("%d triggered units (%s of triggered; %s) were exposed in a prior run before the start and are left out: they have seen the change before and may react differently the second time.",
+			e.Units, pctAbs(float64(e.Rate)), strings.Join(parts, ", ")))
+	}
+	if n := h.IgnoredRows[compiler.IgnoredBeforeStart]; n > 0 {
+		what := "Declare the earlier run under [prior_runs] to leave its units out."
+		if len(p.Spec.PriorRuns) > 0 {
+			what = "Check that [prior_runs] covers them."
+		}
+		c = append(c, fmt.Sprintf("%d rows of the exposure source %s come before the analysis start: if the change was shown before (an earlier or broken run), units exposed then have seen it already. %s",
+			n, p.Spec.Exposure.Source.Name, what))
 	}
 	return c
 }

@@ -1,4 +1,4 @@
--- assay 0.1.0 cohort table query for experiment ramp (spec fingerprint 159f5b4d86cd2dee)
+-- assay 0.1.0 cohort table query for experiment ramp (spec fingerprint 2983d6892f858269)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Lisbon.
 -- Exposures are read in [2026-05-31T23:00:00Z, 2026-06-28T23:00:00Z); outcome windows must have ended by 2026-06-28T23:00:00Z.
 -- Computed once per run; the per-variant and health queries read it.
@@ -43,6 +43,15 @@ triggers AS (
   ) AS q
   WHERE q.rn = 1
 ),
+-- Units exposed in a prior run before the analysis start: excluded as previously_exposed.
+prior_units AS (
+  -- Prior run first_try: visits in [2026-05-03T23:00:00Z, 2026-05-31T23:00:00Z) where device <> 'bot'.
+  SELECT x."visitor_id" AS unit_id
+  FROM "web"."basket_views" AS x
+  WHERE x."visitor_id" IS NOT NULL
+    AND CASE WHEN typeof(x."viewed_at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."viewed_at") ELSE epoch_us(timezone('Europe/Lisbon', x."viewed_at")) END >= 1777849200000000 AND CASE WHEN typeof(x."viewed_at") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(x."viewed_at") ELSE epoch_us(timezone('Europe/Lisbon', x."viewed_at")) END < 1780268400000000
+    AND coalesce(x."device" <> 'bot', FALSE)
+),
 -- Every triggered unit with the reasons it may be excluded.
 cohort AS (
   SELECT
@@ -52,28 +61,30 @@ cohort AS (
     CAST(timezone('Europe/Lisbon', timezone('UTC', make_timestamp(t.trigger_us))) AS DATE) AS trigger_day,
     t."seg_device" AS "seg_device",
     t.is_crossover,
-    (t.variant IS NULL OR t.variant NOT IN ('control', 'dated')) AS is_unknown_variant
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'dated')) AS is_unknown_variant,
+    (pe.unit_id IS NOT NULL) AS "is_previously_exposed"
   FROM triggers AS t
+  LEFT JOIN prior_units AS pe ON pe.unit_id = t.unit_id
 ),
 -- Exposed units without a qualifying exposure, kept with no trigger for the health counts.
 never_triggered AS (
   SELECT u.unit_id FROM exposed_units AS u WHERE u.trigger_us IS NULL
 )
-SELECT unit_id, variant, trigger_us, trigger_day, "seg_device", "is_crossover", "is_unknown_variant"
+SELECT unit_id, variant, trigger_us, trigger_day, "seg_device", "is_crossover", "is_unknown_variant", "is_previously_exposed"
 FROM cohort
 UNION ALL
-SELECT n.unit_id, NULL AS variant, NULL AS trigger_us, NULL AS trigger_day, NULL AS "seg_device", NULL AS "is_crossover", NULL AS "is_unknown_variant"
+SELECT n.unit_id, NULL AS variant, NULL AS trigger_us, NULL AS trigger_day, NULL AS "seg_device", NULL AS "is_crossover", NULL AS "is_unknown_variant", NULL AS "is_previously_exposed"
 FROM never_triggered AS n
 ;
 
--- assay 0.1.0 per-variant statistics query for experiment ramp (spec fingerprint 159f5b4d86cd2dee)
+-- assay 0.1.0 per-variant statistics query for experiment ramp (spec fingerprint 2983d6892f858269)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Lisbon.
 -- Exposures are read in [2026-05-31T23:00:00Z, 2026-06-28T23:00:00Z); outcome windows must have ended by 2026-06-28T23:00:00Z.
 -- Reads the cohort table of the setup statement.
 WITH
 -- Every triggered unit with the reasons it may be excluded, from the cohort table.
 cohort AS (
-  SELECT unit_id, variant, trigger_us, trigger_day, "seg_device", "is_crossover", "is_unknown_variant"
+  SELECT unit_id, variant, trigger_us, trigger_day, "seg_device", "is_crossover", "is_unknown_variant", "is_previously_exposed"
   FROM temp.main."assay_cohort"
   WHERE trigger_us IS NOT NULL
 ),
@@ -83,6 +94,7 @@ eligible AS (
   FROM cohort AS c
   WHERE NOT c."is_crossover"
     AND NOT c."is_unknown_variant"
+    AND NOT c."is_previously_exposed"
 ),
 -- One pass over orders for: m_orders, m_basket_value__num, m_basket_value__den.
 "pass_orders" AS (
@@ -152,7 +164,7 @@ centres AS (
 -- The overall rows and one set of rows per breakdown, from one pass over the units: in each
 -- grouping the keys it does not use are NULL.
 SELECT
-  '159f5b4d86cd2dee' AS "spec_fingerprint",
+  '2983d6892f858269' AS "spec_fingerprint",
   'as_of=2026-06-28T23:00:00Z;by=device,trigger_day,rollout_step' AS "compile_options",
   u.variant AS "variant",
   u."key_seg_device" AS "seg_device",
@@ -177,7 +189,7 @@ GROUP BY GROUPING SETS ((u.variant), (u.variant, u."key_seg_device"), (u.variant
 ORDER BY "variant", "seg_device", "trigger_day", "rollout_step"
 ;
 
--- assay 0.1.0 health query for experiment ramp (spec fingerprint 159f5b4d86cd2dee)
+-- assay 0.1.0 health query for experiment ramp (spec fingerprint 2983d6892f858269)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Lisbon.
 -- Exposures are read in [2026-05-31T23:00:00Z, 2026-06-28T23:00:00Z); outcome windows must have ended by 2026-06-28T23:00:00Z.
 -- Reads the cohort table of the setup statement.
@@ -197,7 +209,7 @@ exposure_rows AS NOT MATERIALIZED (
 ),
 -- Every triggered unit with the reasons it may be excluded, from the cohort table.
 cohort AS (
-  SELECT unit_id, variant, trigger_us, trigger_day, "seg_device", "is_crossover", "is_unknown_variant"
+  SELECT unit_id, variant, trigger_us, trigger_day, "seg_device", "is_crossover", "is_unknown_variant", "is_previously_exposed"
   FROM temp.main."assay_cohort"
   WHERE trigger_us IS NOT NULL
 ),
@@ -253,9 +265,14 @@ SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count F
   WHERE "is_unknown_variant"
   GROUP BY variant
   UNION ALL
+  SELECT 'excluded' AS kind, 'previously_exposed' AS reason, NULL AS source, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE "is_previously_exposed"
+  GROUP BY variant
+  UNION ALL
   SELECT 'excluded' AS kind, 'any' AS reason, NULL AS source, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
-  WHERE "is_crossover" OR "is_unknown_variant"
+  WHERE "is_crossover" OR "is_unknown_variant" OR "is_previously_exposed"
   GROUP BY variant
   UNION ALL
   SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS source, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count

@@ -1,4 +1,4 @@
--- assay 0.1.0 per-variant statistics query for experiment ramp (spec fingerprint 159f5b4d86cd2dee)
+-- assay 0.1.0 per-variant statistics query for experiment ramp (spec fingerprint 2983d6892f858269)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Lisbon.
 -- Exposures are read in [2026-05-31T23:00:00Z, 2026-06-28T23:00:00Z); outcome windows must have ended by 2026-06-28T23:00:00Z.
 WITH
@@ -40,6 +40,15 @@ triggers AS (
   ) AS q
   WHERE q.rn = 1
 ),
+-- Units exposed in a prior run before the analysis start: excluded as previously_exposed.
+prior_units AS (
+  -- Prior run first_try: visits in [2026-05-03T23:00:00Z, 2026-05-31T23:00:00Z) where device <> 'bot'.
+  SELECT x.`visitor_id` AS unit_id
+  FROM `web`.`basket_views` AS x
+  WHERE x.`visitor_id` IS NOT NULL
+    AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) >= 1777849200000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) < 1780268400000000
+    AND coalesce(x.`device` <> _utf8mb4'bot' COLLATE utf8mb4_bin, FALSE)
+),
 -- Every triggered unit with the reasons it may be excluded.
 cohort AS (
   SELECT
@@ -49,8 +58,10 @@ cohort AS (
     DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, t.trigger_us, TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'Europe/Lisbon')) AS trigger_day,
     t.`seg_device` AS `seg_device`,
     t.is_crossover,
-    (t.variant IS NULL OR t.variant NOT IN ('control', 'dated')) AS is_unknown_variant
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'dated')) AS is_unknown_variant,
+    (pe.unit_id IS NOT NULL) AS `is_previously_exposed`
   FROM triggers AS t
+  LEFT JOIN prior_units AS pe ON pe.unit_id = t.unit_id
 ),
 -- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
 eligible AS (
@@ -58,6 +69,7 @@ eligible AS (
   FROM cohort AS c
   WHERE NOT c.`is_crossover`
     AND NOT c.`is_unknown_variant`
+    AND NOT c.`is_previously_exposed`
 ),
 -- One pass over orders for: m_orders, m_basket_value__num, m_basket_value__den.
 `pass_orders` AS (
@@ -124,7 +136,7 @@ centres AS (
 )
 -- Overall.
 SELECT
-  '159f5b4d86cd2dee' AS `spec_fingerprint`,
+  '2983d6892f858269' AS `spec_fingerprint`,
   'as_of=2026-06-28T23:00:00Z;by=device,trigger_day,rollout_step' AS `compile_options`,
   u.variant AS `variant`,
   NULL AS `seg_device`,
@@ -149,7 +161,7 @@ GROUP BY u.variant
 UNION ALL
 -- Broken down by device.
 SELECT
-  '159f5b4d86cd2dee' AS `spec_fingerprint`,
+  '2983d6892f858269' AS `spec_fingerprint`,
   'as_of=2026-06-28T23:00:00Z;by=device,trigger_day,rollout_step' AS `compile_options`,
   u.variant AS `variant`,
   u.`key_seg_device` AS `seg_device`,
@@ -174,7 +186,7 @@ GROUP BY u.variant, u.`key_seg_device`
 UNION ALL
 -- Broken down by trigger_day.
 SELECT
-  '159f5b4d86cd2dee' AS `spec_fingerprint`,
+  '2983d6892f858269' AS `spec_fingerprint`,
   'as_of=2026-06-28T23:00:00Z;by=device,trigger_day,rollout_step' AS `compile_options`,
   u.variant AS `variant`,
   NULL AS `seg_device`,
@@ -199,7 +211,7 @@ GROUP BY u.variant, u.trigger_day
 UNION ALL
 -- Broken down by rollout_step.
 SELECT
-  '159f5b4d86cd2dee' AS `spec_fingerprint`,
+  '2983d6892f858269' AS `spec_fingerprint`,
   'as_of=2026-06-28T23:00:00Z;by=device,trigger_day,rollout_step' AS `compile_options`,
   u.variant AS `variant`,
   NULL AS `seg_device`,
@@ -224,7 +236,7 @@ GROUP BY u.variant, CASE WHEN u.trigger_us >= 1780916400000000 THEN 'wide' WHEN 
 ORDER BY `variant`, `seg_device`, `trigger_day`, `rollout_step`
 ;
 
--- assay 0.1.0 health query for experiment ramp (spec fingerprint 159f5b4d86cd2dee)
+-- assay 0.1.0 health query for experiment ramp (spec fingerprint 2983d6892f858269)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Lisbon.
 -- Exposures are read in [2026-05-31T23:00:00Z, 2026-06-28T23:00:00Z); outcome windows must have ended by 2026-06-28T23:00:00Z.
 WITH
@@ -266,6 +278,15 @@ triggers AS (
   ) AS q
   WHERE q.rn = 1
 ),
+-- Units exposed in a prior run before the analysis start: excluded as previously_exposed.
+prior_units AS (
+  -- Prior run first_try: visits in [2026-05-03T23:00:00Z, 2026-05-31T23:00:00Z) where device <> 'bot'.
+  SELECT x.`visitor_id` AS unit_id
+  FROM `web`.`basket_views` AS x
+  WHERE x.`visitor_id` IS NOT NULL
+    AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) >= 1777849200000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) < 1780268400000000
+    AND coalesce(x.`device` <> _utf8mb4'bot' COLLATE utf8mb4_bin, FALSE)
+),
 -- Every triggered unit with the reasons it may be excluded.
 cohort AS (
   SELECT
@@ -275,8 +296,10 @@ cohort AS (
     DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, t.trigger_us, TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'Europe/Lisbon')) AS trigger_day,
     t.`seg_device` AS `seg_device`,
     t.is_crossover,
-    (t.variant IS NULL OR t.variant NOT IN ('control', 'dated')) AS is_unknown_variant
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'dated')) AS is_unknown_variant,
+    (pe.unit_id IS NOT NULL) AS `is_previously_exposed`
   FROM triggers AS t
+  LEFT JOIN prior_units AS pe ON pe.unit_id = t.unit_id
 ),
 -- Exposure rows outside the analysis window, or without a unit or time.
 ignored_rows AS (
@@ -330,9 +353,14 @@ SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count F
   WHERE `is_unknown_variant`
   GROUP BY variant
   UNION ALL
+  SELECT 'excluded' AS kind, 'previously_exposed' AS reason, NULL AS source, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE `is_previously_exposed`
+  GROUP BY variant
+  UNION ALL
   SELECT 'excluded' AS kind, 'any' AS reason, NULL AS source, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
-  WHERE `is_crossover` OR `is_unknown_variant`
+  WHERE `is_crossover` OR `is_unknown_variant` OR `is_previously_exposed`
   GROUP BY variant
   UNION ALL
   SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS source, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count

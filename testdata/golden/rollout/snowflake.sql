@@ -1,4 +1,4 @@
--- assay 0.1.0 per-variant statistics query for experiment ramp (spec fingerprint 159f5b4d86cd2dee)
+-- assay 0.1.0 per-variant statistics query for experiment ramp (spec fingerprint 2983d6892f858269)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Lisbon.
 -- Exposures are read in [2026-05-31T23:00:00Z, 2026-06-28T23:00:00Z); outcome windows must have ended by 2026-06-28T23:00:00Z.
 WITH
@@ -40,6 +40,15 @@ triggers AS (
   ) AS q
   WHERE q.rn = 1
 ),
+-- Units exposed in a prior run before the analysis start: excluded as previously_exposed.
+prior_units AS (
+  -- Prior run first_try: visits in [2026-05-03T23:00:00Z, 2026-05-31T23:00:00Z) where device <> 'bot'.
+  SELECT x."visitor_id" AS unit_id
+  FROM "web"."basket_views" AS x
+  WHERE x."visitor_id" IS NOT NULL
+    AND DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('Europe/Lisbon', 'UTC', x."viewed_at")) >= 1777849200000000 AND DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('Europe/Lisbon', 'UTC', x."viewed_at")) < 1780268400000000
+    AND coalesce(x."device" <> 'bot', FALSE)
+),
 -- Every triggered unit with the reasons it may be excluded.
 cohort AS (
   SELECT
@@ -49,8 +58,10 @@ cohort AS (
     CAST(CONVERT_TIMEZONE('UTC', 'Europe/Lisbon', TO_TIMESTAMP_NTZ(t.trigger_us, 6)) AS DATE) AS trigger_day,
     t."seg_device" AS "seg_device",
     t.is_crossover,
-    (t.variant IS NULL OR t.variant NOT IN ('control', 'dated')) AS is_unknown_variant
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'dated')) AS is_unknown_variant,
+    (pe.unit_id IS NOT NULL) AS "is_previously_exposed"
   FROM triggers AS t
+  LEFT JOIN prior_units AS pe ON pe.unit_id = t.unit_id
 ),
 -- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
 eligible AS (
@@ -58,6 +69,7 @@ eligible AS (
   FROM cohort AS c
   WHERE NOT c."is_crossover"
     AND NOT c."is_unknown_variant"
+    AND NOT c."is_previously_exposed"
 ),
 -- One pass over orders for: m_orders, m_basket_value__num, m_basket_value__den.
 "pass_orders" AS (
@@ -125,7 +137,7 @@ centres AS (
 -- The overall rows and one set of rows per breakdown, from one pass over the units: in each
 -- grouping the keys it does not use are NULL.
 SELECT
-  '159f5b4d86cd2dee' AS "spec_fingerprint",
+  '2983d6892f858269' AS "spec_fingerprint",
   'as_of=2026-06-28T23:00:00Z;by=device,trigger_day,rollout_step' AS "compile_options",
   u.variant AS "variant",
   u."key_seg_device" AS "seg_device",
@@ -150,7 +162,7 @@ GROUP BY GROUPING SETS ((u.variant), (u.variant, u."key_seg_device"), (u.variant
 ORDER BY "variant", "seg_device", "trigger_day", "rollout_step"
 ;
 
--- assay 0.1.0 health query for experiment ramp (spec fingerprint 159f5b4d86cd2dee)
+-- assay 0.1.0 health query for experiment ramp (spec fingerprint 2983d6892f858269)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Lisbon.
 -- Exposures are read in [2026-05-31T23:00:00Z, 2026-06-28T23:00:00Z); outcome windows must have ended by 2026-06-28T23:00:00Z.
 WITH
@@ -192,6 +204,15 @@ triggers AS (
   ) AS q
   WHERE q.rn = 1
 ),
+-- Units exposed in a prior run before the analysis start: excluded as previously_exposed.
+prior_units AS (
+  -- Prior run first_try: visits in [2026-05-03T23:00:00Z, 2026-05-31T23:00:00Z) where device <> 'bot'.
+  SELECT x."visitor_id" AS unit_id
+  FROM "web"."basket_views" AS x
+  WHERE x."visitor_id" IS NOT NULL
+    AND DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('Europe/Lisbon', 'UTC', x."viewed_at")) >= 1777849200000000 AND DATE_PART(EPOCH_MICROSECOND, CONVERT_TIMEZONE('Europe/Lisbon', 'UTC', x."viewed_at")) < 1780268400000000
+    AND coalesce(x."device" <> 'bot', FALSE)
+),
 -- Every triggered unit with the reasons it may be excluded.
 cohort AS (
   SELECT
@@ -201,8 +222,10 @@ cohort AS (
     CAST(CONVERT_TIMEZONE('UTC', 'Europe/Lisbon', TO_TIMESTAMP_NTZ(t.trigger_us, 6)) AS DATE) AS trigger_day,
     t."seg_device" AS "seg_device",
     t.is_crossover,
-    (t.variant IS NULL OR t.variant NOT IN ('control', 'dated')) AS is_unknown_variant
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'dated')) AS is_unknown_variant,
+    (pe.unit_id IS NOT NULL) AS "is_previously_exposed"
   FROM triggers AS t
+  LEFT JOIN prior_units AS pe ON pe.unit_id = t.unit_id
 ),
 -- Exposure rows outside the analysis window, or without a unit or time.
 ignored_rows AS (
@@ -256,9 +279,14 @@ SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count F
   WHERE "is_unknown_variant"
   GROUP BY variant
   UNION ALL
+  SELECT 'excluded' AS kind, 'previously_exposed' AS reason, NULL AS source, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE "is_previously_exposed"
+  GROUP BY variant
+  UNION ALL
   SELECT 'excluded' AS kind, 'any' AS reason, NULL AS source, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
-  WHERE "is_crossover" OR "is_unknown_variant"
+  WHERE "is_crossover" OR "is_unknown_variant" OR "is_previously_exposed"
   GROUP BY variant
   UNION ALL
   SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS source, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count
