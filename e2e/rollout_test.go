@@ -403,3 +403,97 @@ func TestRampCheck(t *testing.T) {
 		})
 	}
 }
+
+// priorFixture writes 400 units triggered in the first week at 50/50;
+// units u000000–u000059 (the first 60) were also exposed on 2026-02-20,
+// in a first run, and their exposure rows before the start sit in the
+// same exposure source.
+func priorFixture(t testing.TB, dir string, seed uint64) (priorByVariant map[string]int64) {
+	t.Helper()
+	r := newRand(seed)
+	var expo, ev [][]string
+	priorByVariant = map[string]int64{}
+	for i := range 400 {
+		u := fmt.Sprintf("u%06d", i)
+		arm := []string{"control", "treatment"}[i%2]
+		trig := within(r, start3T, week)
+		expo = append(expo, []string{u, arm, tsText(trig)})
+		if i < 60 {
+			expo = append(expo, []string{u, arm, tsText(within(r, ts("2026-02-20 00:00:00"), day))})
+			priorByVariant[arm]++
+		}
+		for range poisson(r, 1) {
+			ev = append(ev, []string{u, tsText(within(r, trig, week))})
+		}
+	}
+	writeBulk(t, dir, "exposures.parquet", []col3{{"unit_id", "VARCHAR"}, {"variant", "VARCHAR"}, {"exposed_at", "TIMESTAMP"}}, expo)
+	writeBulk(t, dir, "events.parquet", []col3{{"unit_id", "VARCHAR"}, {"happened_at", "TIMESTAMP"}}, ev)
+	return priorByVariant
+}
+
+type priorReport struct {
+	Health struct {
+		Eligible   int64 `json:"eligible_units"`
+		Exclusions []struct {
+			Reason    string           `json:"reason"`
+			Units     int64            `json:"units"`
+			ByVariant map[string]int64 `json:"by_variant"`
+		} `json:"exclusions"`
+		IgnoredRows map[string]int64 `json:"ignored_exposure_rows"`
+	} `json:"health"`
+	Cautions []string `json:"cautions"`
+}
+
+func TestPriorRuns(t *testing.T) {
+	cases := []struct {
+		name      string
+		extra     string
+		wantPrior bool
+	}{
+		{"declared", "[prior_runs.first]\nsource = \"exposures\"\nfrom = 2026-02-01T00:00:00Z\n", true},
+		{"not declared", "", false},
+	}
+	for i, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			dir := t.TempDir()
+			want := priorFixture(t, dir, uint64(1330+i))
+			spec := writeText(t, dir, "spec.toml", spec3{Metrics: metricVisits, Extra: tc.extra}.toml())
+			code, out, errs := runCLI("run", "--format", "json", spec)
+			var rep priorReport
+			if err := json.Unmarshal([]byte(out), &rep); err != nil {
+				t.Fatalf("exit %d: %v\n%s", code, err, errs)
+			}
+			var got map[string]int64
+			for _, e := range rep.Health.Exclusions {
+				if e.Reason == "previously_exposed" {
+					got = e.ByVariant
+				}
+			}
+			wantEligible := int64(400)
+			if tc.wantPrior {
+				// 60 units by construction, 30 per arm (even ids control).
+				if got["control"] != want["control"] || got["treatment"] != want["treatment"] {
+					t.Errorf("previously_exposed by variant: got %v, want %v", got, want)
+				}
+				wantEligible = 340
+			} else if got != nil {
+				t.Errorf("previously_exposed: got %v, want no such reason when nothing is declared", got)
+			}
+			if rep.Health.Eligible != wantEligible {
+				t.Errorf("eligible units: got %d, want %d", rep.Health.Eligible, wantEligible)
+			}
+			if n := rep.Health.IgnoredRows["before_start"]; n != 60 {
+				t.Errorf("exposure rows before start: got %d, want 60", n)
+			}
+			found := false
+			for _, c := range rep.Cautions {
+				if strings.Contains(c, "60 rows of the exposure source exposures come before the analysis start") {
+					found = true
+				}
+			}
+			if !found {
+				t.Errorf("cautions: got %q, want one on the 60 exposure rows before the start", rep.Cautions)
+			}
+		})
+	}
+}
