@@ -84,4 +84,10 @@ const (
 	//   [prior_runs.first]
 	//   from = 2026-06-01T00:00:00Z   # after this run's start
 	CodePriorRun = "prior-run"
+	// CodeCalendar: a calendar event that ends before it starts, or a
+	// shared calendar file that cannot be read.
+	//   [calendar.events.sale]
+	//   from = 2026-03-20
+	//   until = 2026-03-20
+	CodeCalendar = "calendar"
 )

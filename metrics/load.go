@@ -373,7 +373,7 @@ func tomlType(v any) string {
 
 // ---- the spec ----
 
-var topKeys = []string{"experiment", "variants", "sources", "exposure", "eligibility", "metrics", "segments", "rollout", "prior_runs"}
+var topKeys = []string{"experiment", "variants", "sources", "exposure", "eligibility", "metrics", "segments", "rollout", "prior_runs", "calendar"}
 
 func (l *loader) load(raw map[string]any) {
 	root := l.table(nil, raw, topKeys...)
@@ -481,6 +481,9 @@ func (l *loader) load(raw map[string]any) {
 			}
 		}
 		l.caseClash(pt, "prior run")
+	}
+	if ct := root.sub("calendar", false, calendarKeys...); ct != nil {
+		l.calendar(ct)
 	}
 }
 

@@ -2,9 +2,13 @@ package metrics
 
 import (
 	"math"
+	"os"
+	"path/filepath"
 	"sort"
 	"strings"
 	"time"
+
+	"github.com/BurntSushi/toml"
 )
 
 // Rollout is the allocation schedule of an experiment launched in steps:
@@ -222,4 +226,82 @@ func (l *loader) priorRun(name string, t *table, ref refFunc) *PriorRun {
 	}
 	pr.Filter = l.expression(t, "filter", pr.Source, true)
 	return pr
+}
+
+// Event is a declared calendar event (a holiday, a sale, a fiscal year
+// end, an industry event) in [From, Until): behaviour during it may differ
+// from the rest of the year, so the report names any event that overlaps
+// the analysis period or the pre-period.
+type Event struct {
+	Name        string
+	Kind        string // free text, e.g. "holiday"
+	From, Until time.Time
+	File        string // the shared calendar file it came from, "" for the spec
+	At          Range
+}
+
+var calendarKeys = []string{"files", "events"}
+
+var eventKeys = []string{"from", "until", "kind"}
+
+// calendar reads [calendar]: events declared in the spec and in shared
+// calendar files (paths relative to the spec's folder) that hold
+// [events.<name>] tables of the same shape.
+func (l *loader) calendar(t *table) {
+	if files, ok := t.strList("files", false); ok {
+		for i, f := range files {
+			l.calendarFile(append(t.p("files"), "#"+itoa(i)), f)
+		}
+	}
+	if et := t.sub("events", false); et != nil {
+		l.events(et, "")
+	}
+}
+
+func (l *loader) events(et *table, file string) {
+	for _, name := range et.keys() {
+		t := et.sub(name, false, eventKeys...)
+		if t == nil {
+			continue
+		}
+		ev := &Event{Name: name, File: file, At: l.rng(t.path, true)}
+		l.ident(t.path, name, "event name", true)
+		ev.Kind, _ = t.str("kind", false, "")
+		var okF, okU bool
+		ev.From, okF = l.timestamp(t, "from", true)
+		ev.Until, okU = l.timestamp(t, "until", true)
+		if okF && okU && !ev.Until.After(ev.From) {
+			l.errAt(t.p("until"), CodeCalendar, "events are half-open [from, until): until is the first moment after the event", "event `%s` ends at %s, not after its start %s", name, ev.Until.UTC().Format(time.RFC3339), ev.From.UTC().Format(time.RFC3339))
+			continue
+		}
+		if okF && okU {
+			l.spec.Events = append(l.spec.Events, ev)
+		}
+	}
+}
+
+// calendarFile reads a shared calendar file. Its problems are reported
+// against that file.
+func (l *loader) calendarFile(path []string, name string) {
+	full := name
+	if !filepath.IsAbs(full) {
+		full = filepath.Join(filepath.Dir(l.file), name)
+	}
+	src, err := os.ReadFile(full)
+	if err != nil {
+		l.errAt(path, CodeCalendar, "paths are relative to the spec's folder", "cannot read calendar file %q: %s", name, cleanIOError(err))
+		return
+	}
+	var raw map[string]any
+	sub := &loader{file: full, src: src, spec: l.spec}
+	if _, err := toml.Decode(string(src), &raw); err != nil {
+		l.diags = append(l.diags, sub.syntaxDiag(err))
+		return
+	}
+	sub.ix = buildKeyIndex(src)
+	root := sub.table(nil, raw, "events")
+	if et := root.sub("events", true); et != nil {
+		sub.events(et, name)
+	}
+	l.diags = append(l.diags, sub.diags...)
 }

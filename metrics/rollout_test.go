@@ -1,6 +1,9 @@
 package metrics
 
 import (
+	"os"
+	"path/filepath"
+	"strings"
 	"testing"
 	"time"
 )
@@ -70,5 +73,50 @@ func TestNoRollout(t *testing.T) {
 	s, ds := Load("spec.toml", specWithVariants("control = 0.5\nshelf = 0.5\n"))
 	if ds.HasErrors() || s.Rollout != nil {
 		t.Fatalf("got rollout %+v, diagnostics %v; want nil and none", s.Rollout, ds)
+	}
+}
+
+// TestCalendar checks events from the spec and from a shared file: dates
+// without a time are midnights in the experiment's time zone (Lisbon is
+// UTC+1 in summer, so 2026-06-10 starts at 2026-06-09T23:00:00Z, by hand
+// from the IANA rules), the shared files' events come before the spec's own, and a
+// problem in the shared file is reported against that file.
+func TestCalendar(t *testing.T) {
+	dir := t.TempDir()
+	shared := "[events.fiscal_year_end]\nfrom = 2026-06-30\nuntil = 2026-07-01\nkind = \"fiscal\"\n\n[events.broken]\nfrom = 2026-06-05\nuntil = 2026-06-01\n"
+	if err := os.WriteFile(filepath.Join(dir, "calendar.toml"), []byte(shared), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	spec := strings.Replace(string(specWithVariants("control = 0.5\nshelf = 0.5\n")), "end = 2026-05-29T00:00:00Z", "end = 2026-05-29T00:00:00Z\ntime_zone = \"Europe/Lisbon\"", 1) + `
+[calendar]
+files = ["calendar.toml"]
+
+[calendar.events.summer_sale]
+from = 2026-06-10
+until = 2026-06-13
+kind = "sale"
+`
+	path := filepath.Join(dir, "spec.toml")
+	if err := os.WriteFile(path, []byte(spec), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	s, _, ds := LoadFile(path)
+	if len(ds) != 1 || ds[0].Code != CodeCalendar || !strings.HasSuffix(ds[0].Subject.File, "calendar.toml") || ds[0].Subject.Start.Line != 8 {
+		t.Fatalf("got diagnostics %v, want one calendar error at calendar.toml line 8", ds)
+	}
+	if len(s.Events) != 2 {
+		t.Fatalf("got %d events, want 2", len(s.Events))
+	}
+	want := []struct {
+		name, from, file string
+	}{
+		{"fiscal_year_end", "2026-06-29T23:00:00Z", "calendar.toml"},
+		{"summer_sale", "2026-06-09T23:00:00Z", ""},
+	}
+	for i, w := range want {
+		e := s.Events[i]
+		if e.Name != w.name || e.From.UTC().Format(time.RFC3339) != w.from || e.File != w.file {
+			t.Errorf("event %d: got %s from %s (file %q), want %s from %s (file %q)", i, e.Name, e.From.UTC().Format(time.RFC3339), e.File, w.name, w.from, w.file)
+		}
 	}
 }

@@ -37,6 +37,9 @@ type Spec struct {
 	Rollout *Rollout
 	// PriorRuns are earlier exposures whose units are left out (rollout.go).
 	PriorRuns []*PriorRun
+	// Events are the declared calendar events, from the spec and from
+	// shared calendar files (rollout.go).
+	Events []*Event
 
 	Ranges map[string]Range // key path ("metrics.orders.window") -> value range
 }
