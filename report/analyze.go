@@ -66,6 +66,9 @@ type Report struct {
 	// Rollout is the reading of the spec's rollout schedule (rollout.go);
 	// absent when the spec declares none.
 	Rollout *RolloutInfo `json:"rollout,omitempty"`
+	// Timing is the section on weekdays, declared calendar events and the
+	// effect by trigger week (timing.go).
+	Timing *Timing `json:"timing,omitempty"`
 }
 
 // Experiment describes what was analysed.
@@ -401,6 +404,7 @@ func Analyze(p *compiler.Plan, set *results.Set, opt Options) (*Report, error) {
 		last := len(r.Cautions) - 1
 		r.Cautions = append(r.Cautions[:last], append(rc, r.Cautions[last])...)
 	}
+	r.timing(p, set) // Hook (timing.go): weekdays, calendar, trigger weeks.
 	for _, src := range opt.EmptySources {
 		last := len(r.Cautions) - 1
 		note := fmt.Sprintf("Source %s has no rows: every metric that reads it is zero for every unit. Check that the extract or table is complete before reading those metrics.", src)

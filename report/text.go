@@ -103,6 +103,7 @@ func (r *Report) document() *document {
 	}
 	r.healthDoc(d)
 	r.rolloutDoc(d) // rollout.go
+	r.timingDoc(d)  // timing.go
 	for _, ro := range roleOrder {
 		var ms []MetricInfo
 		for _, m := range r.Metrics {
