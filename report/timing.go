@@ -383,7 +383,9 @@ func (r *Report) timingDoc(d *document) {
 	}
 	d.para("Triggered units by weekday of the trigger (%s):", r.Experiment.TimeZone)
 	d.tab(tb)
-	if wm.Reason != "" {
+	if !wm.Statistic.OK() {
+		d.para("Weekday mix across variants: not tested (%s).", wm.Reason)
+	} else if wm.Reason != "" {
 		d.para("Weekday mix across variants: chi-square %s, df %g, %s (%s).", fmtNum(wm.Statistic), float64(wm.DF), pEquals(float64(wm.PValue)), wm.Reason)
 	} else {
 		d.para("Weekday mix across variants: chi-square %s, df %g, %s.", fmtNum(wm.Statistic), float64(wm.DF), pEquals(float64(wm.PValue)))
