@@ -250,6 +250,9 @@ func TestRolloutUnplannedImbalance(t *testing.T) {
 	if !rep.Health.SampleRatio.Alarm {
 		t.Errorf("overall sample ratio: got no alarm, want one (p = %v)", f(rep.Health.SampleRatio.PValue))
 	}
+	if len(rep.Alarms) == 0 || !strings.Contains(rep.Alarms[0], "rollout schedule's weights in force") {
+		t.Errorf("alarms: got %q, want the first to name the schedule's weights", rep.Alarms)
+	}
 	if rep.Rollout == nil || len(rep.Rollout.Steps) != 2 {
 		t.Fatalf("rollout section: got %+v", rep.Rollout)
 	}

@@ -309,6 +309,12 @@ func (r *Report) rolloutEffects(p *compiler.Plan, set *results.Set) {
 	if r.Rollout == nil {
 		return
 	}
+	// The sample-ratio alarms were raised against the schedule.
+	for i, a := range r.Alarms {
+		if strings.HasPrefix(a, "SAMPLE RATIO MISMATCH") {
+			r.Alarms[i] = strings.Replace(a, "the planned weights", "the rollout schedule's weights in force", 1)
+		}
+	}
 	level := p.Spec.Confidence
 	rows := stepRows(p, set)
 	steps := p.Spec.Rollout.Steps

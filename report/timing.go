@@ -37,6 +37,20 @@ type Timing struct {
 	// TriggerWeeks is the primary effect by trigger week, when the result
 	// is broken down by trigger day.
 	TriggerWeeks *WeekEffects `json:"trigger_weeks,omitempty"`
+	// Cumulative is the primary difference over the units triggered up to
+	// each trigger day (outcomes as read at the as-of time), for plots;
+	// present when the result is broken down by trigger day.
+	Cumulative []DayEffect `json:"cumulative_by_trigger_day,omitempty"`
+}
+
+// DayEffect is the primary comparison over the units triggered on or
+// before Day.
+type DayEffect struct {
+	Day        string `json:"day"`
+	Units      int64  `json:"units"`
+	Difference Num    `json:"difference"`
+	CILow      Num    `json:"ci_low"`
+	CIHigh     Num    `json:"ci_high"`
 }
 
 // WeekdayMix is the chi-square test of independence of variants and the
@@ -165,6 +179,7 @@ func (r *Report) timing(p *compiler.Plan, set *results.Set) {
 		}
 	}
 	t.TriggerWeeks = triggerWeeks(p, set, r.Metrics)
+	t.Cumulative = cumulativeByDay(p, set)
 	r.Timing = t
 	var c []string
 	if len(t.PartialWeeks) > 0 {
@@ -420,6 +435,90 @@ func shortDays() []string {
 	out := make([]string, len(weekdayNames))
 	for i, d := range weekdayNames {
 		out[i] = d[:3]
+	}
+	return out
+}
+
+// momentAcc pools per-day moments of one arm (see triggerWeeks).
+type momentAcc struct{ n, sum, ss float64 }
+
+func (a *momentAcc) add(m stats.Moments) {
+	if m.N == 0 || math.IsNaN(m.Mean) {
+		return
+	}
+	v := m.Var
+	if math.IsNaN(v) {
+		v = 0
+	}
+	a.n += m.N
+	a.sum += m.N * m.Mean
+	a.ss += (m.N-1)*v + m.N*m.Mean*m.Mean
+}
+
+func (a *momentAcc) moments() stats.Moments {
+	if a.n == 0 {
+		return stats.Moments{Mean: math.NaN(), Var: math.NaN()}
+	}
+	mean := a.sum / a.n
+	v := math.NaN()
+	if a.n > 1 {
+		v = (a.ss - a.n*mean*mean) / (a.n - 1)
+	}
+	return stats.Moments{N: a.n, Mean: mean, Var: v}
+}
+
+// cumulativeByDay is the primary (mean or proportion) comparison of the
+// first treatment variant over the units triggered up to each trigger
+// day, from the trigger-day breakdown pooled as in triggerWeeks. Nil
+// without that breakdown or for a ratio primary metric.
+func cumulativeByDay(p *compiler.Plan, set *results.Set) []DayEffect {
+	day := -1
+	for i, g := range p.GroupBy {
+		if g.Day {
+			day = i
+		}
+	}
+	var mp *compiler.MetricPlan
+	for _, m := range p.Metrics {
+		if m.M.Role == metrics.Primary {
+			mp = m
+		}
+	}
+	if day < 0 || mp == nil || mp.M.Kind == metrics.KindRatio || len(p.Variants) < 2 {
+		return nil
+	}
+	byDay := map[string][]*results.Row{}
+	var days []string
+	rows := set.Group(day)
+	for i := range rows {
+		k := rows[i].Key
+		if byDay[k] == nil {
+			days = append(days, k)
+		}
+		byDay[k] = append(byDay[k], &rows[i])
+	}
+	sort.Strings(days)
+	var base, treat momentAcc
+	var units int64
+	out := []DayEffect{}
+	for _, d := range days {
+		for _, row := range byDay[d] {
+			switch row.Variant {
+			case p.Variants[0]:
+				base.add(rowMoments(mp, row))
+				units += row.Units
+			case p.Variants[1]:
+				treat.add(rowMoments(mp, row))
+				units += row.Units
+			}
+		}
+		var c stats.Comparison
+		if mp.M.Kind == metrics.KindProportion {
+			c = stats.TwoProportion(base.moments(), treat.moments(), p.Spec.Confidence)
+		} else {
+			c = stats.Welch(base.moments(), treat.moments(), p.Spec.Confidence)
+		}
+		out = append(out, DayEffect{Day: d, Units: units, Difference: Num(c.Difference), CILow: Num(c.CILow), CIHigh: Num(c.CIHigh)})
 	}
 	return out
 }

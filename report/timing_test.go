@@ -297,3 +297,31 @@ func TestRolloutDays(t *testing.T) {
 		t.Errorf("triggered-units check: got no reason, want one naming the mixed day")
 	}
 }
+
+// TestCumulativeByDay checks the cumulative difference after two weeks
+// against Welch on all raw outcomes of those weeks (gonum
+// stat.MeanVariance and Student's t with Welch–Satterthwaite df).
+func TestCumulativeByDay(t *testing.T) {
+	p := weeksPlan(t)
+	set, raw := simWeeks(p, rand.New(rand.NewPCG(3, 4)), 20, func(int) float64 { return 0.1 })
+	cum := cumulativeByDay(p, set)
+	if len(cum) != 42 {
+		t.Fatalf("got %d days, want 42", len(cum))
+	}
+	b := append(append([]float64{}, raw[0][0]...), raw[1][0]...)
+	tr := append(append([]float64{}, raw[0][1]...), raw[1][1]...)
+	mb, vb := stat.MeanVariance(b, nil)
+	mt, vt := stat.MeanVariance(tr, nil)
+	nb, nt := float64(len(b)), float64(len(tr))
+	a, c := vb/nb, vt/nt
+	df := (a + c) * (a + c) / (a*a/(nb-1) + c*c/(nt-1))
+	q := distuv.StudentsT{Mu: 0, Sigma: 1, Nu: df}.Quantile(0.975)
+	d := mt - mb
+	got := cum[13]
+	if got.Day != "2026-03-15" || got.Units != 14*40 {
+		t.Errorf("day 14: got %s with %d units, want 2026-03-15 with 560", got.Day, got.Units)
+	}
+	if math.Abs(float64(got.Difference)-d) > 1e-9 || math.Abs(float64(got.CILow)-(d-q*math.Sqrt(a+c))) > 1e-9 || math.Abs(float64(got.CIHigh)-(d+q*math.Sqrt(a+c))) > 1e-9 {
+		t.Errorf("day 14: got %v [%v, %v], want %v ± %v", float64(got.Difference), float64(got.CILow), float64(got.CIHigh), d, q*math.Sqrt(a+c))
+	}
+}
