@@ -337,7 +337,7 @@ func (pr *printer) cohortCTEs() {
 	}
 	vs := make([]string, len(p.Variants))
 	for i, v := range p.Variants {
-		vs[i] = d.String(v)
+		vs[i] = d.Literal(v)
 	}
 	pr.line(2, "t.is_crossover,")
 	prior := len(p.Spec.PriorRuns) > 0
@@ -931,7 +931,7 @@ func (pr *printer) main() (string, error) {
 		for i, g := range segKeys {
 			col := "u." + pr.id(g.Name)
 			alias := fmt.Sprintf("k%d", i+1)
-			pr.line(2, "CASE WHEN %s IS NULL THEN %s WHEN %s.value_rank <= %d THEN %s.value ELSE %s END AS %s%s", col, pr.d.String("(null)"), alias, g.Segment.TopK, alias, pr.d.String("(other)"), pr.id("key_"+g.Name), commaIf(i < len(segKeys)-1))
+			pr.line(2, "CASE WHEN %s IS NULL THEN %s WHEN %s.value_rank <= %d THEN %s.value ELSE %s END AS %s%s", col, pr.d.Literal("(null)"), alias, g.Segment.TopK, alias, pr.d.Literal("(other)"), pr.id("key_"+g.Name), commaIf(i < len(segKeys)-1))
 		}
 		pr.line(1, "FROM unit_values AS u")
 		for i, g := range segKeys {
@@ -980,10 +980,10 @@ func (pr *printer) main() (string, error) {
 		for i, v := range p.Variants {
 			cum += p.Weights[i]
 			if i == len(p.Variants)-1 {
-				fmt.Fprintf(&b, " ELSE %s END", pr.d.String(v))
+				fmt.Fprintf(&b, " ELSE %s END", pr.d.Literal(v))
 				break
 			}
-			fmt.Fprintf(&b, " WHEN %s < %s THEN %s", h, strconv.FormatFloat(cum, 'g', -1, 64), pr.d.String(v))
+			fmt.Fprintf(&b, " WHEN %s < %s THEN %s", h, strconv.FormatFloat(cum, 'g', -1, 64), pr.d.Literal(v))
 		}
 		variantExpr = b.String()
 		keys = []string{"z.split", variantExpr}
@@ -1005,9 +1005,9 @@ func (pr *printer) main() (string, error) {
 		for _, c := range p.Columns {
 			switch c.Role {
 			case RoleSpecFingerprint:
-				pr.line(1, "%s AS %s,", pr.d.String(p.Spec.Fingerprint), pr.id(c.Name))
+				pr.line(1, "%s AS %s,", pr.d.Literal(p.Spec.Fingerprint), pr.id(c.Name))
 			case RoleOptions:
-				pr.line(1, "%s AS %s,", pr.d.String(p.Options.Text()), pr.id(c.Name))
+				pr.line(1, "%s AS %s,", pr.d.Literal(p.Options.Text()), pr.id(c.Name))
 			case RoleSplit:
 				pr.line(1, "-- Calibration: each eligible unit is re-assigned at random in each of %d splits (salt %d), with the planned weights.", p.Splits, p.Salt)
 				pr.line(1, "z.split AS %s,", pr.id(c.Name))
@@ -1247,7 +1247,7 @@ func (pr *printer) health() (string, error) {
 			pr.line(1, "UNION ALL")
 		}
 		first = false
-		pr.line(1, "SELECT %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s", pr.d.String(string(kind)), HColKind, reason, HColReason, source, HColSource, variant, HColVariant, day, HColDay, rows, HColRows, units, HColUnits)
+		pr.line(1, "SELECT %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s", pr.d.Literal(string(kind)), HColKind, reason, HColReason, source, HColSource, variant, HColVariant, day, HColDay, rows, HColRows, units, HColUnits)
 		pr.line(1, "FROM %s", from)
 		if where != "" {
 			pr.line(1, "WHERE %s", where)
@@ -1256,7 +1256,7 @@ func (pr *printer) health() (string, error) {
 			pr.line(1, "GROUP BY %s", group)
 		}
 	}
-	q := pr.d.String
+	q := pr.d.Literal
 	day := pr.d.Day("ts_us", p.TZ)
 	sel(HealthExposures, "NULL", "NULL", "variant", day, "count(*)", "count(DISTINCT unit_id)", "exposure_rows", "", "variant, "+day)
 	sel(HealthTriggers, "NULL", "NULL", "variant", "trigger_day", "count(*)", "count(*)", "cohort", "", "variant, trigger_day")

@@ -21,8 +21,8 @@ type Dialect interface {
 	Name() string
 	// Ident quotes an identifier: DuckDB and PostgreSQL `"a""b"`.
 	Ident(name string) string
-	// String quotes a string literal: `'it''s'`.
-	String(s string) string
+	// Literal quotes a string literal: `'it''s'`.
+	Literal(s string) string
 	// Table renders a qualified table or view name from its dot-separated parts.
 	Table(parts []string) string
 	// File renders a table function reading a file, or an error when the

@@ -302,14 +302,18 @@ type segValue3 struct {
 }
 
 type segCheck3 struct {
-	Variant       string `json:"variant"`
-	Reversal      bool   `json:"reversal"`
-	OppositeShare num    `json:"opposite_share"`
-	Q             num    `json:"cochran_q"`
-	DF            num    `json:"df"`
-	PValue        num    `json:"p_value"`
-	I2            num    `json:"i2"`
-	Reason        string `json:"reason"`
+	Variant       string  `json:"variant"`
+	Reversal      bool    `json:"reversal"`
+	Pooled        num     `json:"pooled_difference"`
+	Stratified    num     `json:"stratified_difference"`
+	MixGapPValue  num     `json:"mix_gap_p_value"`
+	FlagAlpha     float64 `json:"flag_alpha"`
+	OppositeShare num     `json:"opposite_share"`
+	Q             num     `json:"cochran_q"`
+	DF            num     `json:"df"`
+	PValue        num     `json:"p_value"`
+	I2            num     `json:"i2"`
+	Reason        string  `json:"reason"`
 }
 
 type segRow3 struct {

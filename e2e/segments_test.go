@@ -133,7 +133,24 @@ func TestSegments(t *testing.T) {
 		}
 		chk := sm.Checks[0]
 		if !chk.Reversal {
-			t.Errorf("buys reversal: got false, want true")
+			t.Errorf("buys reversal: got false, want true (mix gap p %v at flag level %v)", f(chk.MixGapPValue), chk.FlagAlpha)
+		}
+		// The stratified difference weights each tier's difference by its
+		// share of units (Cochran 1977, §5.3): Σ (N_k/N)·d_k, by hand here
+		// from the per-tier rows and tier sizes.
+		var strat, total float64
+		for _, row := range sm.Rows {
+			n := float64(tier.value(row.Value).Units)
+			strat += n * f(row.Comparisons[0].Difference)
+			total += n
+		}
+		strat /= total
+		runChecks(t, []check3{
+			{"stratified difference", f(chk.Stratified), strat, 1e-9, "Σ (N_k/N)·d_k over the tier rows (Cochran 1977, §5.3)"},
+			{"pooled difference (unadjusted)", f(chk.Pooled), pooled, 1e-9, "the report's pooled buys difference"},
+		})
+		if !(strat > 0) {
+			t.Errorf("stratified difference %v, want positive (planted +1 in each tier)", strat)
 		}
 		// Both tiers (all 2000 units) have the opposite sign (Source: fixture).
 		if got := f(chk.OppositeShare); got != 1 {

@@ -4,9 +4,9 @@ import (
 	"fmt"
 	"math"
 	"sort"
-	"strings"
 
 	"github.com/assay-dev/assay/compiler"
+	"github.com/assay-dev/assay/metrics"
 	"github.com/assay-dev/assay/results"
 	"github.com/assay-dev/assay/stats"
 )
@@ -51,15 +51,28 @@ type SegmentRow struct {
 // treatment variant's effect across a segment's values.
 type SegmentCheck struct {
 	Variant string `json:"variant"`
-	// Reversal is set when the pooled difference has one sign and the
-	// segments holding most units have the other.
-	Reversal      bool   `json:"reversal"`
-	OppositeShare Num    `json:"opposite_share"` // share of units in segments whose effect has the other sign
-	Q             Num    `json:"cochran_q"`
-	DF            Num    `json:"df"`
-	PValue        Num    `json:"p_value"`
-	I2            Num    `json:"i2"`
-	Reason        string `json:"reason,omitempty"`
+	// Reversal is set when the pooled difference and the mix-adjusted
+	// (stratified, segments weighted by size) difference have opposite
+	// signs and their gap D = pooled − stratified is larger than random
+	// assignment explains, at FlagAlpha (stats.ReversalTest).
+	Reversal       bool   `json:"reversal"`
+	Pooled         Num    `json:"pooled_difference"`
+	Stratified     Num    `json:"stratified_difference"`
+	MixGap         Num    `json:"mix_gap"` // D
+	MixGapPValue   Num    `json:"mix_gap_p_value"`
+	ReversalReason string `json:"reversal_reason,omitempty"`
+	// FlagAlpha is the level of the reversal and heterogeneity flags:
+	// 1 − confidence divided by the number of such checks in the report
+	// (metrics × breakdowns × treatment arms; Bonferroni), so that a report
+	// without any real reversal or heterogeneity raises a flag in at most
+	// that share of experiments.
+	FlagAlpha     float64 `json:"flag_alpha"`
+	OppositeShare Num     `json:"opposite_share"` // share of units in segments whose effect has the other sign
+	Q             Num     `json:"cochran_q"`
+	DF            Num     `json:"df"`
+	PValue        Num     `json:"p_value"`
+	I2            Num     `json:"i2"`
+	Reason        string  `json:"reason,omitempty"`
 }
 
 // addBreakdown analyses the main query's rows of breakdown g (a segment
@@ -133,20 +146,17 @@ func (r *Report) addBreakdown(p *compiler.Plan, g int, rows []results.Row, opt O
 		for i, q := range adjust(opt.Adjust, ps) {
 			fam[i].PValueAdjusted = Num(q)
 		}
+		flagAlpha := (1 - p.Spec.Confidence) / float64(max(1, len(p.Metrics)*len(p.GroupBy)*(len(p.Variants)-1)))
 		for ci, pc := range pooled.Comparisons {
-			chk := segmentCheck(pc, sm.Rows, ci, units)
+			chk := segmentCheck(pc, sm.Rows, ci, units, mp.M.Kind == metrics.KindRatio, flagAlpha)
 			sm.Checks = append(sm.Checks, chk)
 			if chk.Reversal {
-				sign := "positive"
-				if float64(pc.Difference) < 0 {
-					sign = "negative"
-				}
-				sm.Flags = append(sm.Flags, fmt.Sprintf("Possible reversal (Simpson's paradox): the pooled effect of %s on %s is %s, but it has the opposite sign in segments of %s holding %s of units; check the variant mix across segments before reading the pooled number.",
-					pc.Variant, mp.M.Name, sign, name, strings.TrimPrefix(pct(float64(chk.OppositeShare)), "+")))
+				sm.Flags = append(sm.Flags, fmt.Sprintf("Simpson's reversal: the pooled difference of %s on %s (%s) and the difference with %s segments weighted by size (%s) have opposite signs, and the gap is larger than random assignment explains (p = %s < %g): the variants received different mixes of %s. Read the stratified difference, and check the assignment.",
+					pc.Variant, mp.M.Name, signed(chk.Pooled), name, signed(chk.Stratified), fmtP(float64(chk.MixGapPValue)), flagAlpha, name))
 			}
-			if chk.Reason == "" && chk.PValue.OK() && float64(chk.PValue) < 0.05 {
-				sm.Flags = append(sm.Flags, fmt.Sprintf("The effect of %s on %s differs across %s segments (Cochran's Q p = %s, I² = %s); the pooled effect averages unlike effects.",
-					pc.Variant, mp.M.Name, name, fmtP(float64(chk.PValue)), strings.TrimPrefix(pct(float64(chk.I2)), "+")))
+			if chk.Reason == "" && chk.PValue.OK() && float64(chk.PValue) < flagAlpha {
+				sm.Flags = append(sm.Flags, fmt.Sprintf("The effect of %s on %s differs across %s segments (Cochran's Q %s < %g, I² = %s); the pooled effect averages unlike effects.",
+					pc.Variant, mp.M.Name, name, pEquals(float64(chk.PValue)), flagAlpha, pctAbs(float64(chk.I2))))
 			}
 		}
 		seg.Metrics = append(seg.Metrics, sm)
@@ -168,10 +178,33 @@ func (r *Report) addBreakdown(p *compiler.Plan, g int, rows []results.Row, opt O
 }
 
 // segmentCheck computes Cochran's Q over the per-segment differences of
-// comparison ci, and whether segments holding most units disagree in sign
-// with the pooled difference pc.
-func segmentCheck(pc Compare, rows []SegmentRow, ci int, units map[string]int64) SegmentCheck {
-	chk := SegmentCheck{Variant: pc.Variant}
+// comparison ci, and the reversal test of the pooled against the
+// stratified difference (stats.ReversalTest, at alpha).
+func segmentCheck(pc Compare, rows []SegmentRow, ci int, units map[string]int64, isRatio bool, alpha float64) SegmentCheck {
+	chk := SegmentCheck{Variant: pc.Variant, FlagAlpha: alpha, Pooled: Num(math.NaN()), Stratified: Num(math.NaN()), MixGap: Num(math.NaN()), MixGapPValue: Num(math.NaN())}
+	if isRatio {
+		chk.ReversalReason = "the reversal test covers means and proportions, not ratio metrics"
+	} else {
+		var strata []stats.StratumMoments
+		for _, row := range rows {
+			if ci >= len(row.Comparisons) || len(row.Variants) <= ci+1 {
+				continue
+			}
+			mom := func(v VariantVal) stats.Moments {
+				n := float64(v.N)
+				se := float64(v.StdError)
+				return stats.Moments{N: n, Mean: float64(v.Value), Var: se * se * n}
+			}
+			b, t := mom(row.Variants[0]), mom(row.Variants[ci+1])
+			if b.N == 0 && t.N == 0 {
+				continue
+			}
+			strata = append(strata, stats.StratumMoments{Base: b, Treat: t})
+		}
+		rv := stats.ReversalTest(strata, alpha)
+		chk.Reversal, chk.ReversalReason = rv.Reversal, rv.Reason
+		chk.Pooled, chk.Stratified, chk.MixGap, chk.MixGapPValue = Num(rv.Pooled), Num(rv.Stratified), Num(rv.D), Num(rv.PValue)
+	}
 	var effects, ses []float64
 	var total, opposite float64
 	pooled := float64(pc.Difference)
@@ -195,6 +228,5 @@ func segmentCheck(pc Compare, rows []SegmentRow, ci int, units map[string]int64)
 	h := stats.CochranQ(effects, ses)
 	chk.Q, chk.DF, chk.PValue, chk.I2, chk.Reason = Num(h.Q), Num(h.DF), Num(h.PValue), Num(h.I2), h.Reason
 	chk.OppositeShare = Num(ratio(opposite, total))
-	chk.Reversal = total > 0 && opposite/total > 0.5 && !math.IsNaN(pooled) && pooled != 0
 	return chk
 }
