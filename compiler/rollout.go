@@ -53,9 +53,9 @@ func (pr *printer) stepCase(col string) string {
 	var b strings.Builder
 	b.WriteString("CASE")
 	for i := len(steps) - 1; i >= low; i-- {
-		b.WriteString(" WHEN " + col + " >= " + us(steps[i].Start.UnixMicro()) + " THEN " + pr.d.String(steps[i].Name))
+		b.WriteString(" WHEN " + col + " >= " + us(steps[i].Start.UnixMicro()) + " THEN " + pr.d.Literal(steps[i].Name))
 	}
-	b.WriteString(" ELSE " + pr.d.String(steps[0].Name) + " END")
+	b.WriteString(" ELSE " + pr.d.Literal(steps[0].Name) + " END")
 	return b.String()
 }
 

@@ -197,7 +197,7 @@ func ReadEarly(p *compiler.Plan, set *results.Set, rep *Report, opt Options) *Ea
 			switch {
 			case c.Guard.Alarming:
 				add("guards", mp.M.Name+" "+c.Variant, StatusFix, fmt.Sprintf("Guard %s %s in %s (relative %s; one-sided %g%% bounds %s to %s; tolerated %s): find out why before widening.",
-					mp.M.Name, pastTense(mp.M.Harmful), c.Variant, pct(float64(c.Relative)), EarlyGuardLevel*100, pct(float64(c.Guard.Lower)), pct(float64(c.Guard.Upper)), pctAbs(mp.M.Margin)))
+					mp.M.Name, pastTense(string(mp.M.Harmful)), c.Variant, pct(float64(c.Relative)), EarlyGuardLevel*100, pct(float64(c.Guard.Lower)), pct(float64(c.Guard.Upper)), pctAbs(mp.M.Margin)))
 			case c.Guard.Verdict == "harm shown, within margin":
 				add("guards", mp.M.Name+" "+c.Variant, StatusWatch, detail)
 			default:
