@@ -7,6 +7,7 @@ import (
 	"os"
 	"os/signal"
 	"path/filepath"
+	"time"
 
 	"github.com/assay-dev/assay/pipeline"
 	"github.com/assay-dev/assay/report"
@@ -52,9 +53,17 @@ func cmdRampCheck(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "assay rampcheck: %v\n", err)
 		return ExitInput
 	}
+	end := spec.End
 	if ro := spec.Rollout; ro != nil && len(ro.Steps) > 1 {
 		// The test step only: exposures up to the next step's start.
 		opt.End = ro.Steps[1].Start
+		end = opt.End
+	}
+	if now := time.Now().UTC().Truncate(time.Second); opt.AsOf.IsZero() && end.After(now) {
+		// A live read during the step: outcomes are counted up to now, so
+		// windows that have not elapsed are not taken as complete.
+		opt.AsOf = now
+		fmt.Fprintf(stderr, "assay rampcheck: reading as of now (%s); pass --as-of to fix the time\n", now.Format(time.RFC3339))
 	}
 	dir, _ := filepath.Abs(filepath.Dir(path))
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
