@@ -20,6 +20,9 @@ const (
 	ExitEngine = 2 // the database could not be opened or a query failed
 	ExitSRM    = 4 // sample-ratio mismatch alarm
 	ExitHarm   = 5 // a guard metric shows harm (only with --fail-on-harm)
+	// ExitHold: assay rampcheck found something to fix before the rollout
+	// is widened (its fix-first list is not empty).
+	ExitHold = 6
 	// ExitInterrupted is the conventional code for a run stopped by SIGINT.
 	ExitInterrupted = 130
 )
@@ -34,12 +37,15 @@ Usage:
                                      analyse a result set your own pipeline exported (CSV or JSON)
   assay calibrate [flags] SPEC.toml  re-split units at random many times (A/A) and
                                      report each metric's false-positive rate
+  assay rampcheck [flags] SPEC.toml  early read of the first rollout step: is it safe to widen?
+                                     (sample ratio, logging, guards at a looser level; a fix-first list)
   assay version                      print the version
 
 Run 'assay COMMAND --help' for a command's flags.
 
 Exit codes: 0 ok, 1 input error, 2 engine error, 3 stale SQL (compile --check),
-4 sample-ratio mismatch, 5 guard harm (with --fail-on-harm), 130 interrupted.
+4 sample-ratio mismatch, 5 guard harm (with --fail-on-harm), 6 something to fix
+first (rampcheck), 130 interrupted.
 `
 
 // Run runs the assay command line with args (without the program name).
@@ -71,6 +77,8 @@ func Run(args []string, stdin io.Reader, stdout, stderr io.Writer) (code int) {
 		return cmdAnalyze(args[1:], stdout, stderr)
 	case "calibrate":
 		return cmdCalibrate(args[1:], stdout, stderr)
+	case "rampcheck":
+		return cmdRampCheck(args[1:], stdout, stderr)
 	}
 	fmt.Fprintf(stderr, "assay: unknown command %q\n\n%s", args[0], usage)
 	return ExitInput

@@ -167,6 +167,7 @@ type GroupKey struct {
 	Name    string // result column name
 	Segment *metrics.Segment
 	Day     bool
+	Step    bool // the rollout step at the trigger (KeyRolloutStep)
 }
 
 // Label is the key's name as users write it: the segment's name or
@@ -174,6 +175,9 @@ type GroupKey struct {
 func (g GroupKey) Label() string {
 	if g.Segment != nil {
 		return g.Segment.Name
+	}
+	if g.Step {
+		return KeyRolloutStep
 	}
 	return KeyTriggerDay
 }
@@ -297,7 +301,7 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 		}
 	}
 	dup := map[string]bool{}
-	for _, g := range opt.Breakdowns {
+	for _, g := range withRolloutStep(s, opt.Breakdowns, opt.Splits) {
 		g = strings.TrimSpace(g)
 		if dup[g] {
 			bad(metrics.CodeValue, "", "breakdown %q is given twice", g)
@@ -306,6 +310,11 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 		dup[g] = true
 		if g == KeyTriggerDay {
 			p.GroupBy = append(p.GroupBy, GroupKey{Name: g, Day: true})
+			norm.Breakdowns = append(norm.Breakdowns, g)
+			continue
+		}
+		if g == KeyRolloutStep && s.Rollout != nil { // see rollout.go
+			p.GroupBy = append(p.GroupBy, GroupKey{Name: g, Step: true})
 			norm.Breakdowns = append(norm.Breakdowns, g)
 			continue
 		}
@@ -452,7 +461,7 @@ func exclusions(p *Plan) []Exclusion {
 	for _, r := range p.Rules {
 		out = append(out, Exclusion{Reason: RuleReason(r.Name), Flag: "fails_" + r.Name, Rule: r})
 	}
-	return out
+	return priorExclusion(p, out) // rollout.go
 }
 
 func matureCol(endUS int64) string {

@@ -340,6 +340,7 @@ func (pr *printer) cohortCTEs() {
 	for i, r := range p.Rules {
 		pr.rule(i, r)
 	}
+	pr.priorUnits() // rollout.go
 
 	pr.line(0, "-- Every triggered unit with the reasons it may be excluded.")
 	pr.line(0, "cohort AS (")
@@ -360,9 +361,13 @@ func (pr *printer) cohortCTEs() {
 		vs[i] = d.Literal(v)
 	}
 	pr.line(2, "t.is_crossover,")
-	pr.line(2, "(t.variant IS NULL OR t.variant NOT IN (%s)) AS is_unknown_variant%s", strings.Join(vs, ", "), commaIf(len(p.Rules) > 0))
+	prior := len(p.Spec.PriorRuns) > 0
+	pr.line(2, "(t.variant IS NULL OR t.variant NOT IN (%s)) AS is_unknown_variant%s", strings.Join(vs, ", "), commaIf(len(p.Rules) > 0 || prior))
 	for i, r := range p.Rules {
-		pr.line(2, "(r%d.unit_id IS %sNULL) AS %s%s", i+1, notIf(!r.Absent), pr.id("fails_"+r.Name), commaIf(i < len(p.Rules)-1))
+		pr.line(2, "(r%d.unit_id IS %sNULL) AS %s%s", i+1, notIf(!r.Absent), pr.id("fails_"+r.Name), commaIf(i < len(p.Rules)-1 || prior))
+	}
+	if prior {
+		pr.line(2, "(pe.unit_id IS NOT NULL) AS %s", pr.id(FlagPrior))
 	}
 	pr.line(1, "FROM triggers AS t")
 	for _, a := range p.Attrs {
@@ -373,6 +378,9 @@ func (pr *printer) cohortCTEs() {
 	}
 	for i := range p.Rules {
 		pr.line(1, "LEFT JOIN rule_%d AS r%d ON r%d.unit_id = t.unit_id", i+1, i+1, i+1)
+	}
+	if prior {
+		pr.line(1, "LEFT JOIN prior_units AS pe ON pe.unit_id = t.unit_id")
 	}
 	pr.line(0, "),")
 }
@@ -768,6 +776,9 @@ func (pr *printer) units(more bool) {
 	pr.line(2, "e.unit_id,")
 	pr.line(2, "e.variant,")
 	pr.line(2, "e.trigger_day,")
+	if p.StepKey() >= 0 {
+		pr.line(2, "e.trigger_us,") // the rollout step's key (rollout.go)
+	}
 	for _, seg := range p.Segments {
 		pr.line(2, "e.%s,", pr.id("seg_"+seg.Name))
 	}
@@ -907,7 +918,7 @@ func (pr *printer) main(grouping int) (string, error) {
 	pr.passes()
 	var segKeys []GroupKey
 	for i, g := range p.GroupBy {
-		if !g.Day && (grouping == allGroupings || grouping == i) {
+		if g.Segment != nil && (grouping == allGroupings || grouping == i) {
 			segKeys = append(segKeys, g)
 		}
 	}
@@ -1020,6 +1031,8 @@ func (pr *printer) main(grouping int) (string, error) {
 	for _, g := range p.GroupBy {
 		if g.Day {
 			groupExpr[g.Name] = "u.trigger_day"
+		} else if g.Step {
+			groupExpr[g.Name] = pr.stepCase("u.trigger_us") // rollout.go
 		} else {
 			groupExpr[g.Name] = keyExpr[g.Name]
 		}

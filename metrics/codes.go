@@ -74,4 +74,20 @@ const (
 	CodeUndefinedMetric = "undefined-metric"
 	// CodeEncoding: the file is not valid UTF-8 text.
 	CodeEncoding = "encoding"
+	// CodeRollout: a rollout step out of order, outside the analysis
+	// period, or with weights that do not name every variant once.
+	//   [rollout.steps.wide]
+	//   start = 2026-02-01T00:00:00Z   # before the analysis start
+	CodeRollout = "rollout"
+	// CodePriorRun: a prior run whose period is empty, starts at or after
+	// the analysis start, or reads a source without a time column.
+	//   [prior_runs.first]
+	//   from = 2026-06-01T00:00:00Z   # after this run's start
+	CodePriorRun = "prior-run"
+	// CodeCalendar: a calendar event that ends before it starts, or a
+	// shared calendar file that cannot be read.
+	//   [calendar.events.sale]
+	//   from = 2026-03-20
+	//   until = 2026-03-20
+	CodeCalendar = "calendar"
 )

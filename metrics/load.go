@@ -373,7 +373,7 @@ func tomlType(v any) string {
 
 // ---- the spec ----
 
-var topKeys = []string{"experiment", "variants", "sources", "exposure", "eligibility", "metrics", "segments"}
+var topKeys = []string{"experiment", "variants", "sources", "exposure", "eligibility", "metrics", "segments", "rollout", "prior_runs", "calendar"}
 
 func (l *loader) load(raw map[string]any) {
 	root := l.table(nil, raw, topKeys...)
@@ -469,6 +469,21 @@ func (l *loader) load(raw map[string]any) {
 			}
 		}
 		l.caseClash(sg, "segment")
+	}
+	// Allocation schedule: see rollout.go.
+	if rt := root.sub("rollout", false, rolloutKeys...); rt != nil {
+		l.rollout(rt)
+	}
+	if pt := root.sub("prior_runs", false); pt != nil {
+		for _, name := range pt.keys() {
+			if r := l.priorRun(name, pt.sub(name, false, priorRunKeys...), ref); r != nil {
+				s.PriorRuns = append(s.PriorRuns, r)
+			}
+		}
+		l.caseClash(pt, "prior run")
+	}
+	if ct := root.sub("calendar", false, calendarKeys...); ct != nil {
+		l.calendar(ct)
 	}
 }
 

@@ -32,6 +32,14 @@ type Spec struct {
 	Rules    []*Rule   // eligibility rules, in file order
 	Metrics  []*Metric // in file order
 	Segments []*Segment
+	// Rollout is the allocation schedule when the experiment was launched
+	// in steps (see rollout.go); nil when the spec declares none.
+	Rollout *Rollout
+	// PriorRuns are earlier exposures whose units are left out (rollout.go).
+	PriorRuns []*PriorRun
+	// Events are the declared calendar events, from the spec and from
+	// shared calendar files (rollout.go).
+	Events []*Event
 
 	Ranges map[string]Range // key path ("metrics.orders.window") -> value range
 }

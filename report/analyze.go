@@ -63,6 +63,12 @@ type Report struct {
 	// Adjustment is the multiple-testing method applied to p_value_adjusted.
 	Adjustment string   `json:"adjustment"`
 	Cautions   []string `json:"cautions"`
+	// Rollout is the reading of the spec's rollout schedule (rollout.go);
+	// absent when the spec declares none.
+	Rollout *RolloutInfo `json:"rollout,omitempty"`
+	// Timing is the section on weekdays, declared calendar events and the
+	// effect by trigger week (timing.go).
+	Timing *Timing `json:"timing,omitempty"`
 }
 
 // Experiment describes what was analysed.
@@ -352,6 +358,8 @@ func Analyze(p *compiler.Plan, set *results.Set, opt Options) (*Report, error) {
 	}
 	byVariant := rowsByVariant(set.Overall())
 	r.Health = health(p, set.Health, byVariant, opt.SRMAlpha)
+	// Hook (rollout.go): sample-ratio checks against the rollout schedule.
+	r.Rollout = rolloutHealth(p, set, &r.Health, opt.SRMAlpha)
 	for i, v := range s.Variants {
 		vv := Variant{Name: v.Name, Baseline: i == 0, PlannedWeight: v.Weight}
 		if row := byVariant[v.Name]; row != nil {
@@ -378,6 +386,8 @@ func Analyze(p *compiler.Plan, set *results.Set, opt Options) (*Report, error) {
 	for _, mp := range p.Metrics {
 		r.Metrics = append(r.Metrics, metricInfo(p, mp, byVariant, level))
 	}
+	// Hook (rollout.go): by-step estimates; the primary read by step.
+	r.rolloutEffects(p, set)
 	r.Adjustment = opt.Adjust
 	adjustFamilies(r.Metrics, opt.Adjust)
 	for _, m := range r.Metrics {
@@ -389,6 +399,12 @@ func Analyze(p *compiler.Plan, set *results.Set, opt Options) (*Report, error) {
 		}
 	}
 	r.Cautions = cautions(p, r)
+	// Hook (rollout.go): the schedule's cautions, before the closing one.
+	if rc := rolloutCautions(p, r); len(rc) > 0 {
+		last := len(r.Cautions) - 1
+		r.Cautions = append(r.Cautions[:last], append(rc, r.Cautions[last])...)
+	}
+	r.timing(p, set) // Hook (timing.go): weekdays, calendar, trigger weeks.
 	for _, src := range opt.EmptySources {
 		last := len(r.Cautions) - 1
 		note := fmt.Sprintf("Source %s has no rows: every metric that reads it is zero for every unit. Check that the extract or table is complete before reading those metrics.", src)

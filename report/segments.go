@@ -122,6 +122,7 @@ func (r *Report) addBreakdown(p *compiler.Plan, g int, rows []results.Row, opt O
 	mix := stats.ChiSquareIndependence(table)
 	seg.VariantMix = SampleRatio{Statistic: Num(mix.Statistic), DF: Num(mix.DF), PValue: Num(mix.PValue), Alpha: opt.SRMAlpha, Reason: mix.Reason}
 	seg.VariantMix.Alarm = mix.Reason == "" && mix.PValue < opt.SRMAlpha
+	rolloutMix(p, g, &seg.VariantMix) // rollout.go: a planned ramp changes the mix by design
 
 	for mi, mp := range p.Metrics {
 		pooled := r.Metrics[mi]

@@ -102,6 +102,8 @@ func (r *Report) document() *document {
 		d.alarm(a)
 	}
 	r.healthDoc(d)
+	r.rolloutDoc(d) // rollout.go
+	r.timingDoc(d)  // timing.go
 	for _, ro := range roleOrder {
 		var ms []MetricInfo
 		for _, m := range r.Metrics {
