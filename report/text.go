@@ -94,10 +94,10 @@ func (r *Report) document() *document {
 	d := &document{}
 	e := r.Experiment
 	d.heading(1, "assay %s: experiment %s", r.ToolVersion, e.ID)
-	d.para("Hypothesis: %s", oneLine(e.Hypothesis))
 	d.para("Exposures in [%s, %s), outcomes as of %s, time zone %s, %g%% intervals.", e.Start, e.End, e.AsOf, e.TimeZone, e.Confidence*100)
 	opts := e.CompileOptions
 	d.para("Spec fingerprint %s; compile options %s; result fingerprint %s.", e.SpecFingerprint, opts, e.Fingerprint)
+	r.summaryDoc(d)
 	for _, a := range r.Alarms {
 		d.alarm(a)
 	}
