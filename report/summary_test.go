@@ -1,0 +1,143 @@
+package report
+
+import (
+	"math"
+	"strings"
+	"testing"
+)
+
+// summaryReport is a hand-made report: one primary, one mechanism and two
+// guard metrics, one treatment arm. The numbers are invented; the summary
+// only reads them, so each case states its expectation from the inputs.
+func summaryReport(primaryP, mechP float64, asOf string, seq bool, guards ...Guard) *Report {
+	margin := 0.05
+	cmp := func(diff, lo, hi, p float64) Compare {
+		c := Compare{Variant: "b", Baseline: "a", Difference: Num(diff), CILow: Num(lo), CIHigh: Num(hi),
+			Relative: Num(diff / 2), RelativeCILow: Num(lo / 2), RelativeCIHigh: Num(hi / 2), PValue: Num(p), PValueAdjusted: Num(math.Min(1, 2*p))}
+		if seq {
+			c.Sequential = &SeqInfo{CILow: Num(lo * 2), CIHigh: Num(hi * 2), PValue: Num(math.Min(1, 3*p))}
+		}
+		return c
+	}
+	r := &Report{Experiment: Experiment{ID: "x", Hypothesis: "A  makes\nB rise.", Start: "2026-01-01T00:00:00Z", End: "2026-02-01T00:00:00Z", AsOf: asOf, Confidence: 0.95},
+		Health: Health{Available: true, Triggered: 1000, Eligible: 900, SampleRatio: SampleRatio{PValue: 0.5, Alpha: 0.001},
+			Exclusions: []Exclusion{{Reason: "any", Units: 100, Rate: 0.1}}}}
+	r.Metrics = []MetricInfo{
+		{Name: "prim", Role: "primary", Window: [2]string{"0d", "14d"}, Comparisons: []Compare{cmp(0.2, 0.1, 0.3, primaryP)}},
+		{Name: "mech", Role: "mechanism", Window: [2]string{"0d", "7d"}, Comparisons: []Compare{cmp(-1, -1.5, -0.5, mechP)}},
+	}
+	for i, g := range guards {
+		g := g
+		c := cmp(0.01, -0.01, 0.03, 0.4)
+		c.Guard = &g
+		r.Metrics = append(r.Metrics, MetricInfo{Name: []string{"g1", "g2"}[i], Role: "guard", Harmful: "increase", Margin: &margin, Window: [2]string{"0d", "14d"}, Comparisons: []Compare{c}})
+	}
+	return r
+}
+
+func TestSummarize(t *testing.T) {
+	ok := Guard{Verdict: "no harm beyond margin"}
+	bad := Guard{Verdict: "harm beyond margin", Alarming: true}
+	unsure := Guard{Verdict: "inconclusive"}
+	tests := []struct {
+		name          string
+		r             *Report
+		look, mon     string
+		primary, mech string
+		pKind         string
+		guardOrder    []string
+		cannot        []string // substrings expected in CannotSay
+		notCannot     []string
+	}{
+		{
+			// p = 0.001 < 0.05 with a positive difference: up. The mechanism's
+			// adjusted p = 2 × 0.2 = 0.4 ≥ 0.05: no clear change.
+			name: "final, primary up, mechanism flat", r: summaryReport(0.001, 0.2, "2026-02-01T00:00:00Z", false, ok, bad),
+			look: "final", mon: "fixed", primary: "up", mech: "no clear change", pKind: "unadjusted",
+			guardOrder: []string{"g2", "g1"},
+			cannot:     []string{"mechanism did not clearly move", "judgement for the people"},
+			notCannot:  []string{"interim", "Inconclusive guards"},
+		},
+		{
+			// Primary p = 0.3: no clear change, so its interval is quoted as
+			// the plausible range; mechanism adjusted p = 0.002 with a
+			// negative difference: down.
+			name: "interim fixed, primary flat", r: summaryReport(0.3, 0.001, "2026-01-20T00:00:00Z", false, unsure),
+			look: "interim", mon: "fixed", primary: "no clear change", mech: "down", pKind: "unadjusted",
+			guardOrder: []string{"g1"},
+			cannot:     []string{"not evidence of no effect; changes from +0.1000 to +0.3000", "interim look at a fixed-horizon", "Inconclusive guards", "up to 14d, 7d"},
+		},
+		{
+			// Sequential: the always-valid p = 3 × 0.02 = 0.06 ≥ 0.05 rules,
+			// though the fixed-horizon p = 0.02 would say "up".
+			name: "interim sequential", r: summaryReport(0.02, 0.001, "2026-01-20T00:00:00Z", true),
+			look: "interim", mon: "sequential", primary: "no clear change", mech: "down", pKind: "always-valid",
+			cannot:    []string{"not evidence of no effect; changes from +0.2000 to +0.6000"},
+			notCannot: []string{"interim look at a fixed-horizon"},
+		},
+		{
+			name: "not estimable", r: summaryReport(math.NaN(), 0.001, "2026-02-01T00:00:00Z", false),
+			look: "final", mon: "fixed", primary: "not estimable", mech: "down", pKind: "unadjusted",
+		},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			s := tc.r.Summarize()
+			if s.Look != tc.look || s.Monitoring != tc.mon {
+				t.Errorf("look %q monitoring %q, want %q %q", s.Look, s.Monitoring, tc.look, tc.mon)
+			}
+			if s.Hypothesis != "A makes B rise." {
+				t.Errorf("hypothesis %q", s.Hypothesis)
+			}
+			if s.Level != 0.05 {
+				t.Errorf("level %v, want 0.05", s.Level)
+			}
+			if len(s.Primary) != 1 || s.Primary[0].Moved != tc.primary || s.Primary[0].PValueKind != tc.pKind {
+				t.Errorf("primary %+v, want moved %q (%s)", s.Primary, tc.primary, tc.pKind)
+			}
+			if len(s.Mechanism) != 1 || s.Mechanism[0].Moved != tc.mech {
+				t.Errorf("mechanism %+v, want %q", s.Mechanism, tc.mech)
+			}
+			var order []string
+			for _, g := range s.Guards {
+				order = append(order, g.Metric)
+			}
+			if strings.Join(order, ",") != strings.Join(tc.guardOrder, ",") {
+				t.Errorf("guards %v, want %v (alarming first)", order, tc.guardOrder)
+			}
+			all := strings.Join(s.CannotSay, "\n")
+			for _, want := range tc.cannot {
+				if !strings.Contains(all, want) {
+					t.Errorf("cannot-say lacks %q:\n%s", want, all)
+				}
+			}
+			for _, no := range tc.notCannot {
+				if strings.Contains(all, no) {
+					t.Errorf("cannot-say has %q:\n%s", no, all)
+				}
+			}
+			txt := tc.r.Text()
+			if !strings.Contains(txt, "Summary\n") || strings.Index(txt, "Summary") > strings.Index(txt, "Health\n") {
+				t.Errorf("the summary is not before the health section:\n%s", txt)
+			}
+		})
+	}
+}
+
+// TestSummaryNoVerdict checks that no format hands down a decision: the
+// words a verdict would use appear only in the sentence that leaves the
+// decision to people.
+func TestSummaryNoVerdict(t *testing.T) {
+	r := summaryReport(0.001, 0.001, "2026-02-01T00:00:00Z", false, Guard{Verdict: "no harm beyond margin"})
+	for _, out := range []string{r.Text(), r.Markdown()} {
+		low := strings.ToLower(out)
+		for _, w := range []string{"recommend", "should ship", "ship it", "do not ship", "winner", "launch"} {
+			if strings.Contains(low, w) {
+				t.Errorf("report says %q", w)
+			}
+		}
+		if !strings.Contains(out, "the decision, ship or not, is a judgement for the people who own the product") {
+			t.Error("the summary does not leave the decision to people")
+		}
+	}
+}
