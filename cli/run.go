@@ -21,7 +21,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	var cf compileFlags
 	cf.register(fs)
 	db := fs.String("db", "", "DuckDB database file, opened read-only (default: in-memory; file sources are read directly)")
-	format := fs.String("format", "text", "output format: text, json or markdown")
+	format := fs.String("format", "text", "output format: text, json, markdown or html (one self-contained page with plots and the compiled SQL; add trigger_day to --by for the cumulative effect)")
 	threads := fs.Int("threads", 0, "DuckDB worker threads (default: all cores)")
 	mem := fs.String("memory-limit", "", "DuckDB memory limit, e.g. 8GB (default: DuckDB's)")
 	failHarm := fs.Bool("fail-on-harm", false, "exit with code 5 when a guard metric shows harm")
@@ -47,8 +47,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "assay run: --adjust must be holm, bh, bonferroni or none\n")
 		return ExitInput
 	}
-	if *format != "text" && *format != "json" && *format != "markdown" {
-		fmt.Fprintf(stderr, "assay run: --format must be text, json or markdown\n")
+	if !validFormat(*format) {
+		fmt.Fprintf(stderr, "assay run: --format must be text, json, markdown or html\n")
 		return ExitInput
 	}
 	// The --save target is checked before any query runs, so that a long
@@ -138,7 +138,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		}
 	}
 	prog.Done()
-	code = emitReport(rep, *format, *failHarm, stdout, stderr)
+	page := func(w io.Writer) error { return rep.HTML(w, plan, q, eng.Dialect.Name()) }
+	code = emitReport(rep, *format, *failHarm, stdout, stderr, page)
 	if saveFailed && code == ExitOK {
 		return ExitEngine
 	}
