@@ -26,6 +26,7 @@ func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 	health := fs.String("health", "", "the health query's result, exported as CSV or JSON (recommended: exposure, trigger and exclusion counts)")
 	format := fs.String("format", "text", "output format: text, json, markdown or html (one self-contained page with plots and the compiled SQL)")
 	dialect := fs.String("dialect", "duckdb", "html: the SQL dialect the aggregates were computed in, for the SQL embedded in the page")
+	mdLimit := fs.Int("markdown-limit", report.MarkdownLimit, "markdown: cap the report at this many bytes for a review comment, leaving out whole breakdowns and notes (named at the end); 0: no cap")
 	failHarm := fs.Bool("fail-on-harm", false, "exit with code 5 when a guard metric shows harm")
 	srmAlpha := fs.Float64("srm-alpha", report.SRMAlpha, "sample-ratio mismatch alarm threshold (p-value)")
 	adjust := fs.String("adjust", "holm", "multiple-testing adjustment for secondary metrics and variants: holm, bh, bonferroni or none")
@@ -116,7 +117,7 @@ func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 		}
 		return rep.HTML(w, plan, q, d.Name())
 	}
-	return emitReport(rep, *format, *failHarm, stdout, stderr, page)
+	return emitReport(rep, *format, *failHarm, *mdLimit, stdout, stderr, page)
 }
 
 // validFormat reports whether f is an output format of run and analyze.
@@ -164,7 +165,7 @@ func value(row []any, i int) any {
 
 // emitReport prints rep and returns the exit code, as assay run does.
 // page writes the HTML page (format html).
-func emitReport(rep *report.Report, format string, failHarm bool, stdout, stderr io.Writer, page func(io.Writer) error) int {
+func emitReport(rep *report.Report, format string, failHarm bool, mdLimit int, stdout, stderr io.Writer, page func(io.Writer) error) int {
 	switch format {
 	case "html":
 		var buf bytes.Buffer
@@ -181,7 +182,7 @@ func emitReport(rep *report.Report, format string, failHarm bool, stdout, stderr
 		}
 		stdout.Write(b)
 	case "markdown":
-		fmt.Fprint(stdout, rep.Markdown())
+		fmt.Fprint(stdout, rep.MarkdownCapped(mdLimit))
 	default:
 		fmt.Fprint(stdout, rep.Text())
 	}

@@ -83,9 +83,10 @@ var roleOrder = []struct{ role, title string }{
 // Text renders the report for a terminal.
 func (r *Report) Text() string { return r.document().text() }
 
-// Markdown renders the report for a pull request or a wiki page. It holds
-// everything Text does.
-func (r *Report) Markdown() string { return r.document().markdown() }
+// Markdown renders the report for a pull request or a wiki page: it holds
+// everything Text does, with detail folded (MarkdownCapped), up to
+// MarkdownLimit bytes.
+func (r *Report) Markdown() string { return r.MarkdownCapped(MarkdownLimit) }
 
 func oneLine(s string) string { return strings.Join(strings.Fields(s), " ") }
 
