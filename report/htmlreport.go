@@ -105,8 +105,15 @@ func paras(items []string, prefix string) []html.Block {
 	return out
 }
 
-func num(text, link string) html.Cell { return html.Cell{Text: text, Link: link, Numeric: true} }
-func txt(text string) html.Cell       { return html.Cell{Text: text} }
+// num is a numeric cell linking to the SQL that produced it; a value that
+// could not be computed ("n/a") links nowhere.
+func num(text, link string) html.Cell {
+	if !strings.ContainsAny(text, "0123456789") {
+		link = ""
+	}
+	return html.Cell{Text: text, Link: link, Numeric: true}
+}
+func txt(text string) html.Cell { return html.Cell{Text: text} }
 
 // metricCols returns the link targets of a metric's value, variance and
 // per-unit values.
@@ -153,14 +160,14 @@ func (b *htmlBuilder) summarySection() html.Section {
 	}
 	bl = append(bl, html.Paragraph{Text: look})
 	eff := html.Table{ID: "summary-effects", Caption: "Did the mechanism, then the primary metric, move?",
-		Header: []string{"role", "metric", "arm", "moved", "difference", "interval", "relative", "interval", "p-value", "p-value kind"}}
+		Header: []string{"metric", "arm", "moved", "difference", "interval", "relative", "interval", "p-value"}}
 	add := func(role string, es []SummaryEffect) {
 		for _, e := range es {
 			_, mean, vr, _ := b.metricCols(e.Metric)
-			eff.Rows = append(eff.Rows, []html.Cell{txt(role), txt(e.Metric), txt(e.Variant), txt(movedText(e.Moved)),
+			eff.Rows = append(eff.Rows, []html.Cell{txt(e.Metric + " (" + role + ")"), txt(e.Variant), txt(movedText(e.Moved)),
 				num(signed(e.Difference), mean), num("["+signed(e.CILow)+", "+signed(e.CIHigh)+"]", vr),
 				num(pct(float64(e.Relative)), mean), num("["+pct(float64(e.RelativeCILow))+", "+pct(float64(e.RelativeCIHigh))+"]", vr),
-				num(fmtP(float64(e.PValue)), vr), txt(e.PValueKind)})
+				num(fmtP(float64(e.PValue))+" ("+e.PValueKind+")", vr)})
 		}
 	}
 	add("mechanism", s.Mechanism)
@@ -359,48 +366,7 @@ func (b *htmlBuilder) segmentsSection() (html.Section, bool) {
 		if seg.Name == compiler.KeyTriggerDay {
 			continue
 		}
-		byName := map[string]MetricInfo{}
-		for _, m := range r.Metrics {
-			byName[m.Name] = m
-		}
-		f := html.Forest{ID: "forest-" + slugID(seg.Name), Title: fmt.Sprintf("Relative effect by %s, %g%% intervals (exploratory)", seg.Name, r.Experiment.Confidence*100)}
-		var inner []html.Block
-		mix := seg.VariantMix
-		if mix.Reason != "" {
-			inner = append(inner, html.Paragraph{Text: fmt.Sprintf("Variant mix across values: not tested (%s).", mix.Reason)})
-		} else {
-			verdict := "ok"
-			if mix.Alarm {
-				verdict = "!! IMBALANCED"
-			}
-			inner = append(inner, html.Paragraph{Text: fmt.Sprintf("Variant mix across values: chi-square %s, df %g, %s: %s.", fmtNum(mix.Statistic), float64(mix.DF), pEquals(float64(mix.PValue)), verdict)})
-		}
-		for _, sm := range seg.Metrics {
-			m := byName[sm.Metric]
-			nCol, mean, vr, _ := b.metricCols(sm.Metric)
-			t := html.Table{ID: "table-" + slugID(seg.Name) + "-" + slugID(sm.Metric), Caption: sm.Metric + " by " + seg.Name,
-				Header: []string{"value", "arm", "n (baseline)", "n (arm)", "difference", "interval", "relative", "interval", "p-value", "adj. p"}}
-			for _, row := range sm.Rows {
-				n := map[string]int64{}
-				for _, v := range row.Variants {
-					n[v.Variant] = v.N
-				}
-				for _, c := range row.Comparisons {
-					label := sm.Metric + " · " + row.Value
-					if len(row.Comparisons) > 1 {
-						label += " (" + c.Variant + ")"
-					}
-					f.Rows = append(f.Rows, forestRow(label, m, c))
-					t.Rows = append(t.Rows, []html.Cell{txt(row.Value), txt(c.Variant), num(strconv.FormatInt(n[c.Baseline], 10), nCol), num(strconv.FormatInt(n[c.Variant], 10), nCol),
-						num(signed(c.Difference), mean), num("["+signed(c.CILow)+", "+signed(c.CIHigh)+"]", vr), num(pct(float64(c.Relative)), mean),
-						num("["+pct(float64(c.RelativeCILow))+", "+pct(float64(c.RelativeCIHigh))+"]", vr), num(fmtP(float64(c.PValue)), vr), num(fmtP(float64(c.PValueAdjusted)), vr)})
-				}
-			}
-			inner = append(inner, t)
-			for _, fl := range sm.Flags {
-				inner = append(inner, html.Paragraph{Text: "!! " + fl})
-			}
-		}
+		f, inner := b.segmentBlocks(seg)
 		bl = append(bl, html.Heading{Level: 3, ID: "segment-" + slugID(seg.Name), Text: "By " + seg.Name}, f,
 			html.Details{Summary: fmt.Sprintf("Tables by %s", seg.Name), Open: true, Blocks: inner})
 	}
@@ -409,6 +375,61 @@ func (b *htmlBuilder) segmentsSection() (html.Section, bool) {
 	}
 	bl = append([]html.Block{html.Paragraph{Text: "Segment breakdowns are exploratory: with many segments some differ by chance (see the adjusted p-values); a segment effect is a lead for a new experiment, not a finding."}}, bl...)
 	return html.Section{ID: "segments", Heading: "Effects by segment", Blocks: bl}, true
+}
+
+// segmentBlocks is one breakdown's forest of relative effects and its
+// tables: the variant-mix test, one table per metric, the heterogeneity
+// checks and the flags.
+func (b *htmlBuilder) segmentBlocks(seg Segment) (html.Forest, []html.Block) {
+	r := b.r
+	byName := map[string]MetricInfo{}
+	for _, m := range r.Metrics {
+		byName[m.Name] = m
+	}
+	f := html.Forest{ID: "forest-" + slugID(seg.Name), Title: fmt.Sprintf("Relative effect by %s, %g%% intervals (exploratory)", seg.Name, r.Experiment.Confidence*100)}
+	var inner []html.Block
+	mix := seg.VariantMix
+	if mix.Reason != "" {
+		inner = append(inner, html.Paragraph{Text: fmt.Sprintf("Variant mix across values: not tested (%s).", mix.Reason)})
+	} else {
+		verdict := "ok"
+		if mix.Alarm {
+			verdict = "!! IMBALANCED"
+		}
+		inner = append(inner, html.Paragraph{Text: fmt.Sprintf("Variant mix across values: chi-square %s, df %g, %s: %s.", fmtNum(mix.Statistic), float64(mix.DF), pEquals(float64(mix.PValue)), verdict)})
+	}
+	for _, sm := range seg.Metrics {
+		m := byName[sm.Metric]
+		nCol, mean, vr, _ := b.metricCols(sm.Metric)
+		t := html.Table{ID: "table-" + slugID(seg.Name) + "-" + slugID(sm.Metric), Caption: sm.Metric + " by " + seg.Name,
+			Header: []string{"value", "arm", "n (baseline)", "n (arm)", "difference", "interval", "relative", "interval", "p-value", "adj. p"}}
+		for _, row := range sm.Rows {
+			n := map[string]int64{}
+			for _, v := range row.Variants {
+				n[v.Variant] = v.N
+			}
+			for _, c := range row.Comparisons {
+				label := sm.Metric + " · " + row.Value
+				if len(row.Comparisons) > 1 {
+					label += " (" + c.Variant + ")"
+				}
+				f.Rows = append(f.Rows, forestRow(label, m, c))
+				t.Rows = append(t.Rows, []html.Cell{txt(row.Value), txt(c.Variant), num(strconv.FormatInt(n[c.Baseline], 10), nCol), num(strconv.FormatInt(n[c.Variant], 10), nCol),
+					num(signed(c.Difference), mean), num("["+signed(c.CILow)+", "+signed(c.CIHigh)+"]", vr), num(pct(float64(c.Relative)), mean),
+					num("["+pct(float64(c.RelativeCILow))+", "+pct(float64(c.RelativeCIHigh))+"]", vr), num(fmtP(float64(c.PValue)), vr), num(fmtP(float64(c.PValueAdjusted)), vr)})
+			}
+		}
+		inner = append(inner, t)
+		for _, chk := range sm.Checks {
+			if chk.Reason == "" {
+				inner = append(inner, html.Paragraph{Text: fmt.Sprintf("– heterogeneity (%s): Cochran's Q %s, df %g, %s, I² %s", chk.Variant, fmtNum(chk.Q), float64(chk.DF), pEquals(float64(chk.PValue)), pctAbs(float64(chk.I2)))})
+			}
+		}
+		for _, fl := range sm.Flags {
+			inner = append(inner, html.Paragraph{Text: "!! " + fl})
+		}
+	}
+	return f, inner
 }
 
 // cumulativeSection draws the primary metric's effect among units triggered
@@ -464,6 +485,8 @@ func (b *htmlBuilder) cumulativeSection() html.Section {
 				Title: fmt.Sprintf("%s: cumulative relative effect of %s by trigger day, %g%% intervals", m.Name, arm, r.Experiment.Confidence*100), Points: pts})
 		}
 	}
+	_, inner := b.segmentBlocks(*seg)
+	sec.Blocks = append(sec.Blocks, html.Details{Summary: "Each trigger day on its own: every metric, units triggered that day", Blocks: inner})
 	return sec
 }
 
@@ -554,6 +577,25 @@ func (b *htmlBuilder) healthSection() html.Section {
 			et.Rows = append(et.Rows, []html.Cell{txt(e.Reason), num(strconv.FormatInt(e.Units, 10), b.link("health-excluded-"+slugID(e.Reason))), num(pctAbs(float64(e.Rate)), "")})
 		}
 		bl = append(bl, et)
+		ig := h.IgnoredRows
+		lines := []string{fmt.Sprintf("ignored exposure rows: %d before start, %d at or after end, %d without unit, %d without time, %d without a variant (they count for the trigger time only)", ig["before_start"], ig["after_end"], ig["null_unit"], ig["null_time"], ig["null_variant"])}
+		srcs := make([]string, 0, len(h.IgnoredOutcomeRows))
+		for src := range h.IgnoredOutcomeRows {
+			srcs = append(srcs, src)
+		}
+		sort.Strings(srcs)
+		for _, src := range srcs {
+			o := h.IgnoredOutcomeRows[src]
+			lines = append(lines, fmt.Sprintf("ignored rows of %s: %d without unit, %d without time", src, o["null_unit"], o["null_time"]))
+		}
+		for _, u := range h.UnknownVariants {
+			line := fmt.Sprintf("!! undeclared variant value %q on %d triggered units (excluded)", u.Value, u.Units)
+			if u.Suggests != "" {
+				line += fmt.Sprintf("; did you mean %q?", u.Suggests)
+			}
+			lines = append(lines, line)
+		}
+		bl = append(bl, paras(lines, "– ")...)
 	}
 	// Funnel: triggered, eligible, mature (primary window) per arm.
 	var prim *MetricInfo
@@ -758,10 +800,15 @@ func (n *Num) UnmarshalJSON(b []byte) error {
 
 // ExpectedNumbers lists the numbers of the report, formatted as the HTML
 // page shows them, that a reader must find on the page: every arm's n,
-// value and standard error, every comparison's difference, interval,
-// relative change, relative interval and p-values (overall and per
-// segment), units per arm, exclusions, the sample-ratio p-value and the
-// daily exposed units. scripts/browser-check looks for each in the
+// value and standard error; every comparison's difference, interval,
+// relative change, relative interval and p-values, overall and per
+// segment value (trigger days included); guard bounds and p-values; CUPED
+// adjusted values, theta, variance reduction and the unadjusted
+// comparison; always-valid intervals; immature units; variant-mix and
+// heterogeneity tests; units per arm and stage, exclusions, ignored rows,
+// the sample-ratio tests overall and by day, and the daily exposed units.
+// Test statistics and degrees of freedom of the comparisons, which no
+// format prints, are left out. scripts/browser-check looks for each in the
 // rendered page.
 func ExpectedNumbers(r *Report) []string {
 	set := map[string]bool{}
@@ -785,13 +832,27 @@ func ExpectedNumbers(r *Report) []string {
 		for _, v := range m.Variants {
 			add(strconv.FormatInt(v.N, 10), fmtNum(v.Value), fmtNum(v.StdError))
 		}
+		if m.ImmatureUnits > 0 {
+			add(strconv.FormatInt(m.ImmatureUnits, 10))
+		}
 		for _, c := range m.Comparisons {
 			cmp(c, !(c.Family == FamilyGuard || (c.Family == FamilyPrimary && len(m.Comparisons) == 1)))
+			if g := c.Guard; g != nil && g.Reason == "" {
+				add(pct(float64(g.Lower)), pct(float64(g.Upper)), fmtP(float64(g.HarmPValue)), fmtP(float64(g.PValue)))
+			}
+			if cu := c.CUPED; cu != nil && cu.NotApplied == "" {
+				u := cu.Unadjusted
+				add(fmtNum(cu.BaselineValue), fmtNum(cu.BaselineStdError), fmtNum(cu.VariantValue), fmtNum(cu.VariantStdError),
+					fmtNum(cu.Theta), pctAbs(float64(cu.VarianceReduction)), signed(u.Difference), signed(u.CILow), signed(u.CIHigh), fmtP(float64(u.PValue)))
+			}
+			if sq := c.Sequential; sq != nil && sq.Reason == "" {
+				add(signed(sq.CILow), signed(sq.CIHigh), fmtP(float64(sq.PValue)))
+			}
 		}
 	}
 	for _, seg := range r.Segments {
-		if seg.Name == compiler.KeyTriggerDay {
-			continue
+		if mix := seg.VariantMix; mix.Reason == "" {
+			add(fmtNum(mix.Statistic), fmtP(float64(mix.PValue)))
 		}
 		for _, sm := range seg.Metrics {
 			for _, row := range sm.Rows {
@@ -800,6 +861,11 @@ func ExpectedNumbers(r *Report) []string {
 				}
 				for _, c := range row.Comparisons {
 					cmp(c, true)
+				}
+			}
+			for _, chk := range sm.Checks {
+				if chk.Reason == "" {
+					add(fmtNum(chk.Q), fmtP(float64(chk.PValue)), pctAbs(float64(chk.I2)))
 				}
 			}
 		}
@@ -811,11 +877,27 @@ func ExpectedNumbers(r *Report) []string {
 		}
 	}
 	h := r.Health
-	add(fmtP(float64(h.SampleRatio.PValue)))
+	if h.SampleRatio.Reason == "" {
+		add(fmtNum(h.SampleRatio.Statistic), fmtP(float64(h.SampleRatio.PValue)))
+	}
 	if h.Available {
+		if st := h.SampleRatioTriggered; st.Reason == "" {
+			add(fmtNum(st.Statistic), fmtP(float64(st.PValue)))
+		}
 		add(strconv.FormatInt(h.ExposedUnits, 10), strconv.FormatInt(h.Triggered, 10), strconv.FormatInt(h.Eligible, 10), strconv.FormatInt(h.NeverTriggered, 10))
 		for _, e := range h.Exclusions {
 			add(strconv.FormatInt(e.Units, 10), pctAbs(float64(e.Rate)))
+		}
+		for _, n := range h.IgnoredRows {
+			add(strconv.FormatInt(n, 10))
+		}
+		for _, o := range h.IgnoredOutcomeRows {
+			for _, n := range o {
+				add(strconv.FormatInt(n, 10))
+			}
+		}
+		for _, u := range h.UnknownVariants {
+			add(strconv.FormatInt(u.Units, 10))
 		}
 		declared := map[string]bool{}
 		for _, v := range r.Experiment.Variants {
@@ -825,6 +907,9 @@ func ExpectedNumbers(r *Report) []string {
 			if declared[d.Variant] {
 				add(strconv.FormatInt(d.ExposedUnits, 10))
 			}
+		}
+		for _, d := range h.SampleRatioDaily.Days {
+			add(strconv.FormatInt(d.Units, 10), fmtNum(d.Statistic), fmtP(float64(d.PValue)))
 		}
 	}
 	out := make([]string, 0, len(set))
