@@ -21,10 +21,10 @@ type Summary struct {
 	// Monitoring is "sequential" when the report carries always-valid
 	// intervals, else "fixed".
 	Monitoring string `json:"monitoring"`
-	// Level is 1 − confidence: an effect "moved" when its p-value (adjusted
+	// Alpha is 1 − confidence: an effect "moved" when its p-value (adjusted
 	// where its family is adjusted; always-valid under sequential
 	// monitoring) is below it.
-	Level     float64         `json:"alpha"`
+	Alpha     float64         `json:"alpha"`
 	Mechanism []SummaryEffect `json:"mechanism"`
 	Primary   []SummaryEffect `json:"primary"`
 	Guards    []SummaryGuard  `json:"guards"`
@@ -46,7 +46,7 @@ type SummaryEffect struct {
 	Relative       Num    `json:"relative"`
 	RelativeCILow  Num    `json:"relative_ci_low"`
 	RelativeCIHigh Num    `json:"relative_ci_high"`
-	// PValue is the p-value the movement is read from (see Summary.Level).
+	// PValue is the p-value the movement is read from (see Summary.Alpha).
 	PValue Num `json:"p_value"`
 	// PValueKind names it: "unadjusted", "adjusted" or "always-valid".
 	PValueKind string `json:"p_value_kind"`
@@ -83,10 +83,10 @@ type SummaryHealth struct {
 // Summarize computes the summary from the report.
 func (r *Report) Summarize() Summary {
 	e := r.Experiment
-	s := Summary{Hypothesis: oneLine(e.Hypothesis), Look: "final", Monitoring: "fixed", Level: 1 - e.Confidence,
+	s := Summary{Hypothesis: oneLine(e.Hypothesis), Look: "final", Monitoring: "fixed", Alpha: 1 - e.Confidence,
 		Mechanism: []SummaryEffect{}, Primary: []SummaryEffect{}, Guards: []SummaryGuard{}, CannotSay: []string{}}
 	// Round 1 − 0.95 to the digits a reader expects (0.05, not 0.050000000000000044).
-	s.Level = math.Round(s.Level*1e9) / 1e9
+	s.Alpha = math.Round(s.Alpha*1e9) / 1e9
 	if asOf, err1 := time.Parse(time.RFC3339, e.AsOf); err1 == nil {
 		if end, err2 := time.Parse(time.RFC3339, e.End); err2 == nil && asOf.Before(end) {
 			s.Look = "interim"
@@ -159,9 +159,9 @@ func (s *Summary) effect(m MetricInfo, c Compare, adjusted bool) SummaryEffect {
 	switch {
 	case !se.PValue.OK() || !se.Difference.OK():
 		se.Moved = "not estimable"
-	case float64(se.PValue) < s.Level && float64(se.Difference) > 0:
+	case float64(se.PValue) < s.Alpha && float64(se.Difference) > 0:
 		se.Moved = "up"
-	case float64(se.PValue) < s.Level && float64(se.Difference) < 0:
+	case float64(se.PValue) < s.Alpha && float64(se.Difference) < 0:
 		se.Moved = "down"
 	default:
 		se.Moved = "no clear change"
@@ -234,6 +234,7 @@ func (r *Report) summaryDoc(d *document) {
 	} else {
 		look += " Monitoring is fixed-horizon."
 	}
+	look += fmt.Sprintf(" An effect counts as moved when its p-value is below %g (adjusted for multiple testing where its family is).", s.Alpha)
 	d.para("%s", look)
 	effects := func(title string, es []SummaryEffect) {
 		if len(es) == 0 {

@@ -89,8 +89,8 @@ func TestSummarize(t *testing.T) {
 			if s.Hypothesis != "A makes B rise." {
 				t.Errorf("hypothesis %q", s.Hypothesis)
 			}
-			if s.Level != 0.05 {
-				t.Errorf("level %v, want 0.05", s.Level)
+			if s.Alpha != 0.05 {
+				t.Errorf("alpha %v, want 0.05", s.Alpha)
 			}
 			if len(s.Primary) != 1 || s.Primary[0].Moved != tc.primary || s.Primary[0].PValueKind != tc.pKind {
 				t.Errorf("primary %+v, want moved %q (%s)", s.Primary, tc.primary, tc.pKind)
