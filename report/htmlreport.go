@@ -149,15 +149,7 @@ func (b *htmlBuilder) summarySection() html.Section {
 		bl = append(bl, html.Paragraph{Text: "ALARM: " + a})
 	}
 	bl = append(bl, html.Paragraph{Text: "Hypothesis: " + s.Hypothesis})
-	look := "Final look: outcomes counted to the planned end (" + r.Experiment.End + ")."
-	if s.Look == "interim" {
-		look = "Interim look: outcomes counted to " + r.Experiment.AsOf + ", before the planned end " + r.Experiment.End + "."
-	}
-	if s.Monitoring == "sequential" {
-		look += " Monitoring is sequential: the always-valid intervals and p-values are read."
-	} else {
-		look += " Monitoring is fixed-horizon."
-	}
+	look := lookSentence(s, r.Experiment)
 	bl = append(bl, html.Paragraph{Text: look})
 	eff := html.Table{ID: "summary-effects", Caption: "Did the mechanism, then the primary metric, move?",
 		Header: []string{"metric", "arm", "moved", "difference", "interval", "relative", "interval", "p-value"}}

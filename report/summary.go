@@ -225,16 +225,7 @@ func (r *Report) summaryDoc(d *document) {
 	s := r.Summarize()
 	d.heading(2, "Summary")
 	d.para("Hypothesis: %s", s.Hypothesis)
-	look := "Final look: outcomes counted to the planned end."
-	if s.Look == "interim" {
-		look = "Interim look: outcomes counted to " + r.Experiment.AsOf + ", before the planned end " + r.Experiment.End + "."
-	}
-	if s.Monitoring == "sequential" {
-		look += " Monitoring is sequential: the always-valid intervals and p-values are read."
-	} else {
-		look += " Monitoring is fixed-horizon."
-	}
-	look += fmt.Sprintf(" An effect counts as moved when its p-value is below %g (adjusted for multiple testing where its family is).", s.Alpha)
+	look := lookSentence(s, r.Experiment)
 	d.para("%s", look)
 	effects := func(title string, es []SummaryEffect) {
 		if len(es) == 0 {
@@ -291,6 +282,21 @@ func (r *Report) summaryDoc(d *document) {
 	d.list(items)
 	d.para("What this evidence cannot say:")
 	d.list(s.CannotSay)
+}
+
+// lookSentence says whether the look is interim or final, the monitoring
+// mode, and the threshold an effect is read against.
+func lookSentence(s Summary, e Experiment) string {
+	look := "Final look: outcomes counted to the planned end (" + e.End + ")."
+	if s.Look == "interim" {
+		look = "Interim look: outcomes counted to " + e.AsOf + ", before the planned end " + e.End + "."
+	}
+	if s.Monitoring == "sequential" {
+		look += " Monitoring is sequential: the always-valid intervals and p-values are read."
+	} else {
+		look += " Monitoring is fixed-horizon."
+	}
+	return look + fmt.Sprintf(" An effect counts as moved when its p-value is below %g (adjusted for multiple testing where its family is).", s.Alpha)
 }
 
 // effectLine is one effect in a sentence: the movement, the difference with
