@@ -4,6 +4,8 @@ import (
 	"math"
 	"strings"
 	"testing"
+
+	"github.com/assay-dev/assay/compiler"
 )
 
 // summaryReport is a hand-made report: one primary, one mechanism and two
@@ -139,5 +141,31 @@ func TestSummaryNoVerdict(t *testing.T) {
 		if !strings.Contains(out, "the decision, ship or not, is a judgement for the people who own the product") {
 			t.Error("the summary does not leave the decision to people")
 		}
+	}
+}
+
+// TestHTMLAlarmsFirst renders a report with a sample-ratio alarm and a
+// harmed guard: the alarm opens the summary, before the hypothesis, and
+// the alarming guard heads the guard table, marked in words, not colour.
+func TestHTMLAlarmsFirst(t *testing.T) {
+	r := summaryReport(0.001, 0.001, "2026-02-01T00:00:00Z", false,
+		Guard{Verdict: "no harm beyond margin"}, Guard{Verdict: "harm beyond margin", Alarming: true})
+	r.Alarms = []string{"SAMPLE RATIO MISMATCH: eligible units per variant do not match the planned weights."}
+	r.Health.SampleRatio = SampleRatio{PValue: 1e-6, Alpha: 0.001, Alarm: true}
+	var b strings.Builder
+	if err := r.HTML(&b, nil, compiler.Queries{}, ""); err != nil {
+		t.Fatal(err)
+	}
+	page := b.String()
+	alarm, hyp := strings.Index(page, "ALARM: SAMPLE RATIO MISMATCH"), strings.Index(page, "Hypothesis: A makes B rise.")
+	if alarm < 0 || hyp < 0 || alarm > hyp {
+		t.Errorf("alarm at %d, hypothesis at %d: want the alarm first", alarm, hyp)
+	}
+	g2, g1 := strings.Index(page, "<td>!! alarm</td><td>g2</td>"), strings.Index(page, "<td>ok</td><td>g1</td>")
+	if g2 < 0 || g1 < 0 || g2 > g1 {
+		t.Errorf("guard rows at %d (alarming g2) and %d (g1): want the alarming one first, marked in words", g2, g1)
+	}
+	if !strings.Contains(page, "!! MISMATCH") {
+		t.Error("the health table does not mark the sample-ratio mismatch in words")
 	}
 }
