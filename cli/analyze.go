@@ -52,6 +52,10 @@ func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "assay analyze: --format must be text, json, markdown or html\n")
 		return ExitInput
 	}
+	if _, err := dialects.Lookup(*dialect); err != nil {
+		fmt.Fprintf(stderr, "assay analyze: --dialect: %v\n", err)
+		return ExitInput
+	}
 	spec, ok := load(path, stderr)
 	if !ok {
 		return ExitInput
