@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"fmt"
 	"io"
+	"slices"
 	"strings"
 
 	"github.com/assay-dev/assay/compiler"
@@ -22,7 +23,7 @@ func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 	cf := compileFlags{dialect: "duckdb"}
 	fs.StringVar(&cf.asOf, "as-of", "", "the --as-of the query was compiled with (RFC 3339); default: the one the result carries")
 	cf.registerBreakdowns(fs)
-	aggs := fs.String("aggregates", "", "the main query's result, exported as CSV or JSON (required)")
+	aggs := fs.String("aggregates", "", "the main query's result, exported as CSV or JSON (required); on engines without GROUPING SETS, the results of the main query and of each breakdown query, comma-separated")
 	health := fs.String("health", "", "the health query's result, exported as CSV or JSON (recommended: exposure, trigger and exclusion counts)")
 	format := fs.String("format", "text", "output format: text, json, markdown or html (one self-contained page with plots and the compiled SQL)")
 	dialect := fs.String("dialect", "duckdb", "html: the SQL dialect the aggregates were computed in, for the SQL embedded in the page")
@@ -60,7 +61,7 @@ func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 	if !ok {
 		return ExitInput
 	}
-	t, err := results.ReadTable(*aggs)
+	t, err := readTables(strings.Split(*aggs, ","))
 	if err != nil {
 		fmt.Fprintf(stderr, "assay analyze: %v\n", err)
 		return ExitInput
@@ -127,6 +128,28 @@ func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 // validFormat reports whether f is an output format of run and analyze.
 func validFormat(f string) bool {
 	return f == "text" || f == "json" || f == "markdown" || f == "html"
+}
+
+// readTables reads exported results with the same columns (the main
+// query and, on engines without GROUPING SETS, each breakdown query) as
+// one table.
+func readTables(paths []string) (*results.Table, error) {
+	var all *results.Table
+	for _, p := range paths {
+		t, err := results.ReadTable(strings.TrimSpace(p))
+		if err != nil {
+			return nil, err
+		}
+		if all == nil {
+			all = t
+			continue
+		}
+		if !slices.EqualFunc(all.Columns, t.Columns, strings.EqualFold) {
+			return nil, fmt.Errorf("%s: its columns differ from those of %s: export the main and breakdown queries of one compile", p, paths[0])
+		}
+		all.Rows = append(all.Rows, t.Rows...)
+	}
+	return all, nil
 }
 
 // resultOptions checks that a main result was computed from this spec

@@ -110,3 +110,31 @@ func TestFormatsCarrySameNumbers(t *testing.T) {
 		t.Errorf("checked %d numbers, want the demo's several hundred", checked)
 	}
 }
+
+// TestBreakdownsLeaveOverallUnchanged: the overall numbers of a run with
+// breakdowns (one statement, GROUPING SETS) equal those of the same run
+// without them, to 1e-9; only the breakdown-related fields differ.
+func TestBreakdownsLeaveOverallUnchanged(t *testing.T) {
+	if testing.Short() {
+		t.Skip("skipped in -short mode: runs the demo")
+	}
+	_, with, stderr := runArgs("run", "--format", "json", "--by", "platform,tenure,trigger_day", demo)
+	_, without, stderr2 := runArgs("run", "--format", "json", "--segments=false", demo)
+	var a, b map[string]any
+	if err := json.Unmarshal([]byte(with), &a); err != nil {
+		t.Fatalf("%v: %s", err, stderr)
+	}
+	if err := json.Unmarshal([]byte(without), &b); err != nil {
+		t.Fatalf("%v: %s", err, stderr2)
+	}
+	if segs, _ := a["segments"].([]any); len(segs) != 3 {
+		t.Fatalf("got %d breakdowns, want 3", len(segs))
+	}
+	for _, k := range []string{"metrics", "health", "alarms"} {
+		ka, _ := json.Marshal(a[k])
+		kb, _ := json.Marshal(b[k])
+		if d := jsonDiff(t, string(ka), string(kb)); d != "" {
+			t.Errorf("%s differs with breakdowns: %s", k, d)
+		}
+	}
+}

@@ -10,7 +10,6 @@ import (
 	"path/filepath"
 	"time"
 
-	"github.com/assay-dev/assay/compiler"
 	"github.com/assay-dev/assay/engine"
 	"github.com/assay-dev/assay/pipeline"
 	"github.com/assay-dev/assay/report"
@@ -156,9 +155,6 @@ func openFailed(stderr io.Writer, err error) int {
 	}
 	return ExitEngine
 }
-
-// asOfTime returns the plan's as-of time.
-func asOfTime(p *compiler.Plan) time.Time { return time.UnixMicro(p.AsOfUS).UTC() }
 
 // specText returns the spec file's text for rendering diagnostics.
 func specText(path string) []byte {

@@ -20,10 +20,16 @@ import (
 // any other dialect Setup and Cleanup are empty and Main and Health each
 // compute the cohort themselves.
 type Queries struct {
-	Setup   string // creates the cohort table; empty when the dialect does not stage
-	Main    string // one row per variant (and grouping key) with sufficient statistics
-	Health  string // exposure and exclusion counts
-	Cleanup string // drops the cohort table; empty when Setup is
+	Setup string // creates the cohort table; empty when the dialect does not stage
+	Main  string // one row per variant (and breakdown key) with sufficient statistics
+	// Breakdowns holds, for dialects without GROUP BY GROUPING SETS
+	// (dialects.NoGroupingSets), one query per breakdown key; Main then
+	// returns the overall rows only. All of them return the same columns
+	// (Plan.Columns), so their rows are read as one result. Elsewhere it is
+	// empty: Main returns every grouping.
+	Breakdowns []string
+	Health     string // exposure and exclusion counts
+	Cleanup    string // drops the cohort table; empty when Setup is
 }
 
 // Script is the statements of q that a run executes, in order, each ended
@@ -40,6 +46,9 @@ func (q Queries) Script(main, health bool) string {
 	add(q.Setup)
 	if main {
 		add(q.Main)
+		for _, b := range q.Breakdowns {
+			add(b)
+		}
 	}
 	if health {
 		add(q.Health)
@@ -63,8 +72,20 @@ func Print(p *Plan, d dialects.Dialect) (Queries, error) {
 		}
 		q.Setup, q.Cleanup = setup, st.DropTemp(StagedTable)+"\n"
 	}
-	main, err := pr.main()
-	if err != nil {
+	var main string
+	var err error
+	if _, union := d.(dialects.NoGroupingSets); union && len(p.GroupBy) > 0 {
+		if main, err = pr.main(overallOnly); err != nil {
+			return Queries{}, err
+		}
+		for i := range p.GroupBy {
+			b, err := pr.main(i)
+			if err != nil {
+				return Queries{}, err
+			}
+			q.Breakdowns = append(q.Breakdowns, b)
+		}
+	} else if main, err = pr.main(allGroupings); err != nil {
 		return Queries{}, err
 	}
 	health, err := pr.health()
@@ -336,7 +357,7 @@ func (pr *printer) cohortCTEs() {
 	}
 	vs := make([]string, len(p.Variants))
 	for i, v := range p.Variants {
-		vs[i] = d.String(v)
+		vs[i] = d.Literal(v)
 	}
 	pr.line(2, "t.is_crossover,")
 	pr.line(2, "(t.variant IS NULL OR t.variant NOT IN (%s)) AS is_unknown_variant%s", strings.Join(vs, ", "), commaIf(len(p.Rules) > 0))
@@ -853,10 +874,28 @@ func (pr *printer) indicator(mp *MetricPlan) string {
 	return fmt.Sprintf("CASE WHEN u.%s THEN %s END", mp.Mature, pr.d.OneZero("u."+pr.id(mp.Value.Col)+" > "+strconv.FormatFloat(mp.M.Above, 'g', -1, 64)))
 }
 
-func (pr *printer) main() (string, error) {
+// Groupings a main query returns: every grouping (GROUPING SETS), the
+// overall rows only, or (a GroupBy index) one breakdown only.
+const (
+	allGroupings = -2
+	overallOnly  = -1
+)
+
+// main prints a main query returning grouping (allGroupings, overallOnly
+// or the index of one breakdown).
+func (pr *printer) main(grouping int) (string, error) {
 	p := pr.p
 	pr.b.Reset()
-	pr.header("per-variant statistics")
+	switch {
+	case grouping >= 0:
+		pr.header("per-variant statistics by " + p.GroupBy[grouping].Label())
+		pr.line(0, "-- This engine has no GROUPING SETS: each breakdown is a query of its own, with the same columns.")
+	case grouping == overallOnly && len(p.GroupBy) > 0:
+		pr.header("per-variant statistics (overall)")
+		pr.line(0, "-- This engine has no GROUPING SETS: each breakdown is a query of its own, with the same columns.")
+	default:
+		pr.header("per-variant statistics")
+	}
 	if pr.stage != nil {
 		pr.line(0, "-- Reads the cohort table of the setup statement.")
 		pr.line(0, "WITH")
@@ -867,8 +906,8 @@ func (pr *printer) main() (string, error) {
 	pr.eligible()
 	pr.passes()
 	var segKeys []GroupKey
-	for _, g := range p.GroupBy {
-		if !g.Day {
+	for i, g := range p.GroupBy {
+		if !g.Day && (grouping == allGroupings || grouping == i) {
 			segKeys = append(segKeys, g)
 		}
 	}
@@ -920,7 +959,7 @@ func (pr *printer) main() (string, error) {
 		for i, g := range segKeys {
 			col := "u." + pr.id(g.Name)
 			alias := fmt.Sprintf("k%d", i+1)
-			pr.line(2, "CASE WHEN %s IS NULL THEN %s WHEN %s.value_rank <= %d THEN %s.value ELSE %s END AS %s%s", col, pr.d.String("(null)"), alias, g.Segment.TopK, alias, pr.d.String("(other)"), pr.id("key_"+g.Name), commaIf(i < len(segKeys)-1))
+			pr.line(2, "CASE WHEN %s IS NULL THEN %s WHEN %s.value_rank <= %d THEN %s.value ELSE %s END AS %s%s", col, pr.d.Literal("(null)"), alias, g.Segment.TopK, alias, pr.d.Literal("(other)"), pr.id("key_"+g.Name), commaIf(i < len(segKeys)-1))
 		}
 		pr.line(1, "FROM unit_values AS u")
 		for i, g := range segKeys {
@@ -969,10 +1008,10 @@ func (pr *printer) main() (string, error) {
 		for i, v := range p.Variants {
 			cum += p.Weights[i]
 			if i == len(p.Variants)-1 {
-				fmt.Fprintf(&b, " ELSE %s END", pr.d.String(v))
+				fmt.Fprintf(&b, " ELSE %s END", pr.d.Literal(v))
 				break
 			}
-			fmt.Fprintf(&b, " WHEN %s < %s THEN %s", h, strconv.FormatFloat(cum, 'g', -1, 64), pr.d.String(v))
+			fmt.Fprintf(&b, " WHEN %s < %s THEN %s", h, strconv.FormatFloat(cum, 'g', -1, 64), pr.d.Literal(v))
 		}
 		variantExpr = b.String()
 		keys = []string{"z.split", variantExpr}
@@ -992,9 +1031,9 @@ func (pr *printer) main() (string, error) {
 		for _, c := range p.Columns {
 			switch c.Role {
 			case RoleSpecFingerprint:
-				pr.line(1, "%s AS %s,", pr.d.String(p.Spec.Fingerprint), pr.id(c.Name))
+				pr.line(1, "%s AS %s,", pr.d.Literal(p.Spec.Fingerprint), pr.id(c.Name))
 			case RoleOptions:
-				pr.line(1, "%s AS %s,", pr.d.String(p.Options.Text()), pr.id(c.Name))
+				pr.line(1, "%s AS %s,", pr.d.Literal(p.Options.Text()), pr.id(c.Name))
 			case RoleSplit:
 				pr.line(1, "-- Calibration: each eligible unit is re-assigned at random in each of %d splits (salt %d), with the planned weights.", p.Splits, p.Salt)
 				pr.line(1, "z.split AS %s,", pr.id(c.Name))
@@ -1036,28 +1075,7 @@ func (pr *printer) main() (string, error) {
 		order = append(order, pr.id(g.Name))
 	}
 	switch {
-	case len(p.GroupBy) == 0:
-		pr.line(0, "SELECT")
-		selectList("")
-		pr.line(0, "GROUP BY %s", strings.Join(keys, ", "))
-	case pr.unionGroupings():
-		// No GROUPING SETS on this engine: one SELECT per grouping over the
-		// same CTEs, stacked.
-		for i := -1; i < len(p.GroupBy); i++ {
-			only, ks := "", keys
-			if i >= 0 {
-				g := p.GroupBy[i]
-				only, ks = g.Name, append(append([]string{}, keys...), groupExpr[g.Name])
-				pr.line(0, "UNION ALL")
-				pr.line(0, "-- Broken down by %s.", oneLine(g.Label()))
-			} else {
-				pr.line(0, "-- Overall.")
-			}
-			pr.line(0, "SELECT")
-			selectList(only)
-			pr.line(0, "GROUP BY %s", strings.Join(ks, ", "))
-		}
-	default:
+	case grouping == allGroupings && len(p.GroupBy) > 0:
 		pr.line(0, "-- The overall rows and one set of rows per breakdown, from one pass over the units: in each")
 		pr.line(0, "-- grouping the keys it does not use are NULL.")
 		pr.line(0, "SELECT")
@@ -1067,16 +1085,18 @@ func (pr *printer) main() (string, error) {
 			sets = append(sets, "("+strings.Join(append(append([]string{}, keys...), groupExpr[g.Name]), ", ")+")")
 		}
 		pr.line(0, "GROUP BY GROUPING SETS (%s)", strings.Join(sets, ", "))
+	case grouping >= 0:
+		g := p.GroupBy[grouping]
+		pr.line(0, "SELECT")
+		selectList(g.Name)
+		pr.line(0, "GROUP BY %s", strings.Join(append(append([]string{}, keys...), groupExpr[g.Name]), ", "))
+	default:
+		pr.line(0, "SELECT")
+		selectList("")
+		pr.line(0, "GROUP BY %s", strings.Join(keys, ", "))
 	}
 	pr.line(0, "ORDER BY %s", strings.Join(order, ", "))
 	return pr.b.String(), pr.err
-}
-
-// unionGroupings reports whether breakdowns are printed as a UNION ALL of
-// one grouped SELECT per grouping (engines without GROUPING SETS).
-func (pr *printer) unionGroupings() bool {
-	_, ok := pr.d.(dialects.NoGroupingSets)
-	return ok
 }
 
 // metricStats prints the statistics columns of mp, in the order of
@@ -1234,7 +1254,7 @@ func (pr *printer) health() (string, error) {
 			pr.line(1, "UNION ALL")
 		}
 		first = false
-		pr.line(1, "SELECT %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s", pr.d.String(string(kind)), HColKind, reason, HColReason, source, HColSource, variant, HColVariant, day, HColDay, rows, HColRows, units, HColUnits)
+		pr.line(1, "SELECT %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s", pr.d.Literal(string(kind)), HColKind, reason, HColReason, source, HColSource, variant, HColVariant, day, HColDay, rows, HColRows, units, HColUnits)
 		pr.line(1, "FROM %s", from)
 		if where != "" {
 			pr.line(1, "WHERE %s", where)
@@ -1243,7 +1263,7 @@ func (pr *printer) health() (string, error) {
 			pr.line(1, "GROUP BY %s", group)
 		}
 	}
-	q := pr.d.String
+	q := pr.d.Literal
 	day := pr.d.Day("ts_us", p.TZ)
 	sel(HealthExposures, "NULL", "NULL", "variant", day, "count(*)", "count(DISTINCT unit_id)", "exposure_rows", "", "variant, "+day)
 	sel(HealthTriggers, "NULL", "NULL", "variant", "trigger_day", "count(*)", "count(*)", "cohort", "", "variant, trigger_day")

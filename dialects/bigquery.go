@@ -35,7 +35,7 @@ func (BigQuery) Ident(name string) string {
 
 // String implements Dialect: backslash escapes; quoted strings cannot hold
 // a raw newline.
-func (BigQuery) String(s string) string { return escapeBackslash(s, `\'`) }
+func (BigQuery) Literal(s string) string { return escapeBackslash(s, `\'`) }
 
 // Table implements Dialect: project.dataset.table, each part quoted.
 func (d BigQuery) Table(parts []string) string { return joinParts(parts, d.Ident) }
@@ -48,7 +48,7 @@ func (d BigQuery) Micros(x, tz string) string {
 	if isUTC(tz) {
 		return "UNIX_MICROS(CAST(" + x + " AS TIMESTAMP))"
 	}
-	return "UNIX_MICROS(TIMESTAMP(" + x + ", " + d.String(tz) + "))"
+	return "UNIX_MICROS(TIMESTAMP(" + x + ", " + d.Literal(tz) + "))"
 }
 
 // Day implements Dialect.
@@ -56,7 +56,7 @@ func (d BigQuery) Day(us, tz string) string {
 	if isUTC(tz) {
 		return "DATE(TIMESTAMP_MICROS(" + us + "))"
 	}
-	return "DATE(TIMESTAMP_MICROS(" + us + "), " + d.String(tz) + ")"
+	return "DATE(TIMESTAMP_MICROS(" + us + "), " + d.Literal(tz) + ")"
 }
 
 // Text implements Dialect.
@@ -97,7 +97,7 @@ func (BigQuery) OneZero(cond string) string { return "CASE WHEN " + cond + " THE
 func (d BigQuery) Expr(n expr.Node, col func(string) string) string {
 	return expr.Render(safeDivision(n, true), style{
 		d:   d,
-		col: col, str: d.String,
+		col: col, str: d.Literal,
 		fn: func(name string, args []string) string {
 			switch name {
 			case "power":

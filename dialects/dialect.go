@@ -21,8 +21,8 @@ type Dialect interface {
 	Name() string
 	// Ident quotes an identifier: DuckDB and PostgreSQL `"a""b"`.
 	Ident(name string) string
-	// String quotes a string literal: `'it''s'`.
-	String(s string) string
+	// Literal quotes a string literal: `'it''s'`.
+	Literal(s string) string
 	// Table renders a qualified table or view name from its dot-separated parts.
 	Table(parts []string) string
 	// File renders a table function reading a file, or an error when the
@@ -115,10 +115,13 @@ type Inliner interface {
 }
 
 // NoGroupingSets is implemented by dialects whose engine has no GROUP BY
-// GROUPING SETS (MySQL, MariaDB): the compiler stacks one grouped SELECT per
-// breakdown with UNION ALL over the same CTEs instead.
+// GROUPING SETS (MySQL, MariaDB): the compiler prints one query per
+// breakdown beside the overall one (compiler.Queries.Breakdowns). A UNION
+// ALL of the groupings in one statement was tried first: MariaDB computes
+// every CTE again for each reference, and the demo with two segments did
+// not finish in ten minutes.
 type NoGroupingSets interface {
-	UnionGroupings()
+	SeparateGroupings()
 }
 
 // Stager is implemented by dialects whose engine keeps a temporary table

@@ -24,7 +24,7 @@ func (DuckDB) Ident(name string) string { return `"` + strings.ReplaceAll(name, 
 
 // String implements Dialect: single quotes, embedded quotes doubled.
 // DuckDB does not treat backslashes in string literals as escapes.
-func (DuckDB) String(s string) string { return "'" + strings.ReplaceAll(s, "'", "''") + "'" }
+func (DuckDB) Literal(s string) string { return "'" + strings.ReplaceAll(s, "'", "''") + "'" }
 
 // Table implements Dialect.
 func (d DuckDB) Table(parts []string) string {
@@ -41,11 +41,11 @@ func (d DuckDB) File(path string) (string, error) {
 	lower := strings.ToLower(path)
 	switch {
 	case strings.HasSuffix(lower, ".parquet"):
-		return "read_parquet(" + d.String(path) + ")", nil
+		return "read_parquet(" + d.Literal(path) + ")", nil
 	case strings.HasSuffix(lower, ".csv"), strings.HasSuffix(lower, ".tsv"):
-		return "read_csv(" + d.String(path) + ")", nil
+		return "read_csv(" + d.Literal(path) + ")", nil
 	case strings.HasSuffix(lower, ".json"):
-		return "read_json(" + d.String(path) + ")", nil
+		return "read_json(" + d.Literal(path) + ")", nil
 	}
 	return "", fmt.Errorf("cannot tell the format of file %q", path)
 }
@@ -60,7 +60,7 @@ func (d DuckDB) Micros(x, tz string) string {
 	if tz == "" || tz == "UTC" {
 		return "epoch_us(" + x + ")"
 	}
-	return "CASE WHEN typeof(" + x + ") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(" + x + ") ELSE epoch_us(timezone(" + d.String(tz) + ", " + x + ")) END"
+	return "CASE WHEN typeof(" + x + ") = 'TIMESTAMP WITH TIME ZONE' THEN epoch_us(" + x + ") ELSE epoch_us(timezone(" + d.Literal(tz) + ", " + x + ")) END"
 }
 
 // Day implements Dialect.
@@ -68,7 +68,7 @@ func (d DuckDB) Day(us, tz string) string {
 	if tz == "" || tz == "UTC" {
 		return "CAST(make_timestamp(" + us + ") AS DATE)"
 	}
-	return "CAST(timezone(" + d.String(tz) + ", timezone('UTC', make_timestamp(" + us + "))) AS DATE)"
+	return "CAST(timezone(" + d.Literal(tz) + ", timezone('UTC', make_timestamp(" + us + "))) AS DATE)"
 }
 
 // Text implements Dialect.
@@ -142,7 +142,7 @@ type duckStyle struct {
 }
 
 func (s duckStyle) Column(name string) string { return s.col(name) }
-func (s duckStyle) String(v string) string    { return s.d.String(v) }
+func (s duckStyle) String(v string) string    { return s.d.Literal(v) }
 
 // Local implements expr.LocalStyle.
 func (s duckStyle) Local(f *expr.Func, x string) string { return localCall(s.d, f, x) }

@@ -40,7 +40,7 @@ func (MySQL) Ident(name string) string { return quoteWith(name, '`') }
 
 // String implements Dialect: backslash escapes (MySQL reads them unless
 // sql_mode has NO_BACKSLASH_ESCAPES), quotes doubled.
-func (MySQL) String(s string) string { return escapeBackslash(s, "''") }
+func (MySQL) Literal(s string) string { return escapeBackslash(s, "''") }
 
 // Table implements Dialect: database.table.
 func (d MySQL) Table(parts []string) string { return joinParts(parts, d.Ident) }
@@ -55,7 +55,7 @@ const mysqlEpoch = "TIMESTAMP '1970-01-01 00:00:00'"
 // the executor sets to UTC.
 func (d MySQL) Micros(x, tz string) string {
 	if !isUTC(tz) {
-		x = "CONVERT_TZ(" + x + ", " + d.String(tz) + ", '+00:00')"
+		x = "CONVERT_TZ(" + x + ", " + d.Literal(tz) + ", '+00:00')"
 	}
 	return "TIMESTAMPDIFF(MICROSECOND, " + mysqlEpoch + ", " + x + ")"
 }
@@ -64,7 +64,7 @@ func (d MySQL) Micros(x, tz string) string {
 func (d MySQL) Day(us, tz string) string {
 	ts := "TIMESTAMPADD(MICROSECOND, " + us + ", " + mysqlEpoch + ")"
 	if !isUTC(tz) {
-		ts = "CONVERT_TZ(" + ts + ", '+00:00', " + d.String(tz) + ")"
+		ts = "CONVERT_TZ(" + ts + ", '+00:00', " + d.Literal(tz) + ")"
 	}
 	return "DATE(" + ts + ")"
 }
@@ -113,7 +113,7 @@ func (d MySQL) Expr(n expr.Node, col func(string) string) string {
 	return expr.Render(safeDivision(n, false), style{
 		d:   d,
 		col: col,
-		str: func(s string) string { return "_utf8mb4" + d.String(s) + " COLLATE utf8mb4_bin" },
+		str: func(s string) string { return "_utf8mb4" + d.Literal(s) + " COLLATE utf8mb4_bin" },
 		fn: func(name string, args []string) string {
 			switch name {
 			case "length":
@@ -144,6 +144,6 @@ func (d MySQL) Expr(n expr.Node, col func(string) string) string {
 	})
 }
 
-// UnionGroupings implements NoGroupingSets: MySQL and MariaDB have ROLLUP
-// but not GROUPING SETS.
-func (MySQL) UnionGroupings() {}
+// SeparateGroupings implements NoGroupingSets: MySQL and MariaDB have
+// ROLLUP but not GROUPING SETS.
+func (MySQL) SeparateGroupings() {}

@@ -28,7 +28,7 @@ func (Postgres) Ident(name string) string { return quoteWith(name, '"') }
 // String implements Dialect: single quotes, embedded quotes doubled.
 // Backslash is an ordinary character with standard_conforming_strings on,
 // the default since PostgreSQL 9.1 (assay's executor sets it).
-func (Postgres) String(s string) string { return "'" + strings.ReplaceAll(s, "'", "''") + "'" }
+func (Postgres) Literal(s string) string { return "'" + strings.ReplaceAll(s, "'", "''") + "'" }
 
 // Table implements Dialect.
 func (d Postgres) Table(parts []string) string { return joinParts(parts, d.Ident) }
@@ -48,7 +48,7 @@ func (d Postgres) Micros(x, tz string) string {
 		return epoch(x)
 	}
 	return "CASE WHEN pg_typeof(" + x + ") = 'timestamp with time zone'::regtype THEN " + epoch(x) +
-		" ELSE " + epoch(x+" AT TIME ZONE "+d.String(tz)) + " END"
+		" ELSE " + epoch(x+" AT TIME ZONE "+d.Literal(tz)) + " END"
 }
 
 // Day implements Dialect with exact interval arithmetic from the epoch.
@@ -57,7 +57,7 @@ func (d Postgres) Day(us, tz string) string {
 	if isUTC(tz) {
 		return "CAST(" + ts + " AS DATE)"
 	}
-	return "CAST((" + ts + ") AT TIME ZONE 'UTC' AT TIME ZONE " + d.String(tz) + " AS DATE)"
+	return "CAST((" + ts + ") AT TIME ZONE 'UTC' AT TIME ZONE " + d.Literal(tz) + " AS DATE)"
 }
 
 // Text implements Dialect.
@@ -90,7 +90,7 @@ func (Postgres) OneZero(cond string) string { return "CASE WHEN " + cond + " THE
 func (d Postgres) Expr(n expr.Node, col func(string) string) string {
 	return expr.Render(safeDivision(n, false), style{
 		d:   d,
-		col: col, str: d.String,
+		col: col, str: d.Literal,
 		fn: func(name string, args []string) string {
 			switch name {
 			case "length":

@@ -29,7 +29,7 @@ func (Redshift) Ident(name string) string { return quoteWith(name, '"') }
 
 // String implements Dialect: backslash is an escape character in Redshift
 // literals, so it is escaped as well.
-func (Redshift) String(s string) string { return escapeBackslash(s, "''") }
+func (Redshift) Literal(s string) string { return escapeBackslash(s, "''") }
 
 // Table implements Dialect: database.schema.table.
 func (d Redshift) Table(parts []string) string { return joinParts(parts, d.Ident) }
@@ -41,7 +41,7 @@ func (Redshift) File(path string) (string, error) { return "", noFiles("redshift
 // TIMESTAMP as wall-clock time in the source zone.
 func (d Redshift) Micros(x, tz string) string {
 	if !isUTC(tz) {
-		x = "CONVERT_TIMEZONE(" + d.String(tz) + ", 'UTC', " + x + ")"
+		x = "CONVERT_TIMEZONE(" + d.Literal(tz) + ", 'UTC', " + x + ")"
 	}
 	return "DATEDIFF(microsecond, TIMESTAMP '1970-01-01 00:00:00', " + x + ")"
 }
@@ -51,7 +51,7 @@ func (d Redshift) Micros(x, tz string) string {
 func (d Redshift) Day(us, tz string) string {
 	ts := "TIMESTAMP '1970-01-01 00:00:00' + (" + us + " / 1000000) * INTERVAL '1 second'"
 	if !isUTC(tz) {
-		ts = "CONVERT_TIMEZONE('UTC', " + d.String(tz) + ", " + ts + ")"
+		ts = "CONVERT_TIMEZONE('UTC', " + d.Literal(tz) + ", " + ts + ")"
 	}
 	return "CAST(" + ts + " AS DATE)"
 }
@@ -90,7 +90,7 @@ func (d Redshift) OneZero(cond string) string {
 func (d Redshift) Expr(n expr.Node, col func(string) string) string {
 	return expr.Render(safeDivision(n, false), style{
 		d:   d,
-		col: col, str: d.String,
+		col: col, str: d.Literal,
 		fn: func(name string, args []string) string {
 			switch name {
 			case "concat":

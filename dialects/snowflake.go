@@ -29,7 +29,7 @@ func (Snowflake) Ident(name string) string { return quoteWith(name, '"') }
 
 // String implements Dialect: Snowflake reads backslash escapes in
 // single-quoted strings, so backslashes are escaped too.
-func (Snowflake) String(s string) string { return escapeBackslash(s, "''") }
+func (Snowflake) Literal(s string) string { return escapeBackslash(s, "''") }
 
 // Table implements Dialect: database.schema.table.
 func (d Snowflake) Table(parts []string) string { return joinParts(parts, d.Ident) }
@@ -41,7 +41,7 @@ func (Snowflake) File(path string) (string, error) { return "", noFiles("snowfla
 // TIMESTAMP_NTZ as wall-clock time in the source zone.
 func (d Snowflake) Micros(x, tz string) string {
 	if !isUTC(tz) {
-		x = "CONVERT_TIMEZONE(" + d.String(tz) + ", 'UTC', " + x + ")"
+		x = "CONVERT_TIMEZONE(" + d.Literal(tz) + ", 'UTC', " + x + ")"
 	}
 	return "DATE_PART(EPOCH_MICROSECOND, " + x + ")"
 }
@@ -50,7 +50,7 @@ func (d Snowflake) Micros(x, tz string) string {
 func (d Snowflake) Day(us, tz string) string {
 	ts := "TO_TIMESTAMP_NTZ(" + us + ", 6)"
 	if !isUTC(tz) {
-		ts = "CONVERT_TIMEZONE('UTC', " + d.String(tz) + ", " + ts + ")"
+		ts = "CONVERT_TIMEZONE('UTC', " + d.Literal(tz) + ", " + ts + ")"
 	}
 	return "CAST(" + ts + " AS DATE)"
 }
@@ -88,7 +88,7 @@ func (d Snowflake) OneZero(cond string) string {
 func (d Snowflake) Expr(n expr.Node, col func(string) string) string {
 	return expr.Render(safeDivision(n, false), style{
 		d:   d,
-		col: col, str: d.String,
+		col: col, str: d.Literal,
 		fn: func(name string, args []string) string { return call(strings.ToUpper(name), args) },
 		cast: func(x string, to expr.Type) string {
 			t := map[expr.Type]string{expr.TypeDouble: "DOUBLE", expr.TypeBigInt: "BIGINT", expr.TypeVarchar: "VARCHAR",

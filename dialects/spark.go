@@ -26,7 +26,7 @@ func (Spark) Ident(name string) string { return quoteWith(name, '`') }
 // String implements Dialect: Spark reads backslash escapes, and two
 // adjacent literals 'a' 'b' concatenate, so a quote is escaped with a
 // backslash rather than doubled.
-func (Spark) String(s string) string { return escapeBackslash(s, `\'`) }
+func (Spark) Literal(s string) string { return escapeBackslash(s, `\'`) }
 
 // Table implements Dialect: catalog.schema.table.
 func (d Spark) Table(parts []string) string { return joinParts(parts, d.Ident) }
@@ -38,7 +38,7 @@ func (Spark) File(path string) (string, error) { return "", noFiles("spark", pat
 // the zone.
 func (d Spark) Micros(x, tz string) string {
 	if !isUTC(tz) {
-		x = "to_utc_timestamp(" + x + ", " + d.String(tz) + ")"
+		x = "to_utc_timestamp(" + x + ", " + d.Literal(tz) + ")"
 	}
 	return "unix_micros(" + x + ")"
 }
@@ -47,7 +47,7 @@ func (d Spark) Micros(x, tz string) string {
 func (d Spark) Day(us, tz string) string {
 	ts := "timestamp_micros(" + us + ")"
 	if !isUTC(tz) {
-		ts = "from_utc_timestamp(" + ts + ", " + d.String(tz) + ")"
+		ts = "from_utc_timestamp(" + ts + ", " + d.Literal(tz) + ")"
 	}
 	return "CAST(" + ts + " AS DATE)"
 }
@@ -85,7 +85,7 @@ func (d Spark) OneZero(cond string) string {
 func (d Spark) Expr(n expr.Node, col func(string) string) string {
 	return expr.Render(safeDivision(n, false), style{
 		d:   d,
-		col: col, str: d.String,
+		col: col, str: d.Literal,
 		fn: func(name string, args []string) string {
 			if name == "length" {
 				return call("char_length", args)

@@ -84,7 +84,7 @@ func pgLayout(f timefmt.Format, frac string) string {
 func (d DuckDB) Local(us, tz, part string) string {
 	l := "make_timestamp(" + us + ")"
 	if !isUTC(tz) {
-		l = "timezone(" + d.String(tz) + ", timezone('UTC', " + l + "))"
+		l = "timezone(" + d.Literal(tz) + ", timezone('UTC', " + l + "))"
 	}
 	switch part {
 	case PartWeek:
@@ -104,9 +104,9 @@ func (d DuckDB) Local(us, tz, part string) string {
 func (d DuckDB) StoredMicros(x string, f timefmt.Format, tz string) string {
 	if f.Kind == timefmt.Text {
 		// strptime gives a TIMESTAMP (no zone): wall-clock time in tz.
-		p := "CASE WHEN typeof(" + x + ") = 'VARCHAR' THEN strptime(CAST(" + x + " AS VARCHAR), " + d.String(strftimeLayout(f, "%M", "%S", "%S.%f")) + ") ELSE CAST(" + x + " AS TIMESTAMP) END"
+		p := "CASE WHEN typeof(" + x + ") = 'VARCHAR' THEN strptime(CAST(" + x + " AS VARCHAR), " + d.Literal(strftimeLayout(f, "%M", "%S", "%S.%f")) + ") ELSE CAST(" + x + " AS TIMESTAMP) END"
 		if !isUTC(tz) {
-			p = "timezone(" + d.String(tz) + ", " + p + ")"
+			p = "timezone(" + d.Literal(tz) + ", " + p + ")"
 		}
 		return "epoch_us(" + p + ")"
 	}
@@ -126,7 +126,7 @@ func pgLocal(us, tz string, str func(string) string) string {
 // Local implements Dialect: PostgreSQL `CAST(EXTRACT(ISODOW FROM l) AS
 // INTEGER)` for the weekday, where l is the local timestamp.
 func (d Postgres) Local(us, tz, part string) string {
-	return pgParts(pgLocal(us, tz, d.String), part, "EXTRACT(ISODOW FROM ")
+	return pgParts(pgLocal(us, tz, d.Literal), part, "EXTRACT(ISODOW FROM ")
 }
 
 func pgParts(l, part, isodow string) string {
@@ -146,9 +146,9 @@ func pgParts(l, part, isodow string) string {
 // without time zone recovers the wall-clock fields read.
 func (d Postgres) StoredMicros(x string, f timefmt.Format, tz string) string {
 	if f.Kind == timefmt.Text {
-		p := "CAST(to_timestamp(" + x + ", " + d.String(pgLayout(f, "US")) + ") AS TIMESTAMP)"
+		p := "CAST(to_timestamp(" + x + ", " + d.Literal(pgLayout(f, "US")) + ") AS TIMESTAMP)"
 		if !isUTC(tz) {
-			p += " AT TIME ZONE " + d.String(tz)
+			p += " AT TIME ZONE " + d.Literal(tz)
 		}
 		return "CAST(EXTRACT(EPOCH FROM " + p + ") * 1000000 AS BIGINT)"
 	}
@@ -162,7 +162,7 @@ func (d Postgres) StoredMicros(x string, f timefmt.Format, tz string) string {
 func (d Redshift) Local(us, tz, part string) string {
 	l := "TIMESTAMP '1970-01-01 00:00:00' + (" + us + " / 1000000) * INTERVAL '1 second'"
 	if !isUTC(tz) {
-		l = "CONVERT_TIMEZONE('UTC', " + d.String(tz) + ", " + l + ")"
+		l = "CONVERT_TIMEZONE('UTC', " + d.Literal(tz) + ", " + l + ")"
 	} else {
 		l = "(" + l + ")"
 	}
@@ -175,7 +175,7 @@ func (d Redshift) Local(us, tz, part string) string {
 // StoredMicros implements Dialect, as PostgreSQL.
 func (d Redshift) StoredMicros(x string, f timefmt.Format, tz string) string {
 	if f.Kind == timefmt.Text {
-		return d.Micros("CAST(TO_TIMESTAMP("+x+", "+d.String(pgLayout(f, "US"))+") AS TIMESTAMP)", tz)
+		return d.Micros("CAST(TO_TIMESTAMP("+x+", "+d.Literal(pgLayout(f, "US"))+") AS TIMESTAMP)", tz)
 	}
 	return epochMicros(x, f, "DOUBLE PRECISION", "BIGINT")
 }
@@ -186,7 +186,7 @@ func (d Redshift) StoredMicros(x string, f timefmt.Format, tz string) string {
 func (d MySQL) Local(us, tz, part string) string {
 	l := "TIMESTAMPADD(MICROSECOND, " + us + ", " + mysqlEpoch + ")"
 	if !isUTC(tz) {
-		l = "CONVERT_TZ(" + l + ", '+00:00', " + d.String(tz) + ")"
+		l = "CONVERT_TZ(" + l + ", '+00:00', " + d.Literal(tz) + ")"
 	}
 	switch part {
 	case PartWeek:
@@ -203,7 +203,7 @@ func (d MySQL) Local(us, tz, part string) string {
 // and seconds %s.
 func (d MySQL) StoredMicros(x string, f timefmt.Format, tz string) string {
 	if f.Kind == timefmt.Text {
-		return d.Micros("STR_TO_DATE("+x+", "+d.String(strftimeLayout(f, "%i", "%s", "%s.%f"))+")", tz)
+		return d.Micros("STR_TO_DATE("+x+", "+d.Literal(strftimeLayout(f, "%i", "%s", "%s.%f"))+")", tz)
 	}
 	return epochMicros(x, f, "DOUBLE", "SIGNED")
 }
@@ -217,7 +217,7 @@ func (d BigQuery) Local(us, tz, part string) string {
 		tz = "UTC"
 	}
 	t := "TIMESTAMP_MICROS(" + us + ")"
-	z := d.String(tz)
+	z := d.Literal(tz)
 	switch part {
 	case PartWeek:
 		return "DATE_TRUNC(DATE(" + t + ", " + z + "), ISOWEEK)"
@@ -233,7 +233,7 @@ func (d BigQuery) Local(us, tz, part string) string {
 // six fraction digits).
 func (d BigQuery) StoredMicros(x string, f timefmt.Format, tz string) string {
 	if f.Kind == timefmt.Text {
-		return d.Micros("PARSE_DATETIME("+d.String(strftimeLayout(f, "%M", "%S", "%E6S"))+", "+x+")", tz)
+		return d.Micros("PARSE_DATETIME("+d.Literal(strftimeLayout(f, "%M", "%S", "%E6S"))+", "+x+")", tz)
 	}
 	return epochMicros(x, f, "FLOAT64", "INT64")
 }
@@ -246,7 +246,7 @@ func (d BigQuery) StoredMicros(x string, f timefmt.Format, tz string) string {
 func (d Snowflake) Local(us, tz, part string) string {
 	l := "TO_TIMESTAMP_NTZ(" + us + ", 6)"
 	if !isUTC(tz) {
-		l = "CONVERT_TIMEZONE('UTC', " + d.String(tz) + ", " + l + ")"
+		l = "CONVERT_TIMEZONE('UTC', " + d.Literal(tz) + ", " + l + ")"
 	}
 	switch part {
 	case PartWeek:
@@ -262,7 +262,7 @@ func (d Snowflake) Local(us, tz, part string) string {
 // StoredMicros implements Dialect with TO_TIMESTAMP_NTZ.
 func (d Snowflake) StoredMicros(x string, f timefmt.Format, tz string) string {
 	if f.Kind == timefmt.Text {
-		return d.Micros("TO_TIMESTAMP_NTZ("+x+", "+d.String(pgLayout(f, "FF6"))+")", tz)
+		return d.Micros("TO_TIMESTAMP_NTZ("+x+", "+d.Literal(pgLayout(f, "FF6"))+")", tz)
 	}
 	return epochMicros(x, f, "DOUBLE", "BIGINT")
 }
@@ -275,7 +275,7 @@ func (d Trino) Local(us, tz, part string) string {
 	if isUTC(tz) {
 		tz = "UTC"
 	}
-	l := "(from_unixtime_nanos(" + us + " * 1000) AT TIME ZONE " + d.String(tz) + ")"
+	l := "(from_unixtime_nanos(" + us + " * 1000) AT TIME ZONE " + d.Literal(tz) + ")"
 	switch part {
 	case PartWeek:
 		return "CAST(date_trunc('week', " + l + ") AS DATE)"
@@ -291,7 +291,7 @@ func (d Trino) Local(us, tz, part string) string {
 // the result has millisecond precision).
 func (d Trino) StoredMicros(x string, f timefmt.Format, tz string) string {
 	if f.Kind == timefmt.Text {
-		return d.Micros("date_parse("+x+", "+d.String(strftimeLayout(f, "%i", "%s", "%s.%f"))+")", tz)
+		return d.Micros("date_parse("+x+", "+d.Literal(strftimeLayout(f, "%i", "%s", "%s.%f"))+")", tz)
 	}
 	return epochMicros(x, f, "DOUBLE", "BIGINT")
 }
@@ -303,7 +303,7 @@ func (d Trino) StoredMicros(x string, f timefmt.Format, tz string) string {
 func (d Spark) Local(us, tz, part string) string {
 	l := "timestamp_micros(" + us + ")"
 	if !isUTC(tz) {
-		l = "from_utc_timestamp(" + l + ", " + d.String(tz) + ")"
+		l = "from_utc_timestamp(" + l + ", " + d.Literal(tz) + ")"
 	}
 	switch part {
 	case PartWeek:
@@ -323,7 +323,7 @@ func (d Spark) StoredMicros(x string, f timefmt.Format, tz string) string {
 		layout := f.Render(func(v byte) string {
 			return map[byte]string{'Y': "yyyy", 'm': "MM", 'd': "dd", 'H': "HH", 'M': "mm", 'S': "ss", 'F': "ss.SSSSSS"}[v]
 		}, func(s string) string { return strings.ReplaceAll(s, "T", "'T'") })
-		return d.Micros("to_timestamp("+x+", "+d.String(layout)+")", tz)
+		return d.Micros("to_timestamp("+x+", "+d.Literal(layout)+")", tz)
 	}
 	return epochMicros(x, f, "DOUBLE", "BIGINT")
 }

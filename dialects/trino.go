@@ -26,7 +26,7 @@ func (Trino) Name() string { return "trino" }
 func (Trino) Ident(name string) string { return quoteWith(name, '"') }
 
 // String implements Dialect: single quotes doubled; no backslash escapes.
-func (Trino) String(s string) string { return Postgres{}.String(s) }
+func (Trino) Literal(s string) string { return Postgres{}.Literal(s) }
 
 // Table implements Dialect: catalog.schema.table.
 func (d Trino) Table(parts []string) string { return joinParts(parts, d.Ident) }
@@ -42,7 +42,7 @@ func (d Trino) Micros(x, tz string) string {
 	if isUTC(tz) {
 		tz = "UTC"
 	}
-	return "CAST(to_unixtime(with_timezone(" + x + ", " + d.String(tz) + ")) * 1000000 AS BIGINT)"
+	return "CAST(to_unixtime(with_timezone(" + x + ", " + d.Literal(tz) + ")) * 1000000 AS BIGINT)"
 }
 
 // Day implements Dialect.
@@ -50,7 +50,7 @@ func (d Trino) Day(us, tz string) string {
 	if isUTC(tz) {
 		tz = "UTC"
 	}
-	return "CAST(from_unixtime_nanos(" + us + " * 1000) AT TIME ZONE " + d.String(tz) + " AS DATE)"
+	return "CAST(from_unixtime_nanos(" + us + " * 1000) AT TIME ZONE " + d.Literal(tz) + " AS DATE)"
 }
 
 // Text implements Dialect.
@@ -93,7 +93,7 @@ func (d Trino) OneZero(cond string) string {
 func (d Trino) Expr(n expr.Node, col func(string) string) string {
 	return expr.Render(safeDivision(n, false), style{
 		d:   d,
-		col: col, str: d.String,
+		col: col, str: d.Literal,
 		fn: func(name string, args []string) string {
 			if name == "concat" {
 				return concatOp(args)

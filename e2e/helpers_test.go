@@ -410,7 +410,8 @@ func assayBinary(t testing.TB) string {
 type num = *float64
 
 type report struct {
-	SchemaVersion int `json:"schema_version"`
+	SchemaVersion int      `json:"schema_version"`
+	Cautions      []string `json:"cautions"`
 	Experiment    struct {
 		TimeZone string `json:"time_zone"`
 		Variants []struct {

@@ -82,3 +82,58 @@ func TestUndeclaredVariantsNamedWithSuggestion(t *testing.T) {
 		t.Errorf("undeclared variants reported as crossovers:\n%s", out)
 	}
 }
+
+// TestEmptyOutcomeSourceReadAsZeros: an outcome source whose file has only
+// a header is analysed as zeros, with a caution naming it, instead of a
+// warning that every metric will be zero followed by a refusal of the
+// file's column types.
+func TestEmptyOutcomeSourceReadAsZeros(t *testing.T) {
+	dir := t.TempDir()
+	start := ts("2026-03-02 00:00:00")
+	var expo, ev []row
+	for i, v := range []string{"control", "treatment", "control", "treatment"} {
+		id := "u" + string(rune('a'+i))
+		trig := start.Add(24 * 3600e9)
+		expo = append(expo, row{id, v, trig, "home"})
+		ev = append(ev, row{id, trig.Add(3600e9), float64(i + 1)})
+	}
+	writeParquet(t, dir, "exposures.parquet", exposureCols, expo)
+	writeParquet(t, dir, "events.parquet", eventCols, ev)
+	writeText(t, dir, "taps.csv", "unit_id,tapped_at\n")
+	extra := `
+[sources.taps]
+file = "taps.csv"
+unit = "unit_id"
+time = "tapped_at"
+columns = ["unit_id", "tapped_at"]
+`
+	metrics := metricSumW + `
+[metrics.taps]
+role = "secondary"
+kind = "count"
+source = "taps"
+window = ["0d", "14d"]
+`
+	spec := writeText(t, dir, "spec.toml", specParts{Extra: extra, Metrics: metrics}.toml())
+	code, out, errs := runCLI("run", "--format", "json", spec)
+	if code != 0 {
+		t.Fatalf("exit %d, want 0; stderr:\n%s", code, errs)
+	}
+	if !strings.Contains(errs, "taps.csv") {
+		t.Errorf("stderr does not name the empty file:\n%s", errs)
+	}
+	rep := decodeReport(t, []byte(out))
+	m := rep.metric(t, "taps")
+	for _, v := range []string{"control", "treatment"} {
+		if got := m.variant(t, v).Value; got != 0 {
+			t.Errorf("taps %s: got %v, want 0 (its source has no rows)", v, got)
+		}
+	}
+	found := false
+	for _, c := range rep.Cautions {
+		found = found || strings.Contains(c, "Source taps has no rows")
+	}
+	if !found {
+		t.Errorf("cautions do not name the empty source: %q", rep.Cautions)
+	}
+}

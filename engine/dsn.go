@@ -40,8 +40,8 @@ func DSNFromEnv() string {
 	return dsn
 }
 
-// Engine names the dialect a connection string's server speaks.
-func Engine(dsn string) (string, error) {
+// DialectOf names the dialect a connection string's server speaks.
+func DialectOf(dsn string) (string, error) {
 	rememberSecret(dsn)
 	if isKeyValue(dsn) {
 		return "postgres", nil
@@ -63,7 +63,7 @@ func Engine(dsn string) (string, error) {
 // returns the connection and the name of its dialect.
 func Open(ctx context.Context, dsn string) (*sql.DB, string, error) {
 	rememberSecret(dsn)
-	eng, err := Engine(dsn)
+	eng, err := DialectOf(dsn)
 	if err != nil {
 		return nil, "", err
 	}

@@ -20,12 +20,12 @@ func TestEngine(t *testing.T) {
 		"  user = u password='a b' host=h":   "postgres",
 		"dbname=shop host=/var/run/postgres": "postgres",
 	} {
-		if got, err := Engine(dsn); err != nil || got != want {
+		if got, err := DialectOf(dsn); err != nil || got != want {
 			t.Errorf("Engine(%q) = %q, %v; want %q", dsn, got, err, want)
 		}
 	}
 	for _, dsn := range []string{"sqlite://x", "u:hunter2@tcp(h)/db", "", "=x"} {
-		_, err := Engine(dsn)
+		_, err := DialectOf(dsn)
 		if err == nil {
 			t.Errorf("Engine(%q): no error", dsn)
 		} else if strings.Contains(err.Error(), "hunter2") {

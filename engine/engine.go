@@ -23,6 +23,15 @@ func Query(ctx context.Context, db *sql.DB, p *compiler.Plan, q compiler.Queries
 		if err != nil {
 			return err
 		}
+		// Engines without GROUPING SETS return each breakdown from a query
+		// of its own, with the same columns.
+		for _, b := range q.Breakdowns {
+			_, more, err := readAll(ctx, c, b)
+			if err != nil {
+				return err
+			}
+			rows = append(rows, more...)
+		}
 		if set, err = results.Main(p, cols, rows); err != nil {
 			return err
 		}

@@ -540,11 +540,11 @@ func (l *loader) experiment(t *table) {
 	if okS && okE && !s.End.After(s.Start) {
 		t.l.errAt(t.p("end"), CodeTime, "", "analysis end %s is not after start %s", s.End.UTC().Format(time.RFC3339), s.Start.UTC().Format(time.RFC3339))
 	}
-	s.Monitoring = t.enum("monitoring", false, "fixed", "fixed", "sequential")
+	s.Monitoring = Monitoring(t.enum("monitoring", false, string(MonitoringFixed), string(MonitoringFixed), string(MonitoringSequential)))
 	if n, ok := t.num("planned_units"); ok {
 		if n < 2 || n != math.Trunc(n) {
 			t.l.errAt(t.p("planned_units"), CodeValue, "the number of units you expect at the planned end, e.g. 20000", "planned_units must be a whole number of at least 2")
-		} else if s.Monitoring != "sequential" {
+		} else if s.Monitoring != MonitoringSequential {
 			t.l.errAt(t.p("planned_units"), CodeValue, "set monitoring = \"sequential\" to tune the always-valid intervals", "planned_units only applies to monitoring = \"sequential\"")
 		} else {
 			s.PlannedUnits = n
@@ -1070,7 +1070,7 @@ func (l *loader) metric(name string, t *table, ref refFunc) *Metric {
 		m.Value = l.aggFields(t, ref, AggFunc(fn))
 	}
 	if m.Role == Guard {
-		m.Harmful = t.enum("harmful", true, "", "increase", "decrease")
+		m.Harmful = Direction(t.enum("harmful", true, "", string(Increase), string(Decrease)))
 		if mg, ok := t.num("margin"); ok {
 			if mg < 0 || mg >= 1 {
 				l.errAt(t.p("margin"), CodeGuard, "a relative margin such as 0.02 tolerates a 2% change in the harmful direction", "margin must be in [0, 1), got %v", mg)

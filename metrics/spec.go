@@ -18,9 +18,9 @@ type Spec struct {
 	Unit       string // name of the randomisation unit, for reports
 	Start, End time.Time
 	Confidence float64
-	// Monitoring is "fixed" (read once, at the planned end) or "sequential"
-	// (always-valid intervals that allow looking at any time).
-	Monitoring   string
+	// Monitoring says how the results may be read: once at the planned end,
+	// or at any time with always-valid intervals.
+	Monitoring   Monitoring
 	PlannedUnits float64 // sequential: units the boundary is tuned for; 0 means the units analysed
 	TimeZone     *time.Location
 	TZName       string
@@ -106,6 +106,24 @@ type Rule struct {
 }
 
 // Role is what a metric is for in the decision.
+// Monitoring is how an experiment's results may be read.
+type Monitoring string
+
+// Monitoring modes.
+const (
+	MonitoringFixed      Monitoring = "fixed"      // read once, at the planned end
+	MonitoringSequential Monitoring = "sequential" // always-valid intervals, read at any time
+)
+
+// Direction is the direction of a change.
+type Direction string
+
+// Directions of harm for guard metrics.
+const (
+	Increase Direction = "increase"
+	Decrease Direction = "decrease"
+)
+
 type Role string
 
 // Roles.
@@ -164,10 +182,11 @@ type Metric struct {
 	// Covariate for CUPED, nil when the metric is not adjusted.
 	Covariate *Covariate
 	// Guard metrics.
-	Harmful string  // "increase" or "decrease"
-	Margin  float64 // tolerated relative change, e.g. 0.02
-	Label   string
-	At      Range
+	Harmful Direction // which direction of change is harm
+
+	Margin float64 // tolerated relative change, e.g. 0.02
+	Label  string
+	At     Range
 }
 
 // Aggs returns the metric's per-unit aggregates.

@@ -77,7 +77,7 @@ func Open(ctx context.Context, t Target) (*Engine, error) {
 	if t.DB != "" || t.Threads != 0 || t.MemoryLimit != "" {
 		return nil, inputf("--db, --threads and --memory-limit are for the embedded DuckDB; they cannot be combined with --dsn or ASSAY_DSN")
 	}
-	name, err := engine.Engine(t.DSN)
+	name, err := engine.DialectOf(t.DSN)
 	if err != nil {
 		return nil, inputError{err.Error()}
 	}

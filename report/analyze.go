@@ -656,7 +656,7 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 	m := mp.M
 	mi := MetricInfo{Name: m.Name, Label: m.Label, Role: string(m.Role), Kind: kindName(m), Window: [2]string{m.From.Text, m.To.Text}, Rule: mp.Rule, Comparisons: []Compare{}}
 	if m.Role == metrics.Guard {
-		mi.Harmful = m.Harmful
+		mi.Harmful = string(m.Harmful)
 		margin := m.Margin
 		mi.Margin = &margin
 	}
@@ -758,7 +758,7 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 					BaselineValue: Num(cc.Base.Value), BaselineStdError: Num(cc.Base.StdError), VariantValue: Num(cc.Treat.Value), VariantStdError: Num(cc.Treat.StdError)}
 			}
 		}
-		if p.Spec.Monitoring == "sequential" {
+		if p.Spec.Monitoring == metrics.MonitoringSequential {
 			// planned_units is the whole experiment's; each comparison is tuned
 			// to its own pair's share of it.
 			n := nOf(base) + nOf(row)
@@ -770,9 +770,9 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 			cmp.Sequential = &SeqInfo{CILow: Num(sq.CILow), CIHigh: Num(sq.CIHigh), PValue: Num(sq.PValue), Reason: sq.Reason}
 		}
 		if m.Role == metrics.Guard {
-			g := stats.Guard(c, m.Harmful, m.Margin, level)
+			g := stats.Guard(c, string(m.Harmful), m.Margin, level)
 			bound := g.Upper
-			if m.Harmful == "decrease" {
+			if m.Harmful == metrics.Decrease {
 				bound = g.Lower
 			}
 			cmp.Guard = &Guard{Verdict: string(g.Verdict), Alarming: g.Verdict.Alarming(), Level: level, Lower: Num(g.Lower), Upper: Num(g.Upper),
@@ -851,7 +851,7 @@ func cautions(p *compiler.Plan, r *Report) []string {
 		fmt.Sprintf("Only the primary metric is tested at the stated level; secondary and mechanism metrics, several treatment variants and segment results are many comparisons, so read their adjusted p-values (%s); guard metrics are judged by their verdicts, unadjusted.", adjustName(r.Adjustment)),
 		"Ratio, proportion and relative-lift intervals use large-sample normal approximations (delta method); they can be poor for small or very skewed samples.",
 	)
-	if p.Spec.Monitoring == "sequential" {
+	if p.Spec.Monitoring == metrics.MonitoringSequential {
 		c = append(c, "Monitoring is sequential: the always-valid intervals and p-values (\"sequential\") stay valid however often you look and whenever you stop; the fixed-horizon ones beside them are valid only if read once at a duration fixed in advance.")
 	} else if p.AsOfUS < p.Spec.End.UnixMicro() {
 		c = append(c, "This is an interim look (as-of before the planned end) at a fixed-horizon design: stopping early because a p-value crossed the threshold inflates false positives; wait for the planned end or declare monitoring = \"sequential\".")

@@ -683,8 +683,13 @@ func (b *htmlBuilder) sqlSection(q compiler.Queries, dialect string) *html.Secti
 	stmts := []struct{ name, caption, text string }{
 		{"setup", "Setup: the cohort table", q.Setup},
 		{"main", "Per-variant statistics (the numbers of every metric table)", q.Main},
-		{"health", "Health counts (exposures, triggers, exclusions)", q.Health},
 	}
+	for i, bq := range q.Breakdowns {
+		// Dialects without GROUPING SETS: one query per breakdown, with the
+		// same columns as the main query (whose anchors the tables use).
+		stmts = append(stmts, struct{ name, caption, text string }{fmt.Sprintf("breakdown%d", i+1), fmt.Sprintf("Breakdown query %d (same columns as the per-variant query)", i+1), bq})
+	}
+	stmts = append(stmts, struct{ name, caption, text string }{"health", "Health counts (exposures, triggers, exclusions)", q.Health})
 	for _, st := range stmts {
 		if st.text == "" {
 			continue

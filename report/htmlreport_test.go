@@ -203,3 +203,31 @@ func TestHTMLWithoutSQL(t *testing.T) {
 		t.Error("the cumulative section does not say how to get it")
 	}
 }
+
+// TestHTMLEveryDialect embeds the SQL of every dialect: the page renders
+// (unique anchors, no link without a target), and the per-variant values
+// link to their result columns wherever the dialect quotes them.
+func TestHTMLEveryDialect(t *testing.T) {
+	rep, p, _, _ := dayReport(t)
+	for _, name := range dialects.Names() {
+		t.Run(name, func(t *testing.T) {
+			d, err := dialects.Lookup(name)
+			if err != nil {
+				t.Fatal(err)
+			}
+			q, err := compiler.Print(p, d)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var buf bytes.Buffer
+			if err := rep.HTML(&buf, p, q, name); err != nil {
+				t.Fatalf("render: %v", err)
+			}
+			for _, want := range []string{`id="cte-main-eligible"`, `id="col-trials__mean"`, `href="#col-trials__mean"`} {
+				if !strings.Contains(buf.String(), want) {
+					t.Errorf("page lacks %s", want)
+				}
+			}
+		})
+	}
+}

@@ -14,7 +14,7 @@ import (
 // the kernel bounds it (40 on Linux; from memory).
 const maxLinks = 40
 
-// CheckSaveTarget checks a --save target before any query runs, so that a
+// ResolveSaveTarget checks a --save target before any query runs, so that a
 // long run does not end in a file that cannot be written. It refuses, with
 // a message that says why:
 //
@@ -30,19 +30,15 @@ const maxLinks = 40
 //     file, so that the answer is right for root too, whom permission bits
 //     do not stop.
 //
-// A symbolic link is followed to its final target, and the checks apply to
-// that target: ResolveSaveTarget returns it, and writing there writes
-// through the link, leaving the link in place. Its target must have the
-// same extension as the link, since the extension chooses the format.
-func CheckSaveTarget(path string) error {
-	_, err := ResolveSaveTarget(path)
-	return err
-}
-
-// ResolveSaveTarget checks path as CheckSaveTarget does and returns the
-// file Save should write: path itself, or the final target of a symbolic
-// link (which may not exist yet). Passing it to Save writes through the
-// link; passing path itself would replace the link by a regular file.
+// A symbolic link is followed to its final target and the checks apply to
+// that target; writing there writes through the link, leaving the link in
+// place. The target must have the same extension as the link, since the
+// extension chooses the format.
+//
+// It returns the file Save should write: path itself, or the final target
+// of a symbolic link (which may not exist yet). Passing it to Save writes
+// through the link; passing path itself would replace the link by a
+// regular file.
 func ResolveSaveTarget(path string) (string, error) {
 	if path == "" {
 		return "", errors.New("--save needs a file name")

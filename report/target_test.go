@@ -13,10 +13,10 @@ import (
 	"github.com/assay-dev/assay/report"
 )
 
-// TestCheckSaveTarget checks each kind of --save target the check must
+// TestResolveSaveTarget checks each kind of --save target the check must
 // refuse before a run, with the reason in the message, and the ones it
 // must accept, leaving no file behind.
-func TestCheckSaveTarget(t *testing.T) {
+func TestResolveSaveTarget(t *testing.T) {
 	dir := t.TempDir()
 	mk := func(name string) string {
 		p := filepath.Join(dir, name)
@@ -52,7 +52,7 @@ func TestCheckSaveTarget(t *testing.T) {
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
-			err := report.CheckSaveTarget(tc.path)
+			_, err := report.ResolveSaveTarget(tc.path)
 			switch {
 			case tc.want == "" && err != nil:
 				t.Errorf("got %v, want the target accepted", err)
@@ -72,10 +72,10 @@ func TestCheckSaveTarget(t *testing.T) {
 	}
 }
 
-// TestCheckSaveTargetReadOnlyDir checks a directory whose permissions
+// TestResolveSaveTargetReadOnlyDir checks a directory whose permissions
 // forbid writing. Root is not stopped by permission bits (and a save as
 // root would succeed), so the case is skipped for root.
-func TestCheckSaveTargetReadOnlyDir(t *testing.T) {
+func TestResolveSaveTargetReadOnlyDir(t *testing.T) {
 	if os.Geteuid() == 0 {
 		t.Skip("root can write to directories without write permission")
 	}
@@ -84,31 +84,31 @@ func TestCheckSaveTargetReadOnlyDir(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer os.Chmod(dir, 0o755)
-	err := report.CheckSaveTarget(filepath.Join(dir, "r.json"))
+	_, err := report.ResolveSaveTarget(filepath.Join(dir, "r.json"))
 	if err == nil || !strings.Contains(err.Error(), "cannot create a file in the directory") {
 		t.Errorf("got %v, want an error saying no file can be created", err)
 	}
 }
 
-// TestCheckSaveTargetReadOnlyFileSystem checks a directory where no file
+// TestResolveSaveTargetReadOnlyFileSystem checks a directory where no file
 // can be created even by root: /sys, a kernel file system that refuses new
 // files (EACCES). It runs as root too, where the permission test cannot.
-func TestCheckSaveTargetReadOnlyFileSystem(t *testing.T) {
+func TestResolveSaveTargetReadOnlyFileSystem(t *testing.T) {
 	if fi, err := os.Stat("/sys"); err != nil || !fi.IsDir() {
 		t.Skip("no /sys on this system")
 	}
-	err := report.CheckSaveTarget("/sys/assay-results.json")
+	_, err := report.ResolveSaveTarget("/sys/assay-results.json")
 	if err == nil || !strings.Contains(err.Error(), "cannot create a file in the directory /sys") {
 		t.Errorf("got %v, want an error saying no file can be created in /sys", err)
 	}
 }
 
-// TestCheckSaveTargetSymlinks checks that a link is followed: the checks
+// TestResolveSaveTargetSymlinks checks that a link is followed: the checks
 // apply to its final target, ResolveSaveTarget returns that target, and
 // saving there writes through the link, which stays a link. A link to a
 // device, a dangling link into a missing directory, a loop and a target
 // with another extension are refused.
-func TestCheckSaveTargetSymlinks(t *testing.T) {
+func TestResolveSaveTargetSymlinks(t *testing.T) {
 	dir := t.TempDir()
 	real := filepath.Join(dir, "data", "results.json")
 	if err := os.Mkdir(filepath.Dir(real), 0o755); err != nil {
@@ -155,7 +155,7 @@ func TestCheckSaveTargetSymlinks(t *testing.T) {
 	}
 	for _, tc := range bad {
 		t.Run(tc.name, func(t *testing.T) {
-			err := report.CheckSaveTarget(tc.path)
+			_, err := report.ResolveSaveTarget(tc.path)
 			if err == nil || !strings.Contains(err.Error(), tc.want) {
 				t.Errorf("got %v, want an error containing %q", err, tc.want)
 			}

@@ -229,16 +229,23 @@ func TestHostileNamesServers(t *testing.T) {
 				t.Fatal(err)
 			}
 			var stdout, stderr bytes.Buffer
-			args := []string{"run", "--dsn", os.Getenv(s.env), "--format", "json"}
-			if name == "mysql" {
-				// Segment breakdowns fail on MariaDB under ONLY_FULL_GROUP_BY
-				// whatever the names (Error 1055 on the top-K key), so they
-				// are left out here until that is fixed.
-				args = append(args, "--segments=false")
-			}
+			// Breakdowns included: GROUPING SETS on PostgreSQL, a UNION ALL of
+			// one grouped SELECT per breakdown on MariaDB.
+			args := []string{"run", "--dsn", os.Getenv(s.env), "--format", "json", "--by", segName + ",trigger_day"}
 			code := cli.Run(append(args, specPath), nil, &stdout, &stderr)
 			if code != cli.ExitOK {
 				t.Fatalf("assay run: got exit %d, want %d; stderr:\n%s", code, cli.ExitOK, stderr.String())
+			}
+			if !strings.Contains(stdout.String(), `"name": "trigger_day"`) {
+				t.Errorf("assay run: no trigger_day breakdown in the report")
+			}
+			// Calibration runs on the server too, with the engine's own hash.
+			var cout, cerr bytes.Buffer
+			if code := cli.Run([]string{"calibrate", "--dsn", os.Getenv(s.env), "--splits", "20", "--format", "json", specPath}, nil, &cout, &cerr); code != cli.ExitOK {
+				t.Fatalf("assay calibrate: got exit %d, want %d; stderr:\n%s", code, cli.ExitOK, cerr.String())
+			}
+			if !strings.Contains(cout.String(), `"tests": `) {
+				t.Errorf("assay calibrate: no tests in the output:\n%s", cout.String())
 			}
 			// The engine's own session refuses writes: a run's connection is
 			// read-only whatever SQL would reach it.

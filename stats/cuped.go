@@ -183,34 +183,14 @@ func CUPEDAdjust(m CovariateMoments, theta, meanX float64) CUPEDEstimate {
 // pooled over the compared pair only (CUPEDTheta) and the covariate
 // centred at the pair's unit-weighted mean (CovariateMean), so a
 // treatment-versus-baseline result does not depend on any other variant.
-// The adjusted means and difference are as in CUPEDWelchWith; the
+// The adjusted means are Ȳ − θ(X̄ − μ_X) (CUPEDAdjust; Deng, Xu, Kohavi &
+// Walker 2013) and their difference is compared with Welch's test; the
 // standard errors account for the estimation of θ and of the covariate
 // centre (cupedPair). With three or more variants call it once per pair.
 // When θ is undefined (the covariate does not vary) the result is the
 // unadjusted Welch comparison with Adjusted false and AdjustReason set.
 func CUPEDWelch(base, treat CovariateMoments, level float64) CUPEDComparison {
 	return cupedPair(MethodCUPED, base, treat, level, false)
-}
-
-// CUPEDWelchWith compares covariate-adjusted means (CUPEDAdjust) with
-// Welch's t test (see Welch) applied to the adjusted means and their
-// per-variant adjusted variances:
-//
-//	d = Ȳ_cv,t − Ȳ_cv,b = (Ȳ_t − Ȳ_b) − θ·(X̄_t − X̄_b)
-//	SE = √( Var_t(Y − θX)/n_t + Var_b(Y − θX)/n_b )
-//
-// with Welch–Satterthwaite degrees of freedom computed from the adjusted
-// variances. d does not depend on meanX; the relative lift
-// Ȳ_cv,t/Ȳ_cv,b − 1 does, and is meaningful when meanX is the centre
-// shared by all variants. VarianceReduction compares SE² with the
-// unadjusted Welch SE². When θ is not finite the result falls back to the
-// unadjusted comparison (Adjusted false, AdjustReason set).
-//
-// Deprecated: the standard errors treat θ and meanX as known, and a θ
-// pooled over more than two variants makes a pair's result depend on the
-// other variants. Use CUPEDWelch for each compared pair.
-func CUPEDWelchWith(base, treat CovariateMoments, theta, meanX, level float64) CUPEDComparison {
-	return cupedCompare(MethodCUPED, base, treat, theta, meanX, level, false)
 }
 
 // cupedCompare is the shared body of the mean and ratio CUPED comparisons.
@@ -298,20 +278,6 @@ func CUPEDRatio(base, treat RatioCovariateMoments, level float64) CUPEDCompariso
 	lb, rb := LinearizeCovariate(base)
 	lt, rt := LinearizeCovariate(treat)
 	c := cupedPair(MethodCUPEDRatio, lb, lt, level, true)
-	return ratioReasons(c, rb, rt, "")
-}
-
-// CUPEDRatioWith is CUPEDRatio with θ and the covariate centre supplied by
-// the caller, typically CUPEDTheta and CovariateMean over the linearised
-// moments of every variant.
-//
-// Deprecated: the standard errors treat θ and meanX as known, and a θ
-// pooled over more than two variants makes a pair's result depend on the
-// other variants. Use CUPEDRatio for each compared pair.
-func CUPEDRatioWith(base, treat RatioCovariateMoments, theta, meanX, level float64) CUPEDComparison {
-	lb, rb := LinearizeCovariate(base)
-	lt, rt := LinearizeCovariate(treat)
-	c := cupedCompare(MethodCUPEDRatio, lb, lt, theta, meanX, level, true)
 	return ratioReasons(c, rb, rt, "")
 }
 

@@ -290,9 +290,8 @@ func TestCUPEDPerArmSECoverage(t *testing.T) {
 func TestCUPEDPairUnaffectedByThirdArm(t *testing.T) {
 	// Source: invariance by construction (θ and the centre pooled within
 	// the compared pair). The treatment-versus-baseline adjusted values must
-	// not move when a third variant changes; the deprecated
-	// CUPEDWelchWith with θ pooled over all three does move, which is the
-	// defect being fixed.
+	// not move when a third variant changes; θ pooled over all three (the
+	// earlier method) does move, which is the defect being fixed.
 	rng := rand.New(rand.NewPCG(91, 92))
 	yb, xb := cupedRows(rng, 300, 0)
 	yt, xt := cupedRows(rng, 300, 0.2)
@@ -315,8 +314,8 @@ func TestCUPEDPairUnaffectedByThirdArm(t *testing.T) {
 	if ra.Treat.Value != rbb.Treat.Value || ra.StdError != rbb.StdError {
 		t.Errorf("ratio treatment-vs-baseline result changed with the third arm")
 	}
-	oldA := CUPEDWelchWith(base, treat, mustTheta(t, base, treat, thirdA), CovariateMean(base, treat, thirdA), 0.95)
-	oldB := CUPEDWelchWith(base, treat, mustTheta(t, base, treat, thirdB), CovariateMean(base, treat, thirdB), 0.95)
+	oldA := cupedCompare(MethodCUPED, base, treat, mustTheta(t, base, treat, thirdA), CovariateMean(base, treat, thirdA), 0.95, false)
+	oldB := cupedCompare(MethodCUPED, base, treat, mustTheta(t, base, treat, thirdB), CovariateMean(base, treat, thirdB), 0.95, false)
 	if oldA.Treat.Value == oldB.Treat.Value {
 		t.Errorf("all-arm pooling did not depend on the third arm; the test does not bite")
 	}
@@ -341,7 +340,6 @@ func TestCUPEDConstantCovariateFallsBack(t *testing.T) {
 		treat := CovariateMoments{N: 10, MeanY: 2.33, MeanX: x, VarY: 4.009}
 		for name, c := range map[string]CUPEDComparison{
 			"pair": CUPEDWelch(base, treat, 0.95),
-			"with": CUPEDWelchWith(base, treat, math.NaN(), x, 0.95),
 		} {
 			if c.Adjusted || c.AdjustReason == "" || c.Method != MethodWelch {
 				t.Errorf("%s x=%v: got Adjusted %v AdjustReason %q Method %q, want the unadjusted fallback", name, x, c.Adjusted, c.AdjustReason, c.Method)

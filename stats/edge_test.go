@@ -165,15 +165,6 @@ func TestEdgeCases(t *testing.T) {
 			h := CochranQ([]float64{1, 2, 3}, []float64{1, 0, nan})
 			return h.Reason, []chk{val("Dropped", float64(h.Dropped), 2)}
 		}, "fewer than 2 segments"},
-		{"guard undefined se", func() (string, []chk) {
-			return GuardCheck(0.01, nan, HarmIncrease, 0.02, 0.95).Reason, nil
-		}, "standard error"},
-		{"guard bad direction", func() (string, []chk) {
-			return GuardCheck(0.01, 0.01, "up", 0.02, 0.95).Reason, nil
-		}, "direction"},
-		{"guard negative margin", func() (string, []chk) {
-			return GuardCheck(0.01, 0.01, HarmDecrease, -0.02, 0.95).Reason, nil
-		}, "margin"},
 		{"multiple testing empty", func() (string, []chk) {
 			return "", []chk{val("len", float64(len(Holm(nil))+len(BenjaminiHochberg(nil))+len(Bonferroni(nil))), 0)}
 		}, ""},

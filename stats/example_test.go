@@ -37,14 +37,6 @@ func ExampleBenjaminiHochberg() {
 	// 0.001500 0.003000 0.009500 0.035625 0.060300
 }
 
-// A latency guard metric that must not rise by more than 2%.
-func ExampleGuardCheck() {
-	g := stats.GuardCheck(0.0, 0.01, stats.HarmIncrease, 0.02, 0.95)
-	fmt.Printf("%s, p %.4f, upper bound %.4f\n", g.Verdict, g.PValue, g.Bound)
-	// Output:
-	// no harm shown, p 0.0228, upper bound 0.0164
-}
-
 // A baseline with a zero mean has no relative lift; the reason says why.
 func ExampleTwoProportion() {
 	c := stats.TwoProportion(stats.Moments{N: 100, Mean: 0}, stats.Moments{N: 100, Mean: 0.1}, 0.95)

@@ -1,6 +1,189 @@
--- assay 0.1.0 per-variant statistics query for experiment grouped (spec fingerprint 0f7f44ae43b6e942)
+-- assay 0.1.0 per-variant statistics (overall) query for experiment grouped (spec fingerprint 0f7f44ae43b6e942)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-04-06T00:00:00Z, 2026-05-04T00:00:00Z); outcome windows must have ended by 2026-05-04T00:00:00Z.
+-- This engine has no GROUPING SETS: each breakdown is a query of its own, with the same columns.
+WITH
+-- Exposure rows of views inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x.`visitor_id` AS unit_id,
+    CAST(x.`arm` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin AS variant,
+    TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', x.`viewed_at`) AS ts_us,
+    coalesce(x.`page` = _utf8mb4'product' COLLATE utf8mb4_bin, FALSE) AS qualifies,
+    x.`device` AS `seg_device`
+  FROM `shop`.`page_views` AS x
+  WHERE x.`visitor_id` IS NOT NULL AND x.`viewed_at` IS NOT NULL
+    AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', x.`viewed_at`) >= 1775433600000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', x.`viewed_at`) < 1777852800000000
+),
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over). Rows without a
+-- variant count for the trigger time but never decide the variant.
+exposed_units AS (
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure (a row qualifies when: page = 'product').
+-- Segment values come from the unit's first qualifying row at the trigger time, ordered by
+-- CASE WHEN variant IS NULL THEN 1 ELSE 0 END, variant, `seg_device`.
+triggers AS (
+  SELECT q.unit_id, CASE WHEN q.is_crossover THEN coalesce(q.row_variant, q.variant_lo) ELSE q.variant_lo END AS variant,
+    q.trigger_us, q.is_crossover, q.`seg_device`
+  FROM (
+    SELECT u.unit_id, u.variant_lo, r.variant AS row_variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover, r.`seg_device`,
+      row_number() OVER (PARTITION BY u.unit_id ORDER BY CASE WHEN r.variant IS NULL THEN 1 ELSE 0 END, r.variant, r.`seg_device`) AS rn
+    FROM exposed_units AS u
+    JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Attributes from visitors (declared static: values do not change over time).
+`attr_visitors` AS (
+  SELECT v.unit_id, v.`seg_region`
+  FROM (
+    SELECT t.unit_id, a.`region` AS `seg_region`, row_number() OVER (PARTITION BY t.unit_id ORDER BY a.`visitor_id`, a.`region`) AS rn
+    FROM triggers AS t
+    JOIN `shop`.`visitors` AS a ON a.`visitor_id` = t.unit_id
+  ) AS v
+  WHERE v.rn = 1
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    DATE(TIMESTAMPADD(MICROSECOND, t.trigger_us, TIMESTAMP '1970-01-01 00:00:00')) AS trigger_day,
+    t.`seg_device` AS `seg_device`,
+    a1.`seg_region` AS `seg_region`,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'promise')) AS is_unknown_variant
+  FROM triggers AS t
+  LEFT JOIN `attr_visitors` AS a1 ON a1.unit_id = t.unit_id
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day, c.`seg_device`, c.`seg_region`
+  FROM cohort AS c
+  WHERE NOT c.`is_crossover`
+    AND NOT c.`is_unknown_variant`
+),
+-- One pass over orders for: m_orders, m_orders__x, m_order_value__num, m_order_value__den, m_order_value__x, m_ordered, m_ordered__x, m_cancellations.
+`pass_orders` AS (
+  SELECT
+    r.unit_id,
+    -- m_orders: count of rows where state <> 'test' in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) THEN 1 END) AS `m_orders`,
+    -- m_orders__x: count of rows where state <> 'test' in [trigger - 28d, trigger + 0d)
+    count(CASE WHEN r.dt_us >= -2419200000000 AND r.dt_us < 0 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) THEN 1 END) AS `m_orders__x`,
+    -- m_order_value__num: sum of total where state <> 'test' in [trigger + 0d, trigger + 14d)
+    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) AND CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0 THEN CAST(CAST(r.`c_total` AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS `m_order_value__num`,
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) AND NOT (CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0) THEN 1 END) AS `m_order_value__num__nonfinite`,
+    -- m_order_value__den: count of rows where state <> 'test' in [trigger + 0d, trigger + 14d): the same as m_orders
+    -- m_order_value__x: sum of total where state <> 'test' in [trigger - 28d, trigger + 0d)
+    CAST(sum(CASE WHEN r.dt_us >= -2419200000000 AND r.dt_us < 0 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) AND CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0 THEN CAST(CAST(r.`c_total` AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS `m_order_value__x`,
+    -- m_ordered: count of rows where state <> 'test' in [trigger + 0d, trigger + 14d): the same as m_orders
+    -- m_ordered__x: count of rows where state <> 'test' in [trigger - 28d, trigger + 0d): the same as m_orders__x
+    -- m_cancellations: count of rows where state = 'cancelled' in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r.`c_state` = _utf8mb4'cancelled' COLLATE utf8mb4_bin) THEN 1 END) AS `m_cancellations`
+  FROM (
+    SELECT e.unit_id, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`placed_at`) - e.trigger_us AS dt_us, s.`state` AS `c_state`, s.`total` AS `c_total`
+    FROM eligible AS e
+    JOIN `shop`.`orders` AS s ON s.`visitor_id` = e.unit_id
+  ) AS r
+  WHERE r.dt_us >= -2419200000000 AND r.dt_us < 1209600000000
+  GROUP BY r.unit_id
+),
+-- One row per eligible unit; a unit without outcome rows counts as zero.
+unit_values AS (
+  SELECT
+    e.unit_id,
+    e.variant,
+    e.trigger_day,
+    e.`seg_device`,
+    e.`seg_region`,
+    (e.trigger_us + 1209600000000 <= 1777852800000000) AS mature_14d,
+    coalesce(p1.`m_orders`, 0) AS `m_orders`,
+    coalesce(p1.`m_orders__x`, 0) AS `m_orders__x`,
+    coalesce(p1.`m_order_value__num`, 0) AS `m_order_value__num`,
+    coalesce(p1.`m_order_value__num__nonfinite`, 0) AS `m_order_value__num__nonfinite`,
+    coalesce(p1.`m_orders`, 0) AS `m_order_value__den`,
+    coalesce(p1.`m_order_value__x`, 0) AS `m_order_value__x`,
+    coalesce(p1.`m_orders`, 0) AS `m_ordered`,
+    coalesce(p1.`m_orders__x`, 0) AS `m_ordered__x`,
+    coalesce(p1.`m_cancellations`, 0) AS `m_cancellations`
+  FROM eligible AS e
+  LEFT JOIN `pass_orders` AS p1 ON p1.unit_id = e.unit_id
+),
+-- Centres: each variant's means, subtracted before the variance and covariance aggregates so
+-- their partial sums stay small (numerically stable whatever the engine's merge order).
+centres AS (
+  SELECT
+    u.variant,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) AS `c_orders`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END) AS `c_orders__x`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END) AS `c_order_value__num`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END) AS `c_order_value__den`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END) AS `c_order_value__x`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END) AS `c_cancellations`
+  FROM unit_values AS u
+  GROUP BY u.variant
+)
+SELECT
+  '0f7f44ae43b6e942' AS `spec_fingerprint`,
+  'as_of=2026-05-04T00:00:00Z;by=device,region,trigger_day' AS `compile_options`,
+  u.variant AS `variant`,
+  NULL AS `seg_device`,
+  NULL AS `seg_region`,
+  NULL AS `trigger_day`,
+  count(*) AS `units`,
+  -- orders (primary, mean): mean per unit of count of rows where state <> 'test'; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS `orders__n`,
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) ELSE min(c0.`c_orders`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`)) END AS `orders__mean`,
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`)) AS `orders__var`,
+  -- orders covariate: count of rows where state <> 'test' (definition of orders) in [trigger - 28d, trigger + 0d), before the trigger
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END) ELSE min(c0.`c_orders__x`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END - c0.`c_orders__x`)) END AS `orders__x_mean`,
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END - c0.`c_orders__x`)) AS `orders__x_var`,
+  (VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`) + (CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END - c0.`c_orders__x`)) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END - c0.`c_orders__x`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`) END) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END - c0.`c_orders__x`) END)) / 2 AS `orders__yx_cov`,
+  -- order_value (secondary, ratio): per-unit sum of total where state <> 'test' over per-unit count of rows where state <> 'test'; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS `order_value__n`,
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END) ELSE min(c0.`c_order_value__num`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`)) END AS `order_value__num_mean`,
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END) ELSE min(c0.`c_order_value__den`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`)) END AS `order_value__den_mean`,
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`)) AS `order_value__num_var`,
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`)) AS `order_value__den_var`,
+  (VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`) + (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`)) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`) END) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`) END)) / 2 AS `order_value__cov`,
+  -- order_value covariate: sum of total where state <> 'test' (definition of order_value) in [trigger - 28d, trigger + 0d), before the trigger
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END) ELSE min(c0.`c_order_value__x`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`)) END AS `order_value__x_mean`,
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`)) AS `order_value__x_var`,
+  (VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`) + (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`)) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`) END) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`) END)) / 2 AS `order_value__num_x_cov`,
+  (VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`) + (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`)) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`) END) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`) END)) / 2 AS `order_value__den_x_cov`,
+  sum(u.`m_order_value__num__nonfinite`) AS `order_value__nonfinite_rows`,
+  -- ordered (secondary, proportion): share of units whose count of rows where state <> 'test' is above 0; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS `ordered__n`,
+  avg(CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END) AS `ordered__mean`,
+  VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END) AS `ordered__var`,
+  -- ordered covariate: whether count of rows where state <> 'test' is above 0 (definition of ordered) in [trigger - 28d, trigger + 0d), before the trigger
+  avg(CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered__x` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END) AS `ordered__x_mean`,
+  VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered__x` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END) AS `ordered__x_var`,
+  (VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END + CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered__x` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END) - VAR_SAMP(CASE WHEN CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered__x` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END IS NOT NULL THEN CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END END) - VAR_SAMP(CASE WHEN CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END IS NOT NULL THEN CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered__x` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END END)) / 2 AS `ordered__yx_cov`,
+  -- cancellations (guard, mean): mean per unit of count of rows where state = 'cancelled'; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS `cancellations__n`,
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END) ELSE min(c0.`c_cancellations`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END - c0.`c_cancellations`)) END AS `cancellations__mean`,
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END - c0.`c_cancellations`)) AS `cancellations__var`
+FROM unit_values AS u
+JOIN centres AS c0 ON c0.variant = u.variant
+GROUP BY u.variant
+ORDER BY `variant`, `seg_device`, `seg_region`, `trigger_day`
+;
+
+-- assay 0.1.0 per-variant statistics by device query for experiment grouped (spec fingerprint 0f7f44ae43b6e942)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
+-- Exposures are read in [2026-04-06T00:00:00Z, 2026-05-04T00:00:00Z); outcome windows must have ended by 2026-05-04T00:00:00Z.
+-- This engine has no GROUPING SETS: each breakdown is a query of its own, with the same columns.
 WITH
 -- Exposure rows of views inside the analysis window; rows without a unit or time are ignored.
 exposure_rows AS (
@@ -128,25 +311,13 @@ unit_values AS (
     GROUP BY CAST(u.`seg_device` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin
   ) AS g
 ),
--- Segment region: the 5 values with the most eligible units; the rest are grouped as '(other)'.
-`top_region` AS (
-  SELECT g.value, row_number() OVER (ORDER BY g.units DESC, g.value) AS value_rank
-  FROM (
-    SELECT CAST(u.`seg_region` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin AS value, count(*) AS units
-    FROM unit_values AS u
-    WHERE u.`seg_region` IS NOT NULL
-    GROUP BY CAST(u.`seg_region` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin
-  ) AS g
-),
 -- Each unit's segment keys: one of the top values, '(other)' for the rest, '(null)' when missing.
 keyed_units AS (
   SELECT
     u.*,
-    CASE WHEN u.`seg_device` IS NULL THEN '(null)' WHEN k1.value_rank <= 10 THEN k1.value ELSE '(other)' END AS `key_seg_device`,
-    CASE WHEN u.`seg_region` IS NULL THEN '(null)' WHEN k2.value_rank <= 5 THEN k2.value ELSE '(other)' END AS `key_seg_region`
+    CASE WHEN u.`seg_device` IS NULL THEN '(null)' WHEN k1.value_rank <= 10 THEN k1.value ELSE '(other)' END AS `key_seg_device`
   FROM unit_values AS u
   LEFT JOIN `top_device` AS k1 ON k1.value = CAST(u.`seg_device` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin
-  LEFT JOIN `top_region` AS k2 ON k2.value = CAST(u.`seg_region` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin
 ),
 -- Centres: each variant's means, subtracted before the variance and covariance aggregates so
 -- their partial sums stay small (numerically stable whatever the engine's merge order).
@@ -162,53 +333,6 @@ centres AS (
   FROM unit_values AS u
   GROUP BY u.variant
 )
--- Overall.
-SELECT
-  '0f7f44ae43b6e942' AS `spec_fingerprint`,
-  'as_of=2026-05-04T00:00:00Z;by=device,region,trigger_day' AS `compile_options`,
-  u.variant AS `variant`,
-  NULL AS `seg_device`,
-  NULL AS `seg_region`,
-  NULL AS `trigger_day`,
-  count(*) AS `units`,
-  -- orders (primary, mean): mean per unit of count of rows where state <> 'test'; window [trigger + 0d, trigger + 14d), mature units only
-  count(CASE WHEN u.mature_14d THEN 1 END) AS `orders__n`,
-  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) ELSE min(c0.`c_orders`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`)) END AS `orders__mean`,
-  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`)) AS `orders__var`,
-  -- orders covariate: count of rows where state <> 'test' (definition of orders) in [trigger - 28d, trigger + 0d), before the trigger
-  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END) ELSE min(c0.`c_orders__x`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END - c0.`c_orders__x`)) END AS `orders__x_mean`,
-  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END - c0.`c_orders__x`)) AS `orders__x_var`,
-  (VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`) + (CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END - c0.`c_orders__x`)) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END - c0.`c_orders__x`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`) END) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END - c0.`c_orders__x`) END)) / 2 AS `orders__yx_cov`,
-  -- order_value (secondary, ratio): per-unit sum of total where state <> 'test' over per-unit count of rows where state <> 'test'; window [trigger + 0d, trigger + 14d), mature units only
-  count(CASE WHEN u.mature_14d THEN 1 END) AS `order_value__n`,
-  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END) ELSE min(c0.`c_order_value__num`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`)) END AS `order_value__num_mean`,
-  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END) ELSE min(c0.`c_order_value__den`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`)) END AS `order_value__den_mean`,
-  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`)) AS `order_value__num_var`,
-  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`)) AS `order_value__den_var`,
-  (VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`) + (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`)) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`) END) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`) END)) / 2 AS `order_value__cov`,
-  -- order_value covariate: sum of total where state <> 'test' (definition of order_value) in [trigger - 28d, trigger + 0d), before the trigger
-  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END) ELSE min(c0.`c_order_value__x`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`)) END AS `order_value__x_mean`,
-  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`)) AS `order_value__x_var`,
-  (VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`) + (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`)) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`) END) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END - c0.`c_order_value__num`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`) END)) / 2 AS `order_value__num_x_cov`,
-  (VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`) + (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`)) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`) END) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END - c0.`c_order_value__den`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END - c0.`c_order_value__x`) END)) / 2 AS `order_value__den_x_cov`,
-  sum(u.`m_order_value__num__nonfinite`) AS `order_value__nonfinite_rows`,
-  -- ordered (secondary, proportion): share of units whose count of rows where state <> 'test' is above 0; window [trigger + 0d, trigger + 14d), mature units only
-  count(CASE WHEN u.mature_14d THEN 1 END) AS `ordered__n`,
-  avg(CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END) AS `ordered__mean`,
-  VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END) AS `ordered__var`,
-  -- ordered covariate: whether count of rows where state <> 'test' is above 0 (definition of ordered) in [trigger - 28d, trigger + 0d), before the trigger
-  avg(CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered__x` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END) AS `ordered__x_mean`,
-  VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered__x` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END) AS `ordered__x_var`,
-  (VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END + CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered__x` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END) - VAR_SAMP(CASE WHEN CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered__x` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END IS NOT NULL THEN CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END END) - VAR_SAMP(CASE WHEN CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END IS NOT NULL THEN CASE WHEN u.mature_14d THEN CASE WHEN u.`m_ordered__x` > 0 THEN CAST(1 AS DOUBLE) ELSE CAST(0 AS DOUBLE) END END END)) / 2 AS `ordered__yx_cov`,
-  -- cancellations (guard, mean): mean per unit of count of rows where state = 'cancelled'; window [trigger + 0d, trigger + 14d), mature units only
-  count(CASE WHEN u.mature_14d THEN 1 END) AS `cancellations__n`,
-  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END) ELSE min(c0.`c_cancellations`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END - c0.`c_cancellations`)) END AS `cancellations__mean`,
-  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END - c0.`c_cancellations`)) AS `cancellations__var`
-FROM keyed_units AS u
-JOIN centres AS c0 ON c0.variant = u.variant
-GROUP BY u.variant
-UNION ALL
--- Broken down by device.
 SELECT
   '0f7f44ae43b6e942' AS `spec_fingerprint`,
   'as_of=2026-05-04T00:00:00Z;by=device,region,trigger_day' AS `compile_options`,
@@ -253,8 +377,162 @@ SELECT
 FROM keyed_units AS u
 JOIN centres AS c0 ON c0.variant = u.variant
 GROUP BY u.variant, u.`key_seg_device`
-UNION ALL
--- Broken down by region.
+ORDER BY `variant`, `seg_device`, `seg_region`, `trigger_day`
+;
+
+-- assay 0.1.0 per-variant statistics by region query for experiment grouped (spec fingerprint 0f7f44ae43b6e942)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
+-- Exposures are read in [2026-04-06T00:00:00Z, 2026-05-04T00:00:00Z); outcome windows must have ended by 2026-05-04T00:00:00Z.
+-- This engine has no GROUPING SETS: each breakdown is a query of its own, with the same columns.
+WITH
+-- Exposure rows of views inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x.`visitor_id` AS unit_id,
+    CAST(x.`arm` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin AS variant,
+    TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', x.`viewed_at`) AS ts_us,
+    coalesce(x.`page` = _utf8mb4'product' COLLATE utf8mb4_bin, FALSE) AS qualifies,
+    x.`device` AS `seg_device`
+  FROM `shop`.`page_views` AS x
+  WHERE x.`visitor_id` IS NOT NULL AND x.`viewed_at` IS NOT NULL
+    AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', x.`viewed_at`) >= 1775433600000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', x.`viewed_at`) < 1777852800000000
+),
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over). Rows without a
+-- variant count for the trigger time but never decide the variant.
+exposed_units AS (
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure (a row qualifies when: page = 'product').
+-- Segment values come from the unit's first qualifying row at the trigger time, ordered by
+-- CASE WHEN variant IS NULL THEN 1 ELSE 0 END, variant, `seg_device`.
+triggers AS (
+  SELECT q.unit_id, CASE WHEN q.is_crossover THEN coalesce(q.row_variant, q.variant_lo) ELSE q.variant_lo END AS variant,
+    q.trigger_us, q.is_crossover, q.`seg_device`
+  FROM (
+    SELECT u.unit_id, u.variant_lo, r.variant AS row_variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover, r.`seg_device`,
+      row_number() OVER (PARTITION BY u.unit_id ORDER BY CASE WHEN r.variant IS NULL THEN 1 ELSE 0 END, r.variant, r.`seg_device`) AS rn
+    FROM exposed_units AS u
+    JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Attributes from visitors (declared static: values do not change over time).
+`attr_visitors` AS (
+  SELECT v.unit_id, v.`seg_region`
+  FROM (
+    SELECT t.unit_id, a.`region` AS `seg_region`, row_number() OVER (PARTITION BY t.unit_id ORDER BY a.`visitor_id`, a.`region`) AS rn
+    FROM triggers AS t
+    JOIN `shop`.`visitors` AS a ON a.`visitor_id` = t.unit_id
+  ) AS v
+  WHERE v.rn = 1
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    DATE(TIMESTAMPADD(MICROSECOND, t.trigger_us, TIMESTAMP '1970-01-01 00:00:00')) AS trigger_day,
+    t.`seg_device` AS `seg_device`,
+    a1.`seg_region` AS `seg_region`,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'promise')) AS is_unknown_variant
+  FROM triggers AS t
+  LEFT JOIN `attr_visitors` AS a1 ON a1.unit_id = t.unit_id
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day, c.`seg_device`, c.`seg_region`
+  FROM cohort AS c
+  WHERE NOT c.`is_crossover`
+    AND NOT c.`is_unknown_variant`
+),
+-- One pass over orders for: m_orders, m_orders__x, m_order_value__num, m_order_value__den, m_order_value__x, m_ordered, m_ordered__x, m_cancellations.
+`pass_orders` AS (
+  SELECT
+    r.unit_id,
+    -- m_orders: count of rows where state <> 'test' in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) THEN 1 END) AS `m_orders`,
+    -- m_orders__x: count of rows where state <> 'test' in [trigger - 28d, trigger + 0d)
+    count(CASE WHEN r.dt_us >= -2419200000000 AND r.dt_us < 0 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) THEN 1 END) AS `m_orders__x`,
+    -- m_order_value__num: sum of total where state <> 'test' in [trigger + 0d, trigger + 14d)
+    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) AND CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0 THEN CAST(CAST(r.`c_total` AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS `m_order_value__num`,
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) AND NOT (CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0) THEN 1 END) AS `m_order_value__num__nonfinite`,
+    -- m_order_value__den: count of rows where state <> 'test' in [trigger + 0d, trigger + 14d): the same as m_orders
+    -- m_order_value__x: sum of total where state <> 'test' in [trigger - 28d, trigger + 0d)
+    CAST(sum(CASE WHEN r.dt_us >= -2419200000000 AND r.dt_us < 0 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) AND CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0 THEN CAST(CAST(r.`c_total` AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS `m_order_value__x`,
+    -- m_ordered: count of rows where state <> 'test' in [trigger + 0d, trigger + 14d): the same as m_orders
+    -- m_ordered__x: count of rows where state <> 'test' in [trigger - 28d, trigger + 0d): the same as m_orders__x
+    -- m_cancellations: count of rows where state = 'cancelled' in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r.`c_state` = _utf8mb4'cancelled' COLLATE utf8mb4_bin) THEN 1 END) AS `m_cancellations`
+  FROM (
+    SELECT e.unit_id, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`placed_at`) - e.trigger_us AS dt_us, s.`state` AS `c_state`, s.`total` AS `c_total`
+    FROM eligible AS e
+    JOIN `shop`.`orders` AS s ON s.`visitor_id` = e.unit_id
+  ) AS r
+  WHERE r.dt_us >= -2419200000000 AND r.dt_us < 1209600000000
+  GROUP BY r.unit_id
+),
+-- One row per eligible unit; a unit without outcome rows counts as zero.
+unit_values AS (
+  SELECT
+    e.unit_id,
+    e.variant,
+    e.trigger_day,
+    e.`seg_device`,
+    e.`seg_region`,
+    (e.trigger_us + 1209600000000 <= 1777852800000000) AS mature_14d,
+    coalesce(p1.`m_orders`, 0) AS `m_orders`,
+    coalesce(p1.`m_orders__x`, 0) AS `m_orders__x`,
+    coalesce(p1.`m_order_value__num`, 0) AS `m_order_value__num`,
+    coalesce(p1.`m_order_value__num__nonfinite`, 0) AS `m_order_value__num__nonfinite`,
+    coalesce(p1.`m_orders`, 0) AS `m_order_value__den`,
+    coalesce(p1.`m_order_value__x`, 0) AS `m_order_value__x`,
+    coalesce(p1.`m_orders`, 0) AS `m_ordered`,
+    coalesce(p1.`m_orders__x`, 0) AS `m_ordered__x`,
+    coalesce(p1.`m_cancellations`, 0) AS `m_cancellations`
+  FROM eligible AS e
+  LEFT JOIN `pass_orders` AS p1 ON p1.unit_id = e.unit_id
+),
+-- Segment region: the 5 values with the most eligible units; the rest are grouped as '(other)'.
+`top_region` AS (
+  SELECT g.value, row_number() OVER (ORDER BY g.units DESC, g.value) AS value_rank
+  FROM (
+    SELECT CAST(u.`seg_region` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin AS value, count(*) AS units
+    FROM unit_values AS u
+    WHERE u.`seg_region` IS NOT NULL
+    GROUP BY CAST(u.`seg_region` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin
+  ) AS g
+),
+-- Each unit's segment keys: one of the top values, '(other)' for the rest, '(null)' when missing.
+keyed_units AS (
+  SELECT
+    u.*,
+    CASE WHEN u.`seg_region` IS NULL THEN '(null)' WHEN k1.value_rank <= 5 THEN k1.value ELSE '(other)' END AS `key_seg_region`
+  FROM unit_values AS u
+  LEFT JOIN `top_region` AS k1 ON k1.value = CAST(u.`seg_region` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin
+),
+-- Centres: each variant's means, subtracted before the variance and covariance aggregates so
+-- their partial sums stay small (numerically stable whatever the engine's merge order).
+centres AS (
+  SELECT
+    u.variant,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) AS `c_orders`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END) AS `c_orders__x`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END) AS `c_order_value__num`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END) AS `c_order_value__den`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END) AS `c_order_value__x`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END) AS `c_cancellations`
+  FROM unit_values AS u
+  GROUP BY u.variant
+)
 SELECT
   '0f7f44ae43b6e942' AS `spec_fingerprint`,
   'as_of=2026-05-04T00:00:00Z;by=device,region,trigger_day' AS `compile_options`,
@@ -299,8 +577,144 @@ SELECT
 FROM keyed_units AS u
 JOIN centres AS c0 ON c0.variant = u.variant
 GROUP BY u.variant, u.`key_seg_region`
-UNION ALL
--- Broken down by trigger_day.
+ORDER BY `variant`, `seg_device`, `seg_region`, `trigger_day`
+;
+
+-- assay 0.1.0 per-variant statistics by trigger_day query for experiment grouped (spec fingerprint 0f7f44ae43b6e942)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
+-- Exposures are read in [2026-04-06T00:00:00Z, 2026-05-04T00:00:00Z); outcome windows must have ended by 2026-05-04T00:00:00Z.
+-- This engine has no GROUPING SETS: each breakdown is a query of its own, with the same columns.
+WITH
+-- Exposure rows of views inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x.`visitor_id` AS unit_id,
+    CAST(x.`arm` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin AS variant,
+    TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', x.`viewed_at`) AS ts_us,
+    coalesce(x.`page` = _utf8mb4'product' COLLATE utf8mb4_bin, FALSE) AS qualifies,
+    x.`device` AS `seg_device`
+  FROM `shop`.`page_views` AS x
+  WHERE x.`visitor_id` IS NOT NULL AND x.`viewed_at` IS NOT NULL
+    AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', x.`viewed_at`) >= 1775433600000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', x.`viewed_at`) < 1777852800000000
+),
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over). Rows without a
+-- variant count for the trigger time but never decide the variant.
+exposed_units AS (
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure (a row qualifies when: page = 'product').
+-- Segment values come from the unit's first qualifying row at the trigger time, ordered by
+-- CASE WHEN variant IS NULL THEN 1 ELSE 0 END, variant, `seg_device`.
+triggers AS (
+  SELECT q.unit_id, CASE WHEN q.is_crossover THEN coalesce(q.row_variant, q.variant_lo) ELSE q.variant_lo END AS variant,
+    q.trigger_us, q.is_crossover, q.`seg_device`
+  FROM (
+    SELECT u.unit_id, u.variant_lo, r.variant AS row_variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover, r.`seg_device`,
+      row_number() OVER (PARTITION BY u.unit_id ORDER BY CASE WHEN r.variant IS NULL THEN 1 ELSE 0 END, r.variant, r.`seg_device`) AS rn
+    FROM exposed_units AS u
+    JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Attributes from visitors (declared static: values do not change over time).
+`attr_visitors` AS (
+  SELECT v.unit_id, v.`seg_region`
+  FROM (
+    SELECT t.unit_id, a.`region` AS `seg_region`, row_number() OVER (PARTITION BY t.unit_id ORDER BY a.`visitor_id`, a.`region`) AS rn
+    FROM triggers AS t
+    JOIN `shop`.`visitors` AS a ON a.`visitor_id` = t.unit_id
+  ) AS v
+  WHERE v.rn = 1
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    DATE(TIMESTAMPADD(MICROSECOND, t.trigger_us, TIMESTAMP '1970-01-01 00:00:00')) AS trigger_day,
+    t.`seg_device` AS `seg_device`,
+    a1.`seg_region` AS `seg_region`,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'promise')) AS is_unknown_variant
+  FROM triggers AS t
+  LEFT JOIN `attr_visitors` AS a1 ON a1.unit_id = t.unit_id
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day, c.`seg_device`, c.`seg_region`
+  FROM cohort AS c
+  WHERE NOT c.`is_crossover`
+    AND NOT c.`is_unknown_variant`
+),
+-- One pass over orders for: m_orders, m_orders__x, m_order_value__num, m_order_value__den, m_order_value__x, m_ordered, m_ordered__x, m_cancellations.
+`pass_orders` AS (
+  SELECT
+    r.unit_id,
+    -- m_orders: count of rows where state <> 'test' in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) THEN 1 END) AS `m_orders`,
+    -- m_orders__x: count of rows where state <> 'test' in [trigger - 28d, trigger + 0d)
+    count(CASE WHEN r.dt_us >= -2419200000000 AND r.dt_us < 0 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) THEN 1 END) AS `m_orders__x`,
+    -- m_order_value__num: sum of total where state <> 'test' in [trigger + 0d, trigger + 14d)
+    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) AND CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0 THEN CAST(CAST(r.`c_total` AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS `m_order_value__num`,
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) AND NOT (CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0) THEN 1 END) AS `m_order_value__num__nonfinite`,
+    -- m_order_value__den: count of rows where state <> 'test' in [trigger + 0d, trigger + 14d): the same as m_orders
+    -- m_order_value__x: sum of total where state <> 'test' in [trigger - 28d, trigger + 0d)
+    CAST(sum(CASE WHEN r.dt_us >= -2419200000000 AND r.dt_us < 0 AND (r.`c_state` <> _utf8mb4'test' COLLATE utf8mb4_bin) AND CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0 THEN CAST(CAST(r.`c_total` AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS `m_order_value__x`,
+    -- m_ordered: count of rows where state <> 'test' in [trigger + 0d, trigger + 14d): the same as m_orders
+    -- m_ordered__x: count of rows where state <> 'test' in [trigger - 28d, trigger + 0d): the same as m_orders__x
+    -- m_cancellations: count of rows where state = 'cancelled' in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r.`c_state` = _utf8mb4'cancelled' COLLATE utf8mb4_bin) THEN 1 END) AS `m_cancellations`
+  FROM (
+    SELECT e.unit_id, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`placed_at`) - e.trigger_us AS dt_us, s.`state` AS `c_state`, s.`total` AS `c_total`
+    FROM eligible AS e
+    JOIN `shop`.`orders` AS s ON s.`visitor_id` = e.unit_id
+  ) AS r
+  WHERE r.dt_us >= -2419200000000 AND r.dt_us < 1209600000000
+  GROUP BY r.unit_id
+),
+-- One row per eligible unit; a unit without outcome rows counts as zero.
+unit_values AS (
+  SELECT
+    e.unit_id,
+    e.variant,
+    e.trigger_day,
+    e.`seg_device`,
+    e.`seg_region`,
+    (e.trigger_us + 1209600000000 <= 1777852800000000) AS mature_14d,
+    coalesce(p1.`m_orders`, 0) AS `m_orders`,
+    coalesce(p1.`m_orders__x`, 0) AS `m_orders__x`,
+    coalesce(p1.`m_order_value__num`, 0) AS `m_order_value__num`,
+    coalesce(p1.`m_order_value__num__nonfinite`, 0) AS `m_order_value__num__nonfinite`,
+    coalesce(p1.`m_orders`, 0) AS `m_order_value__den`,
+    coalesce(p1.`m_order_value__x`, 0) AS `m_order_value__x`,
+    coalesce(p1.`m_orders`, 0) AS `m_ordered`,
+    coalesce(p1.`m_orders__x`, 0) AS `m_ordered__x`,
+    coalesce(p1.`m_cancellations`, 0) AS `m_cancellations`
+  FROM eligible AS e
+  LEFT JOIN `pass_orders` AS p1 ON p1.unit_id = e.unit_id
+),
+-- Centres: each variant's means, subtracted before the variance and covariance aggregates so
+-- their partial sums stay small (numerically stable whatever the engine's merge order).
+centres AS (
+  SELECT
+    u.variant,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) AS `c_orders`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_orders__x` AS DOUBLE) END) AS `c_orders__x`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__num` AS DOUBLE) END) AS `c_order_value__num`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__den` AS DOUBLE) END) AS `c_order_value__den`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_order_value__x` AS DOUBLE) END) AS `c_order_value__x`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END) AS `c_cancellations`
+  FROM unit_values AS u
+  GROUP BY u.variant
+)
 SELECT
   '0f7f44ae43b6e942' AS `spec_fingerprint`,
   'as_of=2026-05-04T00:00:00Z;by=device,region,trigger_day' AS `compile_options`,
@@ -342,7 +756,7 @@ SELECT
   count(CASE WHEN u.mature_14d THEN 1 END) AS `cancellations__n`,
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END) ELSE min(c0.`c_cancellations`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END - c0.`c_cancellations`)) END AS `cancellations__mean`,
   VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_cancellations` AS DOUBLE) END - c0.`c_cancellations`)) AS `cancellations__var`
-FROM keyed_units AS u
+FROM unit_values AS u
 JOIN centres AS c0 ON c0.variant = u.variant
 GROUP BY u.variant, u.trigger_day
 ORDER BY `variant`, `seg_device`, `seg_region`, `trigger_day`
