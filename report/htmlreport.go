@@ -167,6 +167,7 @@ func (b *htmlBuilder) summarySection() html.Section {
 	if len(eff.Rows) > 0 {
 		bl = append(bl, eff)
 	}
+	bl = append(bl, paras(targetLines(s), "– ")...)
 	if len(s.Guards) > 0 {
 		g := html.Table{ID: "summary-guards", Caption: "Guards (alarming first)", Header: []string{"", "metric", "arm", "verdict", "relative", "harmful", "margin"}}
 		for _, gv := range s.Guards {

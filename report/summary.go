@@ -27,8 +27,11 @@ type Summary struct {
 	Alpha     float64         `json:"alpha"`
 	Mechanism []SummaryEffect `json:"mechanism"`
 	Primary   []SummaryEffect `json:"primary"`
-	Guards    []SummaryGuard  `json:"guards"`
-	Health    SummaryHealth   `json:"health"`
+	// Target is the plan's target effect on the primary metric; nil when
+	// the spec has no plan.
+	Target *SummaryTarget `json:"target,omitempty"`
+	Guards []SummaryGuard `json:"guards"`
+	Health SummaryHealth  `json:"health"`
 	// CannotSay lists what this evidence does not show, in plain sentences.
 	CannotSay []string `json:"cannot_say"`
 }
@@ -51,6 +54,71 @@ type SummaryEffect struct {
 	// PValueKind names it: "unadjusted", "adjusted" or "always-valid".
 	PValueKind string `json:"p_value_kind"`
 	Reason     string `json:"reason,omitempty"`
+	// AgainstTarget places the interval against the plan's target effect
+	// (primary metric with a plan only): "above the target", "below the
+	// target" or "includes the target".
+	AgainstTarget string `json:"against_target,omitempty"`
+}
+
+// SummaryTarget is the smallest effect on the primary metric the plan set
+// out to detect, as an absolute difference and relative to the baseline.
+type SummaryTarget struct {
+	Absolute Num `json:"absolute"`
+	Relative Num `json:"relative"`
+}
+
+// targetOf returns the plan's target effect on the primary metric, or nil
+// when the report carries no plan. The report has no planning fields yet;
+// when it does, this is the one place to read them.
+func targetOf(*Report) *SummaryTarget { return nil }
+
+// againstTarget reads each primary interval against the target: wholly
+// beyond it, wholly short of it (an effect as large as the target is then
+// ruled out at this level), or containing it. A negative target means a
+// decrease is sought.
+func (s *Summary) againstTarget() {
+	t := s.Target
+	if t == nil || !t.Absolute.OK() || float64(t.Absolute) == 0 {
+		return
+	}
+	for i := range s.Primary {
+		e := &s.Primary[i]
+		lo, hi, tg := float64(e.CILow), float64(e.CIHigh), float64(t.Absolute)
+		if !e.CILow.OK() || !e.CIHigh.OK() {
+			continue
+		}
+		if tg < 0 {
+			lo, hi, tg = -hi, -lo, -tg
+		}
+		switch {
+		case lo >= tg:
+			e.AgainstTarget = "above the target"
+		case hi < tg:
+			e.AgainstTarget = "below the target"
+		default:
+			e.AgainstTarget = "includes the target"
+		}
+	}
+}
+
+// targetLines place each primary interval against the plan's target.
+func targetLines(s Summary) []string {
+	t := s.Target
+	if t == nil {
+		return nil
+	}
+	var items []string
+	for _, e := range s.Primary {
+		if e.AgainstTarget != "" {
+			verb := "lies " + e.AgainstTarget
+			if e.AgainstTarget == "includes the target" {
+				verb = e.AgainstTarget
+			}
+			items = append(items, fmt.Sprintf("%s in %s: the interval [%s, %s] %s effect of the plan, %s (%s relative)", e.Metric, e.Variant, signed(e.CILow), signed(e.CIHigh),
+				verb, signed(t.Absolute), pct(float64(t.Relative))))
+		}
+	}
+	return items
 }
 
 // SummaryGuard is one guard comparison's verdict.
@@ -119,6 +187,8 @@ func (r *Report) Summarize() Summary {
 			}
 		}
 	}
+	s.Target = targetOf(r)
+	s.againstTarget()
 	sort.SliceStable(s.Guards, func(i, j int) bool { return s.Guards[i].Alarming && !s.Guards[j].Alarming })
 	h := r.Health
 	s.Health = SummaryHealth{Available: h.Available, SampleRatioPValue: h.SampleRatio.PValue, SampleRatioAlarm: h.SampleRatio.Alarm,
@@ -174,6 +244,11 @@ func (s *Summary) cannotSay(r *Report) []string {
 	for _, p := range s.Primary {
 		if p.Moved == "no clear change" {
 			out = append(out, fmt.Sprintf("%s in %s: no clear change is not evidence of no effect; changes from %s to %s remain plausible.", p.Metric, p.Variant, signed(p.CILow), signed(p.CIHigh)))
+		}
+	}
+	for _, p := range s.Primary {
+		if p.AgainstTarget == "includes the target" && (p.Moved == "up" || p.Moved == "down") {
+			out = append(out, fmt.Sprintf("%s in %s: the effect is clear, but whether it reaches the planned target is not.", p.Metric, p.Variant))
 		}
 	}
 	if len(s.Mechanism) > 0 {
@@ -240,6 +315,7 @@ func (r *Report) summaryDoc(d *document) {
 	}
 	effects("Did the mechanism move (the first link of the hypothesis)?", s.Mechanism)
 	effects("Did the primary metric move?", s.Primary)
+	d.list(targetLines(s))
 	if len(s.Guards) > 0 {
 		var items []string
 		for _, g := range s.Guards {

@@ -169,3 +169,49 @@ func TestHTMLAlarmsFirst(t *testing.T) {
 		t.Error("the health table does not mark the sample-ratio mismatch in words")
 	}
 }
+
+// TestAgainstTarget reads primary intervals against a planned target; the
+// cases are placed by hand around the interval [lo, hi].
+func TestAgainstTarget(t *testing.T) {
+	tests := []struct {
+		name           string
+		lo, hi, target float64
+		want           string
+	}{
+		{"beyond a rise", 0.2, 0.4, 0.1, "above the target"},
+		{"short of a rise", 0.01, 0.05, 0.1, "below the target"},
+		{"contains a rise", 0.05, 0.3, 0.1, "includes the target"},
+		{"beyond a fall", -0.4, -0.2, -0.1, "above the target"},
+		{"short of a fall", -0.05, 0.02, -0.1, "below the target"},
+		{"contains a fall", -0.3, -0.05, -0.1, "includes the target"},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			s := Summary{Primary: []SummaryEffect{{CILow: Num(tc.lo), CIHigh: Num(tc.hi)}}, Target: &SummaryTarget{Absolute: Num(tc.target), Relative: Num(tc.target)}}
+			s.againstTarget()
+			if got := s.Primary[0].AgainstTarget; got != tc.want {
+				t.Errorf("[%g, %g] against %g: %q, want %q", tc.lo, tc.hi, tc.target, got, tc.want)
+			}
+		})
+	}
+	// Without a plan nothing is read.
+	s := Summary{Primary: []SummaryEffect{{CILow: 0.1, CIHigh: 0.2}}}
+	s.againstTarget()
+	if s.Primary[0].AgainstTarget != "" {
+		t.Errorf("without a target: %q", s.Primary[0].AgainstTarget)
+	}
+}
+
+// TestTargetShown checks the sentence that places the primary interval
+// against the plan's target.
+func TestTargetShown(t *testing.T) {
+	r := summaryReport(0.001, 0.001, "2026-02-01T00:00:00Z", false)
+	s := r.Summarize()
+	s.Target = &SummaryTarget{Absolute: 0.15, Relative: 0.075}
+	s.againstTarget()
+	lines := targetLines(s)
+	want := "prim in b: the interval [+0.1000, +0.3000] includes the target effect of the plan, +0.1500 (+7.50% relative)"
+	if len(lines) != 1 || lines[0] != want {
+		t.Errorf("got %q, want %q", lines, want)
+	}
+}
