@@ -9,8 +9,16 @@
 # when running as root. The tests load their own fixtures.
 #
 #   ASSAY_SERVERS=off            do not start servers (those tests skip)
-#   ASSAY_REQUIRE_SERVERS=1      fail loudly when a server cannot be started
-#                                (the default when CI=true)
+#   ASSAY_REQUIRE_SERVERS=1      fail loudly when a server (or the browser)
+#                                cannot be started (the default when CI=true)
+#   ASSAY_TEST_TIMEOUT=45m       go test -timeout (default 45m: the
+#                                cross-engine package has taken over 9 minutes
+#                                on a busy machine)
+#   ASSAY_FUZZTIME=10s           fuzzing time per target; 0 skips fuzzing
+#   ASSAY_FUZZ_WORKERS=2         fuzz worker processes per target
+#   ASSAY_BROWSER=off            skip the headless-browser check of the demo's
+#                                HTML report (otherwise Debian's chromium is
+#                                installed when missing, as the servers are)
 #
 # Extra arguments are passed to go test.
 set -euo pipefail
@@ -184,20 +192,80 @@ if [ "$require" = 1 ]; then
   export ASSAY_REQUIRE_SERVERS=1
 fi
 
-echo "== go test"
-go test -count=1 ./... "$@"
+timeout_go="${ASSAY_TEST_TIMEOUT:-45m}"
+echo "== go test (timeout $timeout_go)"
+go test -count=1 -timeout "$timeout_go" ./... "$@"
+
+# ---- the demo's HTML report in a real browser ----
+# Renders the demo (with the trigger_day breakdown, for the cumulative
+# plot) as HTML into a temp dir, lists the numbers its JSON report holds
+# (report/expectnums) and opens the page in headless Chromium
+# (scripts/browser-check): no console message, no network request, every
+# number in the page; the screenshot's path is printed.
+browser_problem() {
+  if [ "$require" = 1 ]; then
+    echo "test.sh: ERROR: $1 (required: CI=true or ASSAY_REQUIRE_SERVERS=1; ASSAY_BROWSER=off skips)" >&2
+    exit 1
+  fi
+  echo "test.sh: note: $1; the browser check is skipped (ASSAY_BROWSER=off silences this)" >&2
+}
+if [ "${ASSAY_BROWSER:-auto}" != "off" ]; then
+  echo "== browser check of the demo's HTML report"
+  if [ -z "$srvtmp" ]; then srvtmp=$(mktemp -d "${TMPDIR:-/tmp}/assay-servers.XXXXXX"); fi
+  have_browser=1
+  if [ -z "${ASSAY_CHROMIUM:-}" ] && ! command -v chromium >/dev/null && ! command -v chromium-browser >/dev/null && ! command -v google-chrome >/dev/null; then
+    install_pkgs chromium || { have_browser=0; browser_problem "Chromium is not installed and could not be installed (apt-get install chromium)"; }
+  fi
+  if [ "$have_browser" = 1 ]; then
+    out=$(mktemp -d "${TMPDIR:-/tmp}/assay-html.XXXXXX")
+    go build -o "$out/assay" ./cmd/assay
+    by="platform,tenure,trigger_day"
+    "$out/assay" run --threads 1 --by "$by" --format html testdata/demo/reorder.toml >"$out/reorder.html"
+    "$out/assay" run --threads 1 --by "$by" --format json testdata/demo/reorder.toml | go run ./report/expectnums >"$out/numbers.txt"
+    rm -f "$out/assay"
+    echo "report: $out/reorder.html ($(wc -l <"$out/numbers.txt") numbers expected)"
+    ASSAY_BROWSER_OUT="$out" scripts/browser-check "$out/reorder.html" "$out/numbers.txt"
+  fi
+fi
 
 # Short, bounded fuzzing of every parser of user input (spec loader,
 # expression checker and renderer, aggregates reader). ASSAY_FUZZTIME=0
-# skips it; the seed corpora also run as ordinary tests above.
+# skips it; the seed corpora also run as ordinary tests above. Each target
+# runs with ASSAY_FUZZ_WORKERS worker processes. A finding (a failing input)
+# fails the run; a machine that cannot start the fuzz workers (too few
+# processes or too little memory allowed) is reported as such and skipped.
 fuzztime="${ASSAY_FUZZTIME:-10s}"
+workers="${ASSAY_FUZZ_WORKERS:-2}"
+case "$workers" in
+  '' | *[!0-9]* | 0) echo "test.sh: ASSAY_FUZZ_WORKERS must be a positive whole number, not '$workers'" >&2; exit 1 ;;
+esac
 if [ "$fuzztime" != "0" ]; then
-  echo "== fuzz ($fuzztime each)"
-  fuzz() { go test "$1" -run '^$' -fuzz "^$2\$" -fuzztime "$fuzztime"; }
+  echo "== fuzz ($fuzztime each, $workers workers)"
+  fuzz_failed=0
+  fuzz() {
+    local log
+    log=$(mktemp "${TMPDIR:-/tmp}/assay-fuzz.XXXXXX")
+    if go test "$1" -run '^$' -fuzz "^$2\$" -fuzztime "$fuzztime" -parallel "$workers" >"$log" 2>&1; then
+      tail -n 1 "$log"
+    elif grep -qE 'Failing input written to|failure while testing seed corpus' "$log"; then
+      cat "$log"
+      echo "test.sh: FAIL: fuzzing $1 $2 found a failing input (see above)" >&2
+      fuzz_failed=1
+    elif grep -qiE 'fuzzing process hung or terminated unexpectedly|resource temporarily unavailable|cannot allocate memory|too many open files|fork/exec|not supported on' "$log"; then
+      echo "test.sh: note: this machine could not start the fuzz workers for $1 $2 (not a test failure; try ASSAY_FUZZ_WORKERS=1, or ASSAY_FUZZTIME=0 to skip):" >&2
+      grep -vE '^(fuzz: elapsed|FAIL|exit status|ok )' "$log" | tail -n 5 | sed 's/^/    /' >&2
+    else
+      cat "$log"
+      echo "test.sh: FAIL: fuzzing $1 $2 did not run (see above)" >&2
+      fuzz_failed=1
+    fi
+    rm -f "$log"
+  }
   fuzz ./metrics/ FuzzLoad
   fuzz ./metrics/ FuzzLoadExpr
   fuzz ./metrics/expr/ FuzzParse
   fuzz ./metrics/expr/ FuzzCheck
   fuzz ./safety/ FuzzRender
   fuzz ./results/ FuzzReadTable
+  if [ "$fuzz_failed" = 1 ]; then exit 1; fi
 fi

@@ -1,12 +1,14 @@
 package cli
 
 import (
+	"bytes"
 	"fmt"
 	"io"
 	"slices"
 	"strings"
 
 	"github.com/assay-dev/assay/compiler"
+	"github.com/assay-dev/assay/dialects"
 	"github.com/assay-dev/assay/metrics"
 	"github.com/assay-dev/assay/report"
 	"github.com/assay-dev/assay/results"
@@ -23,7 +25,9 @@ func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 	cf.registerBreakdowns(fs)
 	aggs := fs.String("aggregates", "", "the main query's result, exported as CSV or JSON (required); on engines without GROUPING SETS, the results of the main query and of each breakdown query, comma-separated")
 	health := fs.String("health", "", "the health query's result, exported as CSV or JSON (recommended: exposure, trigger and exclusion counts)")
-	format := fs.String("format", "text", "output format: text, json or markdown")
+	format := fs.String("format", "text", "output format: text, json, markdown or html (one self-contained page with plots and the compiled SQL)")
+	dialect := fs.String("dialect", "duckdb", "html: the SQL dialect the aggregates were computed in, for the SQL embedded in the page")
+	mdLimit := fs.Int("markdown-limit", report.MarkdownLimit, "markdown: cap the report at this many bytes for a review comment, leaving out whole breakdowns and notes (named at the end); 0: no cap")
 	failHarm := fs.Bool("fail-on-harm", false, "exit with code 5 when a guard metric shows harm")
 	srmAlpha := fs.Float64("srm-alpha", report.SRMAlpha, "sample-ratio mismatch alarm threshold (p-value)")
 	adjust := fs.String("adjust", "holm", "multiple-testing adjustment for secondary metrics and variants: holm, bh, bonferroni or none")
@@ -45,8 +49,12 @@ func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "assay analyze: --aggregates FILE is required: the exported result of the main query that assay compile printed\n")
 		return ExitInput
 	}
-	if *format != "text" && *format != "json" && *format != "markdown" {
-		fmt.Fprintf(stderr, "assay analyze: --format must be text, json or markdown\n")
+	if !validFormat(*format) {
+		fmt.Fprintf(stderr, "assay analyze: --format must be text, json, markdown or html\n")
+		return ExitInput
+	}
+	if _, err := dialects.Lookup(*dialect); err != nil {
+		fmt.Fprintf(stderr, "assay analyze: --dialect: %v\n", err)
 		return ExitInput
 	}
 	spec, ok := load(path, stderr)
@@ -103,7 +111,23 @@ func cmdAnalyze(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "assay analyze: %s: %v\n", *aggs, err)
 		return ExitInput
 	}
-	return emitReport(rep, *format, *failHarm, stdout, stderr)
+	page := func(w io.Writer) error {
+		d, err := dialects.Lookup(*dialect)
+		if err != nil {
+			return err
+		}
+		q, err := compiler.Print(plan, d)
+		if err != nil {
+			return err
+		}
+		return rep.HTML(w, plan, q, d.Name())
+	}
+	return emitReport(rep, *format, *failHarm, *mdLimit, stdout, stderr, page)
+}
+
+// validFormat reports whether f is an output format of run and analyze.
+func validFormat(f string) bool {
+	return f == "text" || f == "json" || f == "markdown" || f == "html"
 }
 
 // readTables reads exported results with the same columns (the main
@@ -167,8 +191,16 @@ func value(row []any, i int) any {
 }
 
 // emitReport prints rep and returns the exit code, as assay run does.
-func emitReport(rep *report.Report, format string, failHarm bool, stdout, stderr io.Writer) int {
+// page writes the HTML page (format html).
+func emitReport(rep *report.Report, format string, failHarm bool, mdLimit int, stdout, stderr io.Writer, page func(io.Writer) error) int {
 	switch format {
+	case "html":
+		var buf bytes.Buffer
+		if err := page(&buf); err != nil {
+			fmt.Fprintf(stderr, "assay: html: %v\n", err)
+			return ExitEngine
+		}
+		stdout.Write(buf.Bytes())
 	case "json":
 		b, err := rep.JSON()
 		if err != nil {
@@ -177,7 +209,7 @@ func emitReport(rep *report.Report, format string, failHarm bool, stdout, stderr
 		}
 		stdout.Write(b)
 	case "markdown":
-		fmt.Fprint(stdout, rep.Markdown())
+		fmt.Fprint(stdout, rep.MarkdownCapped(mdLimit))
 	default:
 		fmt.Fprint(stdout, rep.Text())
 	}

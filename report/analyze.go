@@ -53,13 +53,15 @@ func (n Num) OK() bool { return !math.IsNaN(float64(n)) && !math.IsInf(float64(n
 // Report is the whole analysis of one experiment. Its JSON form is the
 // versioned contract documented in README.md.
 type Report struct {
-	SchemaVersion int          `json:"schema_version"`
-	ToolVersion   string       `json:"tool_version"`
-	Experiment    Experiment   `json:"experiment"`
-	Alarms        []string     `json:"alarms"`
-	Health        Health       `json:"health"`
-	Metrics       []MetricInfo `json:"metrics"`
-	Segments      []Segment    `json:"segments"`
+	SchemaVersion int    `json:"schema_version"`
+	ToolVersion   string `json:"tool_version"`
+	// Summary is the one-screen reading of everything below (Summarize).
+	Summary    Summary      `json:"summary"`
+	Experiment Experiment   `json:"experiment"`
+	Alarms     []string     `json:"alarms"`
+	Health     Health       `json:"health"`
+	Metrics    []MetricInfo `json:"metrics"`
+	Segments   []Segment    `json:"segments"`
 	// Adjustment is the multiple-testing method applied to p_value_adjusted.
 	Adjustment string   `json:"adjustment"`
 	Cautions   []string `json:"cautions"`
@@ -413,6 +415,7 @@ func Analyze(p *compiler.Plan, set *results.Set, opt Options) (*Report, error) {
 	for g := range p.GroupBy {
 		r.addBreakdown(p, g, set.Group(g), opt)
 	}
+	r.Summary = r.Summarize()
 	return r, nil
 }
 

@@ -83,9 +83,10 @@ var roleOrder = []struct{ role, title string }{
 // Text renders the report for a terminal.
 func (r *Report) Text() string { return r.document().text() }
 
-// Markdown renders the report for a pull request or a wiki page. It holds
-// everything Text does.
-func (r *Report) Markdown() string { return r.document().markdown() }
+// Markdown renders the report for a pull request or a wiki page: it holds
+// everything Text does, with detail folded (MarkdownCapped), up to
+// MarkdownLimit bytes.
+func (r *Report) Markdown() string { return r.MarkdownCapped(MarkdownLimit) }
 
 func oneLine(s string) string { return strings.Join(strings.Fields(s), " ") }
 
@@ -94,10 +95,10 @@ func (r *Report) document() *document {
 	d := &document{}
 	e := r.Experiment
 	d.heading(1, "assay %s: experiment %s", r.ToolVersion, e.ID)
-	d.para("Hypothesis: %s", oneLine(e.Hypothesis))
 	d.para("Exposures in [%s, %s), outcomes as of %s, time zone %s, %g%% intervals.", e.Start, e.End, e.AsOf, e.TimeZone, e.Confidence*100)
 	opts := e.CompileOptions
 	d.para("Spec fingerprint %s; compile options %s; result fingerprint %s.", e.SpecFingerprint, opts, e.Fingerprint)
+	r.summaryDoc(d)
 	for _, a := range r.Alarms {
 		d.alarm(a)
 	}
