@@ -373,7 +373,7 @@ func tomlType(v any) string {
 
 // ---- the spec ----
 
-var topKeys = []string{"experiment", "variants", "sources", "exposure", "eligibility", "metrics", "segments"}
+var topKeys = []string{"experiment", "variants", "sources", "exposure", "eligibility", "metrics", "segments", "planning"}
 
 func (l *loader) load(raw map[string]any) {
 	root := l.table(nil, raw, topKeys...)
@@ -469,6 +469,9 @@ func (l *loader) load(raw map[string]any) {
 			}
 		}
 		l.caseClash(sg, "segment")
+	}
+	if pt := root.sub("planning", false, planningKeys...); pt != nil {
+		l.planning(pt, ref) // planning.go
 	}
 }
 
