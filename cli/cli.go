@@ -34,6 +34,8 @@ Usage:
                                      analyse a result set your own pipeline exported (CSV or JSON)
   assay calibrate [flags] SPEC.toml  re-split units at random many times (A/A) and
                                      report each metric's false-positive rate
+  assay size [flags] SPEC.toml       before launch: baselines, traffic and the whole-week
+                                     duration a target effect needs, from a pre-period
   assay version                      print the version
 
 Run 'assay COMMAND --help' for a command's flags.
@@ -71,6 +73,8 @@ func Run(args []string, stdin io.Reader, stdout, stderr io.Writer) (code int) {
 		return cmdAnalyze(args[1:], stdout, stderr)
 	case "calibrate":
 		return cmdCalibrate(args[1:], stdout, stderr)
+	case "size":
+		return cmdSize(args[1:], stdout, stderr)
 	}
 	fmt.Fprintf(stderr, "assay: unknown command %q\n\n%s", args[0], usage)
 	return ExitInput
