@@ -171,7 +171,7 @@ func Size(p *compiler.Plan, set *results.Set, opt SizeOptions) (*Sizing, error) 
 	if day < 0 {
 		return nil, fmt.Errorf("a plan needs the planning query broken down by %s", compiler.KeyTriggerDay)
 	}
-	if set.SpecFingerprint != s.Fingerprint || set.Options != p.Options.Text() {
+	if len(set.Rows) > 0 && (set.SpecFingerprint != s.Fingerprint || set.Options != p.Options.Text()) {
 		return nil, fmt.Errorf("the result does not belong to this plan (fingerprint %s, options %q)", set.SpecFingerprint, set.Options)
 	}
 	pl := s.Planning
@@ -679,7 +679,7 @@ func (z *Sizing) document() *document {
 	}
 	d.para("Planned weights: %s.", strings.Join(arms, ", "))
 	if z.Target != nil {
-		d.alarm(z.Target.Statement)
+		d.para("%s", z.Target.Statement)
 	}
 
 	d.heading(2, "Traffic in the pre-period")
@@ -693,13 +693,13 @@ func (z *Sizing) document() *document {
 	}
 
 	d.heading(2, "Baselines")
-	t := &table{head: []string{"metric", "role", "kind", "n", "mean", "variance", "CUPED rho²", "test", "level"}, left: 3}
+	t := &table{head: []string{"metric", "role", "kind", "test", "level", "n", "mean", "variance", "CUPED rho²"}, left: 4}
 	for _, b := range z.Baselines {
 		test := b.Test
 		if b.Margin != nil {
 			test += " (margin " + pctAbs(*b.Margin) + ")"
 		}
-		t.rows = append(t.rows, []string{b.Metric, b.Role, b.Kind, strconv.FormatInt(b.N, 10), fmtNum(b.Mean), fmtNum(b.Variance), fmtNum(b.CUPEDRho2), test, strconv.FormatFloat(b.Alpha, 'g', 4, 64)})
+		t.rows = append(t.rows, []string{b.Metric, b.Role, b.Kind, test, strconv.FormatFloat(b.Alpha, 'g', 4, 64), strconv.FormatInt(b.N, 10), fmtNum(b.Mean), fmtNum(b.Variance), fmtNum(b.CUPEDRho2)})
 	}
 	d.tab(t)
 
@@ -734,9 +734,7 @@ func (z *Sizing) document() *document {
 	d.tab(t)
 
 	d.heading(2, "Paste into the spec")
-	for _, line := range strings.Split(strings.TrimRight(z.TOML, "\n"), "\n") {
-		d.para("%s", line)
-	}
+	d.code("toml", z.TOML)
 	d.heading(2, "Cautions")
 	d.list(z.Cautions)
 	return d
