@@ -63,6 +63,8 @@ type Report struct {
 	// Adjustment is the multiple-testing method applied to p_value_adjusted.
 	Adjustment string   `json:"adjustment"`
 	Cautions   []string `json:"cautions"`
+	// Plan compares the run with the spec's [planning] (planning.go).
+	Plan *PlanCheck `json:"plan"`
 }
 
 // Experiment describes what was analysed.
@@ -394,6 +396,7 @@ func Analyze(p *compiler.Plan, set *results.Set, opt Options) (*Report, error) {
 		note := fmt.Sprintf("Source %s has no rows: every metric that reads it is zero for every unit. Check that the extract or table is complete before reading those metrics.", src)
 		r.Cautions = append(r.Cautions[:last], note, r.Cautions[last])
 	}
+	AgainstPlan(p, r) // planning.go
 	for g := range p.GroupBy {
 		r.addBreakdown(p, g, set.Group(g), opt)
 	}

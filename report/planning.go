@@ -739,3 +739,162 @@ func (z *Sizing) document() *document {
 	d.list(z.Cautions)
 	return d
 }
+
+// ---- every run reports against the plan ----
+
+// PlanCheck compares a run with the plan pasted into the spec ([planning]
+// planned_end, planned_units, target_effect): how far the run is, the
+// units reached against those planned, and the effect the sample can
+// detect against the target.
+type PlanCheck struct {
+	// Fixed is false when the spec carries no planned end or units: no
+	// duration was fixed in advance.
+	Fixed bool `json:"fixed"`
+	// Stage is "interim" (read before the planned end), "awaiting outcomes"
+	// (after it, but before the last units' outcome windows have elapsed)
+	// or "final"; empty without a plan.
+	Stage        string `json:"stage,omitempty"`
+	PlannedEnd   string `json:"planned_end,omitempty"`
+	ReadFrom     string `json:"read_from,omitempty"`
+	PlannedUnits int64  `json:"planned_units,omitempty"`
+	Units        int64  `json:"units"`
+	// UnitsShare is Units over PlannedUnits.
+	UnitsShare Num `json:"units_share"`
+	// Target is the target effect on the primary metric (absolute and
+	// relative to the baseline's value in this run), Detectable the
+	// smallest effect this run's sample detects with the planned power at
+	// the primary metric's level (largest over the treatment arms).
+	Metric             string `json:"metric,omitempty"`
+	Power              Num    `json:"power"`
+	TargetAbsolute     Num    `json:"target_absolute"`
+	TargetRelative     Num    `json:"target_relative"`
+	DetectableAbsolute Num    `json:"detectable_absolute"`
+	DetectableRelative Num    `json:"detectable_relative"`
+	Underpowered       bool   `json:"underpowered"`
+	Statement          string `json:"statement"`
+}
+
+// AgainstPlan fills r.Plan and adds its cautions. Analyze calls it once the
+// report is built.
+func AgainstPlan(p *compiler.Plan, r *Report) {
+	nan := Num(math.NaN())
+	pc := &PlanCheck{Units: r.Health.Eligible, UnitsShare: nan, Power: nan, TargetAbsolute: nan, TargetRelative: nan, DetectableAbsolute: nan, DetectableRelative: nan}
+	r.Plan = pc
+	if pc.Units == 0 {
+		for _, v := range r.Experiment.Variants {
+			pc.Units += v.EligibleUnits
+		}
+	}
+	s := p.Spec
+	pl := s.Planning
+	if pl == nil || (pl.PlannedEnd.IsZero() && pl.PlannedUnits == 0) {
+		pc.Statement = "No duration was fixed in advance (the spec's [planning] table has no planned_end or planned_units): there is no planned end to tell an interim look from the final one. Plan the duration with assay size before launch."
+		r.addCaution(pc.Statement)
+		return
+	}
+	pc.Fixed = true
+	pc.PlannedUnits = int64(pl.PlannedUnits)
+	if pl.PlannedUnits > 0 {
+		pc.UnitsShare = Num(float64(pc.Units) / pl.PlannedUnits)
+	}
+	pc.Stage = "final"
+	if !pl.PlannedEnd.IsZero() {
+		end := pl.PlannedEnd.UnixMicro()
+		read := end + maxWindow(p)
+		pc.PlannedEnd, pc.ReadFrom = stamp(end), stamp(read)
+		switch {
+		case p.AsOfUS < end:
+			pc.Stage = "interim"
+		case p.AsOfUS < read:
+			pc.Stage = "awaiting outcomes"
+		}
+	} else if pl.PlannedUnits > 0 && float64(pc.Units) < pl.PlannedUnits {
+		pc.Stage = "interim"
+	}
+	var parts []string
+	switch pc.Stage {
+	case "interim":
+		parts = append(parts, fmt.Sprintf("Interim look: the plan reads this experiment once, at its planned end%s", orEmpty(pc.PlannedEnd, " ", "")))
+	case "awaiting outcomes":
+		parts = append(parts, fmt.Sprintf("Exposures have reached the planned end %s, but the last units' outcome windows close only at %s", pc.PlannedEnd, pc.ReadFrom))
+	default:
+		parts = append(parts, "Final look at the planned end")
+	}
+	if pc.PlannedUnits > 0 {
+		parts[0] += fmt.Sprintf("; %d of %d planned eligible units (%s)", pc.Units, pc.PlannedUnits, pctAbs(float64(pc.UnitsShare)))
+	}
+	pc.Statement = parts[0] + "."
+
+	// The effect this sample can detect, against the target.
+	pc.Power = Num(pl.Power)
+	var primary *MetricInfo
+	for i := range r.Metrics {
+		if r.Metrics[i].Role == string(metrics.Primary) {
+			primary = &r.Metrics[i]
+		}
+	}
+	if primary != nil {
+		pc.Metric = primary.Name
+		alpha := stats.PerComparisonAlpha(1-s.Confidence, max(1, len(s.Variants)-1), r.Adjustment)
+		base := math.NaN()
+		for _, v := range primary.Variants {
+			if len(s.Variants) > 0 && v.Variant == s.Variants[0].Name {
+				base = float64(v.Value)
+			}
+		}
+		detect := math.NaN()
+		for _, c := range primary.Comparisons {
+			if m := stats.NormalMDE(float64(c.StdError), alpha, pl.Power, true); !math.IsNaN(m) && !(m <= detect) {
+				detect = m
+			}
+		}
+		pc.DetectableAbsolute, pc.DetectableRelative = Num(detect), Num(stats.RelativeMDE(detect, base))
+		if pl.Target > 0 {
+			abs := pl.Target
+			if pl.TargetRelative {
+				abs = pl.Target * math.Abs(base)
+			}
+			pc.TargetAbsolute, pc.TargetRelative = Num(abs), Num(stats.RelativeMDE(abs, base))
+			pc.Underpowered = detect > abs
+		}
+		if pc.DetectableAbsolute.OK() {
+			pc.Statement += fmt.Sprintf(" With this sample, %s can detect %s (%s) with %g%% power", pc.Metric, fmtNum(pc.DetectableAbsolute), pct(float64(pc.DetectableRelative)), pl.Power*100)
+			if pc.TargetAbsolute.OK() {
+				pc.Statement += fmt.Sprintf("; the planned target is %s (%s)", fmtNum(pc.TargetAbsolute), pct(float64(pc.TargetRelative)))
+			}
+			pc.Statement += "."
+		}
+	}
+	r.addCaution(pc.Statement)
+	if pc.Stage != "final" {
+		r.addCaution(fmt.Sprintf("This is not the planned final look: stopping now because a p-value crossed the threshold inflates false positives; read the result at the planned end%s, or declare monitoring = \"sequential\" before launch.", orEmpty(pc.ReadFrom, ", from ", "")))
+	}
+	if pc.Underpowered {
+		r.addCaution(fmt.Sprintf("Underpowered for the planned effect: this sample detects %s (%s) on %s with %g%% power, more than the target %s (%s). A result that is not significant says little about effects of the target's size.",
+			fmtNum(pc.DetectableAbsolute), pct(float64(pc.DetectableRelative)), pc.Metric, pl.Power*100, fmtNum(pc.TargetAbsolute), pct(float64(pc.TargetRelative))))
+	}
+}
+
+func orEmpty(s, prefix, def string) string {
+	if s == "" {
+		return def
+	}
+	return prefix + s
+}
+
+// addCaution adds c before the last caution (which is always the note that
+// the report hands down no ship verdict).
+func (r *Report) addCaution(c string) {
+	if n := len(r.Cautions); n > 0 {
+		r.Cautions = append(r.Cautions[:n-1], c, r.Cautions[n-1])
+		return
+	}
+	r.Cautions = append(r.Cautions, c)
+}
+
+// planDoc adds the plan line to a run's document.
+func (r *Report) planDoc(d *document) {
+	if r.Plan != nil {
+		d.para("Plan: %s", r.Plan.Statement)
+	}
+}

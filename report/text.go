@@ -98,6 +98,7 @@ func (r *Report) document() *document {
 	d.para("Exposures in [%s, %s), outcomes as of %s, time zone %s, %g%% intervals.", e.Start, e.End, e.AsOf, e.TimeZone, e.Confidence*100)
 	opts := e.CompileOptions
 	d.para("Spec fingerprint %s; compile options %s; result fingerprint %s.", e.SpecFingerprint, opts, e.Fingerprint)
+	r.planDoc(d) // planning.go
 	for _, a := range r.Alarms {
 		d.alarm(a)
 	}
