@@ -464,3 +464,132 @@ func TestSizeBadInput(t *testing.T) {
 		})
 	}
 }
+
+// TestRunAgainstPlan runs an experiment whose spec carries a plan and
+// checks the stage, the units reached and the effect the sample can detect
+// against the target, at three as-of times; and a spec without a plan.
+func TestRunAgainstPlan(t *testing.T) {
+	dir := t.TempDir()
+	planFixture(t, dir, 5) // pre-period data; the run reads the experiment's own rows below
+	rng := rand.New(rand.NewPCG(11, 13))
+	var exposures, events [][]string
+	start := time.Date(2026, 3, 2, 0, 0, 0, 0, time.UTC)
+	const n = 400
+	for i := 0; i < n; i++ {
+		id := fmt.Sprintf("u%05d", i+1)
+		if (i+1)%10 == 0 {
+			id = fmt.Sprintf("x%05d", i) // not in profiles: excluded
+		}
+		at := start.Add(time.Duration(i%7)*day + time.Duration(1+rng.IntN(20))*time.Hour)
+		exposures = append(exposures, []string{id, []string{"control", "treatment"}[i%2], tsText(at)})
+		for k := rng.IntN(4); k > 0; k-- {
+			events = append(events, []string{id, tsText(at.Add(time.Duration(1+rng.IntN(100)) * time.Hour)), strconv.FormatFloat(float64(1+rng.IntN(900))/100, 'f', 2, 64)})
+		}
+	}
+	writeBulk(t, dir, "exposures.parquet", []col3{{"unit_id", "VARCHAR"}, {"variant", "VARCHAR"}, {"exposed_at", "TIMESTAMP"}}, exposures)
+	writeBulk(t, dir, "events.parquet", []col3{{"unit_id", "VARCHAR"}, {"happened_at", "TIMESTAMP"}, {"w", "DOUBLE"}}, events)
+	planned := planTable + "target_effect = 0.05\npower = 0.9\nplanned_end = 2026-03-23T00:00:00Z\nplanned_units = 1000\n"
+	withPlan := writeText(t, dir, "planned.toml", planSpec+planned)
+	noPlan := writeText(t, dir, "unplanned.toml", planSpec)
+
+	type planJSON struct {
+		Plan struct {
+			Fixed              bool    `json:"fixed"`
+			Stage              string  `json:"stage"`
+			PlannedUnits       int64   `json:"planned_units"`
+			Units              int64   `json:"units"`
+			UnitsShare         float64 `json:"units_share"`
+			TargetRelative     float64 `json:"target_relative"`
+			DetectableAbsolute float64 `json:"detectable_absolute"`
+			Underpowered       bool    `json:"underpowered"`
+			Statement          string  `json:"statement"`
+			ReadFrom           string  `json:"read_from"`
+		} `json:"plan"`
+		Metrics []struct {
+			Name        string `json:"name"`
+			Comparisons []struct {
+				StdError float64 `json:"std_error"`
+			} `json:"comparisons"`
+		} `json:"metrics"`
+		Cautions []string `json:"cautions"`
+	}
+	run := func(spec string, args ...string) planJSON {
+		t.Helper()
+		full := append(append([]string{"run", "--format", "json"}, args...), spec)
+		code, out, errs := runCLI(full...)
+		if code != 0 {
+			t.Fatalf("assay %s: exit %d\n%s", strings.Join(full, " "), code, errs)
+		}
+		var r planJSON
+		if err := json.Unmarshal([]byte(out), &r); err != nil {
+			t.Fatal(err)
+		}
+		return r
+	}
+	cases := []struct {
+		asOf, stage string
+		units       int64 // eligible units exposed before as-of
+	}{
+		{"2026-03-05T00:00:00Z", "interim", 0},
+		{"2026-03-25T00:00:00Z", "awaiting outcomes", 360},
+		{"", "final", 360},
+	}
+	for _, tc := range cases {
+		var args []string
+		if tc.asOf != "" {
+			args = []string{"--as-of", tc.asOf}
+		}
+		r := run(withPlan, args...)
+		p := r.Plan
+		want := tc.units
+		if tc.stage == "interim" {
+			// Units exposed in [start, as-of): days 0..2 of the 7-day cycle.
+			want = 0
+			for i := 0; i < n; i++ {
+				if (i+1)%10 != 0 && i%7 < 3 {
+					want++
+				}
+			}
+		}
+		if !p.Fixed || p.Stage != tc.stage || p.Units != want || p.PlannedUnits != 1000 || !relClose(p.UnitsShare, float64(want)/1000, 1e-12) {
+			t.Errorf("as of %q: plan %+v, want stage %s and %d units", tc.asOf, p, tc.stage, want)
+		}
+		// Detectable effect: (z_{1−α/2} + z_power)·SE of the primary comparison (Bloom 1995).
+		var se float64
+		for _, m := range r.Metrics {
+			if m.Name == "w7" {
+				se = m.Comparisons[0].StdError
+			}
+		}
+		if d := (zq(0.975) + zq(0.9)) * se; !relClose(p.DetectableAbsolute, d, 1e-9) {
+			t.Errorf("as of %q: detectable %v, want %v", tc.asOf, p.DetectableAbsolute, d)
+		}
+		// At the first as-of no unit's 7-day window has elapsed: nothing is
+		// detectable yet, and the report does not claim otherwise.
+		if se == 0 && (p.Underpowered || strings.Contains(p.Statement, "can detect")) {
+			t.Errorf("as of %q: no mature units, but %+v", tc.asOf, p)
+		}
+		if se > 0 && (!p.Underpowered || !containsLine(r.Cautions, "Underpowered for the planned effect") || p.TargetRelative != 0.05) {
+			t.Errorf("as of %q: underpowered %v, target %v, cautions %q", tc.asOf, p.Underpowered, p.TargetRelative, r.Cautions)
+		}
+		if (tc.stage != "final") != containsLine(r.Cautions, "This is not the planned final look") {
+			t.Errorf("as of %q: interim caution %v for stage %s", tc.asOf, containsLine(r.Cautions, "not the planned final look"), tc.stage)
+		}
+	}
+	if r := run(noPlan); r.Plan.Fixed || !strings.Contains(r.Plan.Statement, "No duration was fixed in advance") || !containsLine(r.Cautions, "No duration was fixed in advance") {
+		t.Errorf("no plan: %+v", r.Plan)
+	}
+	code, out, _ := runCLI("run", withPlan)
+	if code != 0 || !strings.Contains(out, "Plan: Final look at the planned end; 360 of 1000 planned eligible units") {
+		t.Errorf("text report: exit %d\n%s", code, out)
+	}
+}
+
+func containsLine(lines []string, sub string) bool {
+	for _, l := range lines {
+		if strings.Contains(l, sub) {
+			return true
+		}
+	}
+	return false
+}
