@@ -593,3 +593,45 @@ func containsLine(lines []string, sub string) bool {
 	}
 	return false
 }
+
+// TestCalibrateStandIn re-splits the pooled stand-in cohort of the
+// pre-period (an A/A test before launch) and says why a metric whose
+// outcome window cannot have elapsed in the pre-period is not tested.
+func TestCalibrateStandIn(t *testing.T) {
+	dir := t.TempDir()
+	planFixture(t, dir, 21)
+	late := "\n[metrics.events30]\nrole = \"secondary\"\nkind = \"count\"\nsource = \"events\"\nwindow = [\"0d\", \"30d\"]\n"
+	spec := writeText(t, dir, "cal.toml", planSpec+late+planTable)
+	code, out, errs := runCLI("calibrate", "--stand-in", "--splits", "100", "--format", "json", spec)
+	if code != 0 {
+		t.Fatalf("exit %d\n%s", code, errs)
+	}
+	var cal asreport.Calibration
+	if err := json.Unmarshal([]byte(out), &cal); err != nil {
+		t.Fatal(err)
+	}
+	if cal.Start != "2026-01-05T00:00:00Z" || cal.End != "2026-01-26T00:00:00Z" {
+		t.Errorf("period [%s, %s), want the [planning] pre-period", cal.Start, cal.End)
+	}
+	for _, m := range cal.Metrics {
+		switch m.Name {
+		case "events30":
+			// The pre-period lasts 21 days: no unit's 30-day window has elapsed.
+			if m.Verdict != "not tested" || !strings.Contains(m.Reason, "outcome window had elapsed") {
+				t.Errorf("events30: verdict %q, reason %q", m.Verdict, m.Reason)
+			}
+		default:
+			// 100 splits of one comparison each: every one tested.
+			if m.Tests != 100 || m.Verdict == "not tested" || m.Reason != "" {
+				t.Errorf("%s: %d tests, verdict %q, reason %q", m.Name, m.Tests, m.Verdict, m.Reason)
+			}
+		}
+	}
+	code, out, _ = runCLI("calibrate", "--stand-in", "--splits", "20", spec)
+	if code != 0 || !strings.Contains(out, "not tested: ") {
+		t.Errorf("text: exit %d\n%s", code, out)
+	}
+	if testing.Verbose() {
+		t.Log(out)
+	}
+}

@@ -898,3 +898,22 @@ func (r *Report) planDoc(d *document) {
 		d.para("Plan: %s", r.Plan.Statement)
 	}
 }
+
+// untestedReason says why a calibration comparison has no p-value: its
+// own reason, or its arms' (too few mature units, zero variance).
+func untestedReason(c Compare, m MetricInfo) string {
+	for _, v := range m.Variants {
+		if v.N < 2 && v.Immature > 0 {
+			return fmt.Sprintf("%s has %d unit(s) whose %s outcome window had elapsed by the end of the period (%d more had not)", v.Variant, v.N, m.Window[1], v.Immature)
+		}
+	}
+	if c.Reason != "" {
+		return c.Reason
+	}
+	for _, v := range m.Variants {
+		if v.Reason != "" {
+			return v.Variant + ": " + v.Reason
+		}
+	}
+	return "the test statistic is undefined"
+}
