@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"github.com/assay-dev/assay/compiler"
+	"github.com/assay-dev/assay/dialects"
 	"github.com/assay-dev/assay/metrics"
 	"github.com/assay-dev/assay/pipeline"
 	"github.com/assay-dev/assay/report"
@@ -32,7 +33,8 @@ func cmdSize(args []string, stdout, stderr io.Writer) int {
 	power := fs.Float64("power", 0, "power to plan for (default: [planning] power, else 0.8)")
 	maxWeeks := fs.Int("max-weeks", 0, "longest duration to consider, in whole weeks (default: [planning] max_weeks, else 8)")
 	adjust := fs.String("adjust", "holm", "the multiple-testing adjustment the run will use: holm, bh, bonferroni or none")
-	format := fs.String("format", "text", "output format: text, markdown, json or toml (the [planning] table only)")
+	format := fs.String("format", "text", "output format: text, markdown, json, toml (the [planning] table only) or sql (print the planning query without running it)")
+	dialect := fs.String("dialect", "duckdb", "SQL dialect of --format sql: "+strings.Join(dialects.Names(), ", "))
 	path, code, ok := parse(fs, args)
 	if !ok {
 		return code
@@ -42,9 +44,9 @@ func cmdSize(args []string, stdout, stderr io.Writer) int {
 		return ExitInput
 	}
 	switch *format {
-	case "text", "markdown", "json", "toml":
+	case "text", "markdown", "json", "toml", "sql":
 	default:
-		return fail("--format must be text, markdown, json or toml")
+		return fail("--format must be text, markdown, json, toml or sql")
 	}
 	switch *adjust {
 	case "holm", "bh", "bonferroni", "none":
@@ -96,6 +98,23 @@ func cmdSize(args []string, stdout, stderr io.Writer) int {
 			return fail("--target-scale needs --target")
 		}
 		sopt.TargetRelative = *scale == "relative"
+	}
+	if *format == "sql" {
+		d, err := dialects.Lookup(*dialect)
+		if err != nil {
+			return fail("%v", err)
+		}
+		plan, ds := compiler.Compile(spec, opt)
+		printDiags(stderr, ds, specText(path))
+		if ds.HasErrors() {
+			return ExitInput
+		}
+		q, err := compiler.Print(plan, d)
+		if err != nil {
+			return fail("%v", err)
+		}
+		fmt.Fprint(stdout, q.Script(true, true))
+		return ExitOK
 	}
 	absoluteFiles(spec, path)
 	dir, _ := filepath.Abs(filepath.Dir(path))
