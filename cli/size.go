@@ -196,9 +196,10 @@ func isFlagSet(visit func(func(*flag.Flag)), name string) bool {
 }
 
 // StandInView returns the spec as a planning query reads it, for the
-// catalogue check: its exposure is the stand-in trigger, and the real
-// exposure source, which may not exist before launch, is left out unless
-// a metric, rule or the stand-in reads it. The spec is not edited.
+// catalogue check: its exposure is the stand-in trigger, and it holds only
+// the sources the stand-in, the metrics and the eligibility rules read, so
+// that the real exposure source (which may not exist before launch) and
+// segment-only sources are not required. The spec is not edited.
 func StandInView(s *metrics.Spec) *metrics.Spec {
 	if s.Planning == nil || s.Planning.StandIn == nil {
 		return s
@@ -220,16 +221,10 @@ func StandInView(s *metrics.Spec) *metrics.Spec {
 	for _, r := range s.Rules {
 		used[r.Source] = true
 	}
-	c.Segments = nil
-	for _, seg := range s.Segments {
-		if seg.Source == si.Source || !seg.Source.IsEvent() {
-			c.Segments = append(c.Segments, seg)
-			used[seg.Source] = true
-		}
-	}
+	c.Segments = nil // planning queries group by trigger day only
 	c.Sources = nil
 	for _, src := range s.Sources {
-		if used[src] || src != s.Exposure.Source {
+		if used[src] {
 			c.Sources = append(c.Sources, src)
 		}
 	}
