@@ -842,9 +842,19 @@ func AgainstPlan(p *compiler.Plan, r *Report) {
 				base = float64(v.Value)
 			}
 		}
+		nOf := map[string]float64{}
+		for _, v := range primary.Variants {
+			nOf[v.Variant] = float64(v.N)
+		}
 		detect := math.NaN()
 		for _, c := range primary.Comparisons {
-			if m := stats.NormalMDE(float64(c.StdError), alpha, pl.Power, true); !math.IsNaN(m) && !(m <= detect) {
+			m := stats.NormalMDE(float64(c.StdError), alpha, pl.Power, true)
+			if s.Monitoring == "sequential" {
+				// Always-valid intervals need more: the boundary tuned to
+				// the pair's units at this look.
+				m = stats.SequentialMDE(float64(c.StdError), nOf[c.Baseline]+nOf[c.Variant], 0, alpha, pl.Power)
+			}
+			if !math.IsNaN(m) && !(m <= detect) {
 				detect = m
 			}
 		}
