@@ -65,8 +65,8 @@ func DefaultBreakdowns(s *metrics.Spec) []string {
 }
 
 // Text spells the options canonically, as the compile_options result
-// column carries them: as_of, start, end (RFC 3339, UTC), by, splits and
-// salt, separated by semicolons. Unset values are left out.
+// column carries them: as_of, start, end (RFC 3339, UTC), by, splits,
+// salt and stand_in, separated by semicolons. Unset values are left out.
 func (o Options) Text() string {
 	var parts []string
 	t := func(name string, v time.Time) {
