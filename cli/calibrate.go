@@ -28,6 +28,7 @@ func cmdCalibrate(args []string, stdout, stderr io.Writer) int {
 	start := fs.String("start", "", "analyse another period: its start (e.g. a period before the experiment, RFC 3339)")
 	end := fs.String("end", "", "analyse another period: its end (RFC 3339)")
 	format := fs.String("format", "text", "output format: text or json")
+	standIn := fs.Bool("stand-in", false, "before launch: re-split the [planning] stand-in cohort of the pre-period (--start/--end, default [planning] pre_start/pre_end)")
 	path, code, ok := parse(fs, args)
 	if !ok {
 		return code
@@ -48,7 +49,7 @@ func cmdCalibrate(args []string, stdout, stderr io.Writer) int {
 	if !ok {
 		return ExitInput
 	}
-	opt := compiler.Options{Splits: *splits, Salt: *salt}
+	opt := compiler.Options{Splits: *splits, Salt: *salt, StandIn: *standIn}
 	for _, o := range []struct {
 		flag string
 		src  *string
@@ -73,7 +74,11 @@ func cmdCalibrate(args []string, stdout, stderr io.Writer) int {
 		return openFailed(stderr, err)
 	}
 	defer eng.Close()
-	cds, empty, err := eng.Check(ctx, spec)
+	checked := spec
+	if *standIn {
+		checked = StandInView(spec) // size.go
+	}
+	cds, empty, err := eng.Check(ctx, checked)
 	if err != nil {
 		return queryFailed(ctx, stderr, err)
 	}
@@ -85,7 +90,7 @@ func cmdCalibrate(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "assay calibrate: warning: sources without rows, read as zeros: %s\n", strings.Join(empty, ", "))
 	}
 	plan, q, ds, err := eng.Compile(ctx, spec, opt)
-	printDiags(stderr, ds, nil)
+	printDiags(stderr, ds, specText(path))
 	if ds.HasErrors() {
 		return ExitInput
 	}

@@ -39,6 +39,8 @@ Usage:
                                      report each metric's false-positive rate
   assay rampcheck [flags] SPEC.toml  early read of the first rollout step: is it safe to widen?
                                      (sample ratio, logging, guards at a looser level; a fix-first list)
+  assay size [flags] SPEC.toml       before launch: baselines, traffic and the whole-week
+                                     duration a target effect needs, from a pre-period
   assay version                      print the version
 
 Run 'assay COMMAND --help' for a command's flags.
@@ -79,6 +81,8 @@ func Run(args []string, stdin io.Reader, stdout, stderr io.Writer) (code int) {
 		return cmdCalibrate(args[1:], stdout, stderr)
 	case "rampcheck":
 		return cmdRampCheck(args[1:], stdout, stderr)
+	case "size":
+		return cmdSize(args[1:], stdout, stderr)
 	}
 	fmt.Fprintf(stderr, "assay: unknown command %q\n\n%s", args[0], usage)
 	return ExitInput

@@ -12,6 +12,7 @@ import (
 	"encoding/hex"
 	"fmt"
 	"sort"
+	"strconv"
 	"strings"
 	"time"
 
@@ -44,6 +45,9 @@ type Options struct {
 	// the result is grouped by split and re-assigned variant.
 	Splits int
 	Salt   int64
+	// StandIn compiles a planning query (planning.go): the trigger is the
+	// spec's stand-in trigger and every unit is in one pooled arm.
+	StandIn bool
 }
 
 // KeyTriggerDay groups results by the calendar day of each unit's trigger
@@ -61,8 +65,8 @@ func DefaultBreakdowns(s *metrics.Spec) []string {
 }
 
 // Text spells the options canonically, as the compile_options result
-// column carries them: as_of, start, end (RFC 3339, UTC), by, splits and
-// salt, separated by semicolons. Unset values are left out.
+// column carries them: as_of, start, end (RFC 3339, UTC), by, splits,
+// salt and stand_in, separated by semicolons. Unset values are left out.
 func (o Options) Text() string {
 	var parts []string
 	t := func(name string, v time.Time) {
@@ -78,6 +82,9 @@ func (o Options) Text() string {
 	}
 	if o.Splits > 0 {
 		parts = append(parts, fmt.Sprintf("splits=%d", o.Splits), fmt.Sprintf("salt=%d", o.Salt))
+	}
+	if o.StandIn {
+		parts = append(parts, "stand_in=true")
 	}
 	return strings.Join(parts, ";")
 }
@@ -107,6 +114,8 @@ func ParseOptions(s string) (Options, error) {
 			_, err = fmt.Sscan(v, &o.Splits)
 		case "salt":
 			_, err = fmt.Sscan(v, &o.Salt)
+		case "stand_in":
+			o.StandIn, err = strconv.ParseBool(v)
 		default:
 			err = fmt.Errorf("unknown option %q", k)
 		}
@@ -153,6 +162,9 @@ type Plan struct {
 	// original variants).
 	Centres        []*AggPlan
 	CentrePerGroup bool
+	// Pooled says the plan is a planning query (Options.StandIn): Spec is
+	// then a copy whose exposure is the stand-in trigger (planning.go).
+	Pooled bool
 	// Columns are the main query's result columns, in order.
 	Columns []Column
 	// Exclusions are the reasons a triggered unit is left out, in the
@@ -256,9 +268,16 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 	bad := func(code string, hint, format string, args ...any) {
 		ds = append(ds, metrics.Diagnostic{Code: code, Summary: fmt.Sprintf(format, args...), Hint: hint, Subject: metrics.Range{File: s.File}})
 	}
+	if opt.StandIn {
+		si, sds := standInSpec(s, &opt) // planning.go
+		if ds = append(ds, sds...); si == nil {
+			return nil, ds
+		}
+		s = si
+	}
 	p := &Plan{Spec: s, TZ: s.TZName, metricOf: map[*metrics.Metric]*MetricPlan{}}
 	start, end := s.Start, s.End
-	norm := Options{Splits: opt.Splits, Salt: opt.Salt}
+	norm := Options{Splits: opt.Splits, Salt: opt.Salt, StandIn: opt.StandIn}
 	if !opt.Start.IsZero() && !opt.Start.Equal(s.Start) {
 		start, norm.Start = opt.Start, opt.Start.UTC()
 	}
@@ -283,6 +302,9 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 	for _, v := range s.Variants {
 		p.Variants = append(p.Variants, v.Name)
 		p.Weights = append(p.Weights, v.Weight)
+	}
+	if p.Pooled = opt.StandIn; p.Pooled && opt.Splits == 0 {
+		p.Variants, p.Weights = []string{PooledArm}, []float64{1}
 	}
 	p.Splits, p.Salt = opt.Splits, opt.Salt
 	if opt.Splits < 0 || opt.Splits > 10000 {

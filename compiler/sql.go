@@ -162,6 +162,7 @@ func (pr *printer) header(what string) {
 	if files {
 		pr.line(0, "-- File paths are relative to the spec's directory.")
 	}
+	pr.standInNote() // planning.go
 }
 
 // oneLine keeps a user string inside a single SQL comment line.
@@ -237,7 +238,7 @@ func (pr *printer) exposureRows() {
 	}
 	pr.line(1, "SELECT")
 	pr.line(2, "x.%s AS unit_id,", pr.id(src.Unit))
-	pr.line(2, "%s AS variant,", pr.d.Text("x."+pr.id(ex.Variant)))
+	pr.line(2, "%s AS variant,", pr.exposureVariant())
 	pr.line(2, "%s AS ts_us,", pr.time(src, "x"))
 	if ex.Filter != nil {
 		pr.line(2, "coalesce(%s, FALSE) AS qualifies%s", pr.expr(ex.Filter, "x"), commaIf(len(segsOn(segs, src)) > 0))
@@ -356,8 +357,8 @@ func (pr *printer) cohortCTEs() {
 		}
 		pr.line(2, "%s.%s AS %s,", alias, pr.id("seg_"+seg.Name), pr.id("seg_"+seg.Name))
 	}
-	vs := make([]string, len(p.Variants))
-	for i, v := range p.Variants {
+	vs := make([]string, len(pr.cohortVariants()))
+	for i, v := range pr.cohortVariants() {
 		vs[i] = d.Literal(v)
 	}
 	pr.line(2, "t.is_crossover,")

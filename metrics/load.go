@@ -373,7 +373,7 @@ func tomlType(v any) string {
 
 // ---- the spec ----
 
-var topKeys = []string{"experiment", "variants", "sources", "exposure", "eligibility", "metrics", "segments", "rollout", "prior_runs", "calendar"}
+var topKeys = []string{"experiment", "variants", "sources", "exposure", "eligibility", "metrics", "segments", "rollout", "prior_runs", "calendar", "planning"}
 
 func (l *loader) load(raw map[string]any) {
 	root := l.table(nil, raw, topKeys...)
@@ -484,6 +484,9 @@ func (l *loader) load(raw map[string]any) {
 	}
 	if ct := root.sub("calendar", false, calendarKeys...); ct != nil {
 		l.calendar(ct)
+	}
+	if pt := root.sub("planning", false, planningKeys...); pt != nil {
+		l.planning(pt, ref) // planning.go
 	}
 }
 

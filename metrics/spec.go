@@ -40,6 +40,8 @@ type Spec struct {
 	// Events are the declared calendar events, from the spec and from
 	// shared calendar files (rollout.go).
 	Events []*Event
+	// Planning is the [planning] table, nil when the spec has none.
+	Planning *Planning
 
 	Ranges map[string]Range // key path ("metrics.orders.window") -> value range
 }
@@ -237,4 +239,36 @@ type Segment struct {
 type Duration struct {
 	Micros int64
 	Text   string
+}
+
+// Planning is the spec's pre-launch plan (the [planning] table): the inputs
+// of `assay size` and the plan it produced, pasted back, which every run
+// then reports against. Zero values mean "not given".
+type Planning struct {
+	// StandIn marks when a unit would have been exposed before the
+	// experiment existed; nil when not given.
+	StandIn *StandIn
+	// PreStart and PreEnd are the pre-period the plan is computed over.
+	PreStart, PreEnd time.Time
+	// Target is the smallest effect on the primary metric worth detecting,
+	// relative to the baseline mean when TargetRelative (0.03 is +3%),
+	// else in the metric's own units. Zero when not given.
+	Target         float64
+	TargetRelative bool
+	Power          float64 // default 0.8
+	MaxWeeks       int     // default 8
+	// PlannedEnd and PlannedUnits are the plan's outputs: when the
+	// experiment is to be read, and how many eligible units (all arms) it
+	// should have by then.
+	PlannedEnd   time.Time
+	PlannedUnits float64
+	At           Range
+}
+
+// StandIn is the source and filter whose first matching row stands in for
+// the trigger before launch.
+type StandIn struct {
+	Source *Source
+	Filter *Expr
+	At     Range
 }

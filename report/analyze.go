@@ -71,6 +71,8 @@ type Report struct {
 	// Timing is the section on weekdays, declared calendar events and the
 	// effect by trigger week (timing.go).
 	Timing *Timing `json:"timing,omitempty"`
+	// Plan compares the run with the spec's [planning] (planning.go).
+	Plan *PlanCheck `json:"plan"`
 }
 
 // Experiment describes what was analysed.
@@ -412,6 +414,7 @@ func Analyze(p *compiler.Plan, set *results.Set, opt Options) (*Report, error) {
 		note := fmt.Sprintf("Source %s has no rows: every metric that reads it is zero for every unit. Check that the extract or table is complete before reading those metrics.", src)
 		r.Cautions = append(r.Cautions[:last], note, r.Cautions[last])
 	}
+	AgainstPlan(p, r) // planning.go
 	for g := range p.GroupBy {
 		r.addBreakdown(p, g, set.Group(g), opt)
 	}
@@ -869,7 +872,8 @@ func cautions(p *compiler.Plan, r *Report) []string {
 	)
 	if p.Spec.Monitoring == metrics.MonitoringSequential {
 		c = append(c, "Monitoring is sequential: the always-valid intervals and p-values (\"sequential\") stay valid however often you look and whenever you stop; the fixed-horizon ones beside them are valid only if read once at a duration fixed in advance.")
-	} else if p.AsOfUS < p.Spec.End.UnixMicro() {
+	} else if p.AsOfUS < p.Spec.End.UnixMicro() && (p.Spec.Planning == nil || p.Spec.Planning.PlannedEnd.IsZero()) {
+		// With a planned end, AgainstPlan states the stage against it.
 		c = append(c, "This is an interim look (as-of before the planned end) at a fixed-horizon design: stopping early because a p-value crossed the threshold inflates false positives; wait for the planned end or declare monitoring = \"sequential\".")
 	}
 	var immature int64

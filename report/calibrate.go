@@ -43,6 +43,8 @@ type CalMetric struct {
 	Lo      int    `json:"expected_low"`
 	Hi      int    `json:"expected_high"`
 	Verdict string `json:"verdict"` // "ok", "too many false positives", "too few false positives", "not tested"
+	// Reason says why a metric was not tested.
+	Reason string `json:"reason,omitempty"`
 }
 
 // Calibrate judges each metric's false-positive rate over the splits of a
@@ -68,6 +70,9 @@ func Calibrate(p *compiler.Plan, set *results.Set, alpha float64) *Calibration {
 			info := metricInfo(p, mp, splits[k], p.Spec.Confidence)
 			for _, cmp := range info.Comparisons {
 				if !cmp.PValue.OK() {
+					if cm.Reason == "" {
+						cm.Reason = untestedReason(cmp, info)
+					}
 					continue
 				}
 				cm.Tests++
@@ -76,11 +81,19 @@ func Calibrate(p *compiler.Plan, set *results.Set, alpha float64) *Calibration {
 				}
 			}
 		}
+		if cm.Tests > 0 {
+			cm.Reason = ""
+		}
 		cm.Rate = Num(ratio(float64(cm.FalsePositives), float64(cm.Tests)))
 		cm.Lo, cm.Hi = stats.BinomialRange(cm.Tests, alpha, 0.99)
 		switch {
 		case cm.Tests == 0:
 			cm.Verdict = "not tested"
+			if len(keys) == 0 {
+				cm.Reason = "the period has no eligible units to re-split"
+			} else if cm.Reason == "" {
+				cm.Reason = "no re-split gave a defined p-value"
+			}
 		case cm.FalsePositives > cm.Hi:
 			cm.Verdict = "too many false positives"
 		case cm.FalsePositives < cm.Lo:
@@ -115,7 +128,11 @@ func (c *Calibration) Text() string {
 	tw := tabwriter.NewWriter(&b, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "  metric\trole\ttests\tfalse positives\trate\texpected (99%)\tverdict\t")
 	for _, m := range c.Metrics {
-		fmt.Fprintf(tw, "  %s\t%s\t%d\t%d\t%s\t%d to %d\t%s\t\n", m.Name, m.Role, m.Tests, m.FalsePositives, strings.TrimPrefix(pct(float64(m.Rate)), "+"), m.Lo, m.Hi, m.Verdict)
+		verdict := m.Verdict
+		if m.Reason != "" {
+			verdict += ": " + m.Reason
+		}
+		fmt.Fprintf(tw, "  %s\t%s\t%d\t%d\t%s\t%d to %d\t%s\t\n", m.Name, m.Role, m.Tests, m.FalsePositives, strings.TrimPrefix(pct(float64(m.Rate)), "+"), m.Lo, m.Hi, verdict)
 	}
 	tw.Flush()
 	b.WriteString("\nCautions\n")

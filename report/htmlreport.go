@@ -231,7 +231,7 @@ func forestRow(label string, m MetricInfo, c Compare) html.ForestRow {
 		row.Marker = html.MarkerGuard
 		if m.Margin != nil {
 			mg := *m.Margin
-			if m.Harmful == "decrease" {
+			if m.Harmful == string(metrics.Decrease) {
 				mg = -mg
 			}
 			row.Margin = &mg

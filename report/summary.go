@@ -67,10 +67,14 @@ type SummaryTarget struct {
 	Relative Num `json:"relative"`
 }
 
-// targetOf returns the plan's target effect on the primary metric, or nil
-// when the report carries no plan. The report has no planning fields yet;
-// when it does, this is the one place to read them.
-func targetOf(*Report) *SummaryTarget { return nil }
+// targetOf returns the plan's target effect on the primary metric (from
+// the [planning] table, read by AgainstPlan), or nil when there is none.
+func targetOf(r *Report) *SummaryTarget {
+	if r.Plan == nil || !r.Plan.TargetAbsolute.OK() {
+		return nil
+	}
+	return &SummaryTarget{Absolute: r.Plan.TargetAbsolute, Relative: r.Plan.TargetRelative}
+}
 
 // againstTarget reads each primary interval against the target: wholly
 // beyond it, wholly short of it (an effect as large as the target is then

@@ -99,6 +99,7 @@ func (r *Report) document() *document {
 	opts := e.CompileOptions
 	d.para("Spec fingerprint %s; compile options %s; result fingerprint %s.", e.SpecFingerprint, opts, e.Fingerprint)
 	r.summaryDoc(d)
+	r.planDoc(d) // planning.go
 	for _, a := range r.Alarms {
 		d.alarm(a)
 	}

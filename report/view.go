@@ -23,6 +23,7 @@ const (
 	kAlarm                    // a line that must not be missed
 	kOpen                     // start of a collapsible section titled text
 	kClose                    // its end
+	kCode                     // preformatted lines; hook for assay size's TOML block (planning.go)
 )
 
 type block struct {
@@ -67,6 +68,11 @@ func (d *document) open(format string, args ...any) {
 
 func (d *document) close() { d.blocks = append(d.blocks, block{kind: kClose}) }
 
+// code adds preformatted text in language lang (a Markdown fence label).
+func (d *document) code(lang, text string) {
+	d.blocks = append(d.blocks, block{kind: kCode, text: text, items: []string{lang}})
+}
+
 // text renders d for a terminal: headings flush left, their content
 // indented, tables aligned with spaces.
 func (d *document) text() string {
@@ -96,6 +102,10 @@ func (d *document) text() string {
 			}
 		case kAlarm:
 			b.WriteString(indent + "!! " + bl.text + "\n")
+		case kCode:
+			for _, line := range strings.Split(strings.TrimRight(bl.text, "\n"), "\n") {
+				b.WriteString(indent + "  " + line + "\n")
+			}
 		case kTable:
 			tw := tabwriter.NewWriter(&b, 0, 0, 2, ' ', 0)
 			row := func(cells []string) {
@@ -131,6 +141,9 @@ func (d *document) markdown() string {
 			b.WriteByte('\n')
 		case kAlarm:
 			b.WriteString("> **" + mdEscape(bl.text) + "**\n\n")
+		case kCode:
+			body := strings.TrimRight(strings.ReplaceAll(bl.text, "```", "'''"), "\n")
+			b.WriteString("```" + bl.items[0] + "\n" + body + "\n```\n\n")
 		case kOpen:
 			fmt.Fprintf(&b, "<details>\n<summary>%s</summary>\n\n", mdEscape(bl.text))
 		case kClose:

@@ -1,6 +1,152 @@
--- assay 0.1.0 per-variant statistics query for experiment ramp (spec fingerprint 2983d6892f858269)
+-- assay 0.1.0 per-variant statistics (overall) query for experiment ramp (spec fingerprint 2983d6892f858269)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Lisbon.
 -- Exposures are read in [2026-05-31T23:00:00Z, 2026-06-28T23:00:00Z); outcome windows must have ended by 2026-06-28T23:00:00Z.
+-- This engine has no GROUPING SETS: each breakdown is a query of its own, with the same columns.
+WITH
+-- Exposure rows of visits inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x.`visitor_id` AS unit_id,
+    CAST(x.`arm` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin AS variant,
+    TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) AS ts_us,
+    TRUE AS qualifies,
+    x.`device` AS `seg_device`
+  FROM `web`.`basket_views` AS x
+  WHERE x.`visitor_id` IS NOT NULL AND x.`viewed_at` IS NOT NULL
+    AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) >= 1780268400000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) < 1782687600000000
+),
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over). Rows without a
+-- variant count for the trigger time but never decide the variant.
+exposed_units AS (
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure.
+-- Segment values come from the unit's first qualifying row at the trigger time, ordered by
+-- CASE WHEN variant IS NULL THEN 1 ELSE 0 END, variant, `seg_device`.
+triggers AS (
+  SELECT q.unit_id, CASE WHEN q.is_crossover THEN coalesce(q.row_variant, q.variant_lo) ELSE q.variant_lo END AS variant,
+    q.trigger_us, q.is_crossover, q.`seg_device`
+  FROM (
+    SELECT u.unit_id, u.variant_lo, r.variant AS row_variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover, r.`seg_device`,
+      row_number() OVER (PARTITION BY u.unit_id ORDER BY CASE WHEN r.variant IS NULL THEN 1 ELSE 0 END, r.variant, r.`seg_device`) AS rn
+    FROM exposed_units AS u
+    JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Units exposed in a prior run before the analysis start: excluded as previously_exposed.
+prior_units AS (
+  -- Prior run first_try: visits in [2026-05-03T23:00:00Z, 2026-05-31T23:00:00Z) where device <> 'bot'.
+  SELECT x.`visitor_id` AS unit_id
+  FROM `web`.`basket_views` AS x
+  WHERE x.`visitor_id` IS NOT NULL
+    AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) >= 1777849200000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) < 1780268400000000
+    AND coalesce(x.`device` <> _utf8mb4'bot' COLLATE utf8mb4_bin, FALSE)
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, t.trigger_us, TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'Europe/Lisbon')) AS trigger_day,
+    t.`seg_device` AS `seg_device`,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'dated')) AS is_unknown_variant,
+    (pe.unit_id IS NOT NULL) AS `is_previously_exposed`
+  FROM triggers AS t
+  LEFT JOIN prior_units AS pe ON pe.unit_id = t.unit_id
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day, c.`seg_device`
+  FROM cohort AS c
+  WHERE NOT c.`is_crossover`
+    AND NOT c.`is_unknown_variant`
+    AND NOT c.`is_previously_exposed`
+),
+-- One pass over orders for: m_orders, m_basket_value__num, m_basket_value__den.
+`pass_orders` AS (
+  SELECT
+    r.unit_id,
+    -- m_orders: count of rows in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 THEN 1 END) AS `m_orders`,
+    -- m_basket_value__num: sum of total in [trigger + 0d, trigger + 14d)
+    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0 THEN CAST(CAST(r.`c_total` AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS `m_basket_value__num`,
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND NOT (CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0) THEN 1 END) AS `m_basket_value__num__nonfinite`
+    -- m_basket_value__den: count of rows in [trigger + 0d, trigger + 14d): the same as m_orders
+  FROM (
+    SELECT e.unit_id, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(s.`placed_at`, 'Europe/Lisbon', '+00:00')) - e.trigger_us AS dt_us, s.`total` AS `c_total`
+    FROM eligible AS e
+    JOIN `web`.`orders` AS s ON s.`visitor_id` = e.unit_id
+  ) AS r
+  WHERE r.dt_us >= 0 AND r.dt_us < 1209600000000
+  GROUP BY r.unit_id
+),
+-- One row per eligible unit; a unit without outcome rows counts as zero.
+unit_values AS (
+  SELECT
+    e.unit_id,
+    e.variant,
+    e.trigger_day,
+    e.trigger_us,
+    e.`seg_device`,
+    (e.trigger_us + 1209600000000 <= 1782687600000000) AS mature_14d,
+    coalesce(p1.`m_orders`, 0) AS `m_orders`,
+    coalesce(p1.`m_basket_value__num`, 0) AS `m_basket_value__num`,
+    coalesce(p1.`m_basket_value__num__nonfinite`, 0) AS `m_basket_value__num__nonfinite`,
+    coalesce(p1.`m_orders`, 0) AS `m_basket_value__den`
+  FROM eligible AS e
+  LEFT JOIN `pass_orders` AS p1 ON p1.unit_id = e.unit_id
+),
+-- Centres: each variant's means, subtracted before the variance and covariance aggregates so
+-- their partial sums stay small (numerically stable whatever the engine's merge order).
+centres AS (
+  SELECT
+    u.variant,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) AS `c_orders`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END) AS `c_basket_value__num`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END) AS `c_basket_value__den`
+  FROM unit_values AS u
+  GROUP BY u.variant
+)
+SELECT
+  '2983d6892f858269' AS `spec_fingerprint`,
+  'as_of=2026-06-28T23:00:00Z;by=device,trigger_day,rollout_step' AS `compile_options`,
+  u.variant AS `variant`,
+  NULL AS `seg_device`,
+  NULL AS `trigger_day`,
+  NULL AS `rollout_step`,
+  count(*) AS `units`,
+  -- orders (primary, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS `orders__n`,
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) ELSE min(c0.`c_orders`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`)) END AS `orders__mean`,
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`)) AS `orders__var`,
+  -- basket_value (secondary, ratio): per-unit sum of total over per-unit count of rows; window [trigger + 0d, trigger + 14d), mature units only
+  count(CASE WHEN u.mature_14d THEN 1 END) AS `basket_value__n`,
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END) ELSE min(c0.`c_basket_value__num`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`)) END AS `basket_value__num_mean`,
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END) ELSE min(c0.`c_basket_value__den`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`)) END AS `basket_value__den_mean`,
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`)) AS `basket_value__num_var`,
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`)) AS `basket_value__den_var`,
+  (VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`) + (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`)) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`) END) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`) END)) / 2 AS `basket_value__cov`,
+  sum(u.`m_basket_value__num__nonfinite`) AS `basket_value__nonfinite_rows`
+FROM unit_values AS u
+JOIN centres AS c0 ON c0.variant = u.variant
+GROUP BY u.variant
+ORDER BY `variant`, `seg_device`, `trigger_day`, `rollout_step`
+;
+
+-- assay 0.1.0 per-variant statistics by device query for experiment ramp (spec fingerprint 2983d6892f858269)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Lisbon.
+-- Exposures are read in [2026-05-31T23:00:00Z, 2026-06-28T23:00:00Z); outcome windows must have ended by 2026-06-28T23:00:00Z.
+-- This engine has no GROUPING SETS: each breakdown is a query of its own, with the same columns.
 WITH
 -- Exposure rows of visits inside the analysis window; rows without a unit or time are ignored.
 exposure_rows AS (
@@ -134,32 +280,6 @@ centres AS (
   FROM unit_values AS u
   GROUP BY u.variant
 )
--- Overall.
-SELECT
-  '2983d6892f858269' AS `spec_fingerprint`,
-  'as_of=2026-06-28T23:00:00Z;by=device,trigger_day,rollout_step' AS `compile_options`,
-  u.variant AS `variant`,
-  NULL AS `seg_device`,
-  NULL AS `trigger_day`,
-  NULL AS `rollout_step`,
-  count(*) AS `units`,
-  -- orders (primary, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 14d), mature units only
-  count(CASE WHEN u.mature_14d THEN 1 END) AS `orders__n`,
-  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) ELSE min(c0.`c_orders`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`)) END AS `orders__mean`,
-  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END - c0.`c_orders`)) AS `orders__var`,
-  -- basket_value (secondary, ratio): per-unit sum of total over per-unit count of rows; window [trigger + 0d, trigger + 14d), mature units only
-  count(CASE WHEN u.mature_14d THEN 1 END) AS `basket_value__n`,
-  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END) ELSE min(c0.`c_basket_value__num`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`)) END AS `basket_value__num_mean`,
-  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END) ELSE min(c0.`c_basket_value__den`) + avg((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`)) END AS `basket_value__den_mean`,
-  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`)) AS `basket_value__num_var`,
-  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`)) AS `basket_value__den_var`,
-  (VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`) + (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`)) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`) END) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`) END)) / 2 AS `basket_value__cov`,
-  sum(u.`m_basket_value__num__nonfinite`) AS `basket_value__nonfinite_rows`
-FROM keyed_units AS u
-JOIN centres AS c0 ON c0.variant = u.variant
-GROUP BY u.variant
-UNION ALL
--- Broken down by device.
 SELECT
   '2983d6892f858269' AS `spec_fingerprint`,
   'as_of=2026-06-28T23:00:00Z;by=device,trigger_day,rollout_step' AS `compile_options`,
@@ -183,8 +303,128 @@ SELECT
 FROM keyed_units AS u
 JOIN centres AS c0 ON c0.variant = u.variant
 GROUP BY u.variant, u.`key_seg_device`
-UNION ALL
--- Broken down by trigger_day.
+ORDER BY `variant`, `seg_device`, `trigger_day`, `rollout_step`
+;
+
+-- assay 0.1.0 per-variant statistics by trigger_day query for experiment ramp (spec fingerprint 2983d6892f858269)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Lisbon.
+-- Exposures are read in [2026-05-31T23:00:00Z, 2026-06-28T23:00:00Z); outcome windows must have ended by 2026-06-28T23:00:00Z.
+-- This engine has no GROUPING SETS: each breakdown is a query of its own, with the same columns.
+WITH
+-- Exposure rows of visits inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x.`visitor_id` AS unit_id,
+    CAST(x.`arm` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin AS variant,
+    TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) AS ts_us,
+    TRUE AS qualifies,
+    x.`device` AS `seg_device`
+  FROM `web`.`basket_views` AS x
+  WHERE x.`visitor_id` IS NOT NULL AND x.`viewed_at` IS NOT NULL
+    AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) >= 1780268400000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) < 1782687600000000
+),
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over). Rows without a
+-- variant count for the trigger time but never decide the variant.
+exposed_units AS (
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure.
+-- Segment values come from the unit's first qualifying row at the trigger time, ordered by
+-- CASE WHEN variant IS NULL THEN 1 ELSE 0 END, variant, `seg_device`.
+triggers AS (
+  SELECT q.unit_id, CASE WHEN q.is_crossover THEN coalesce(q.row_variant, q.variant_lo) ELSE q.variant_lo END AS variant,
+    q.trigger_us, q.is_crossover, q.`seg_device`
+  FROM (
+    SELECT u.unit_id, u.variant_lo, r.variant AS row_variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover, r.`seg_device`,
+      row_number() OVER (PARTITION BY u.unit_id ORDER BY CASE WHEN r.variant IS NULL THEN 1 ELSE 0 END, r.variant, r.`seg_device`) AS rn
+    FROM exposed_units AS u
+    JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Units exposed in a prior run before the analysis start: excluded as previously_exposed.
+prior_units AS (
+  -- Prior run first_try: visits in [2026-05-03T23:00:00Z, 2026-05-31T23:00:00Z) where device <> 'bot'.
+  SELECT x.`visitor_id` AS unit_id
+  FROM `web`.`basket_views` AS x
+  WHERE x.`visitor_id` IS NOT NULL
+    AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) >= 1777849200000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) < 1780268400000000
+    AND coalesce(x.`device` <> _utf8mb4'bot' COLLATE utf8mb4_bin, FALSE)
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, t.trigger_us, TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'Europe/Lisbon')) AS trigger_day,
+    t.`seg_device` AS `seg_device`,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'dated')) AS is_unknown_variant,
+    (pe.unit_id IS NOT NULL) AS `is_previously_exposed`
+  FROM triggers AS t
+  LEFT JOIN prior_units AS pe ON pe.unit_id = t.unit_id
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day, c.`seg_device`
+  FROM cohort AS c
+  WHERE NOT c.`is_crossover`
+    AND NOT c.`is_unknown_variant`
+    AND NOT c.`is_previously_exposed`
+),
+-- One pass over orders for: m_orders, m_basket_value__num, m_basket_value__den.
+`pass_orders` AS (
+  SELECT
+    r.unit_id,
+    -- m_orders: count of rows in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 THEN 1 END) AS `m_orders`,
+    -- m_basket_value__num: sum of total in [trigger + 0d, trigger + 14d)
+    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0 THEN CAST(CAST(r.`c_total` AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS `m_basket_value__num`,
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND NOT (CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0) THEN 1 END) AS `m_basket_value__num__nonfinite`
+    -- m_basket_value__den: count of rows in [trigger + 0d, trigger + 14d): the same as m_orders
+  FROM (
+    SELECT e.unit_id, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(s.`placed_at`, 'Europe/Lisbon', '+00:00')) - e.trigger_us AS dt_us, s.`total` AS `c_total`
+    FROM eligible AS e
+    JOIN `web`.`orders` AS s ON s.`visitor_id` = e.unit_id
+  ) AS r
+  WHERE r.dt_us >= 0 AND r.dt_us < 1209600000000
+  GROUP BY r.unit_id
+),
+-- One row per eligible unit; a unit without outcome rows counts as zero.
+unit_values AS (
+  SELECT
+    e.unit_id,
+    e.variant,
+    e.trigger_day,
+    e.trigger_us,
+    e.`seg_device`,
+    (e.trigger_us + 1209600000000 <= 1782687600000000) AS mature_14d,
+    coalesce(p1.`m_orders`, 0) AS `m_orders`,
+    coalesce(p1.`m_basket_value__num`, 0) AS `m_basket_value__num`,
+    coalesce(p1.`m_basket_value__num__nonfinite`, 0) AS `m_basket_value__num__nonfinite`,
+    coalesce(p1.`m_orders`, 0) AS `m_basket_value__den`
+  FROM eligible AS e
+  LEFT JOIN `pass_orders` AS p1 ON p1.unit_id = e.unit_id
+),
+-- Centres: each variant's means, subtracted before the variance and covariance aggregates so
+-- their partial sums stay small (numerically stable whatever the engine's merge order).
+centres AS (
+  SELECT
+    u.variant,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) AS `c_orders`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END) AS `c_basket_value__num`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END) AS `c_basket_value__den`
+  FROM unit_values AS u
+  GROUP BY u.variant
+)
 SELECT
   '2983d6892f858269' AS `spec_fingerprint`,
   'as_of=2026-06-28T23:00:00Z;by=device,trigger_day,rollout_step' AS `compile_options`,
@@ -205,11 +445,131 @@ SELECT
   VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`)) AS `basket_value__den_var`,
   (VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`) + (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`)) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`) END) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`) END)) / 2 AS `basket_value__cov`,
   sum(u.`m_basket_value__num__nonfinite`) AS `basket_value__nonfinite_rows`
-FROM keyed_units AS u
+FROM unit_values AS u
 JOIN centres AS c0 ON c0.variant = u.variant
 GROUP BY u.variant, u.trigger_day
-UNION ALL
--- Broken down by rollout_step.
+ORDER BY `variant`, `seg_device`, `trigger_day`, `rollout_step`
+;
+
+-- assay 0.1.0 per-variant statistics by rollout_step query for experiment ramp (spec fingerprint 2983d6892f858269)
+-- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as Europe/Lisbon.
+-- Exposures are read in [2026-05-31T23:00:00Z, 2026-06-28T23:00:00Z); outcome windows must have ended by 2026-06-28T23:00:00Z.
+-- This engine has no GROUPING SETS: each breakdown is a query of its own, with the same columns.
+WITH
+-- Exposure rows of visits inside the analysis window; rows without a unit or time are ignored.
+exposure_rows AS (
+  SELECT
+    x.`visitor_id` AS unit_id,
+    CAST(x.`arm` AS CHAR CHARACTER SET utf8mb4) COLLATE utf8mb4_bin AS variant,
+    TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) AS ts_us,
+    TRUE AS qualifies,
+    x.`device` AS `seg_device`
+  FROM `web`.`basket_views` AS x
+  WHERE x.`visitor_id` IS NOT NULL AND x.`viewed_at` IS NOT NULL
+    AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) >= 1780268400000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) < 1782687600000000
+),
+-- One row per exposed unit: its first qualifying exposure (the trigger) and the least and
+-- greatest variant it was seen in (when they differ, the unit crossed over). Rows without a
+-- variant count for the trigger time but never decide the variant.
+exposed_units AS (
+  SELECT
+    unit_id,
+    min(CASE WHEN qualifies THEN ts_us END) AS trigger_us,
+    min(variant) AS variant_lo,
+    max(variant) AS variant_hi
+  FROM exposure_rows
+  GROUP BY unit_id
+),
+-- Trigger: each unit's first qualifying exposure.
+-- Segment values come from the unit's first qualifying row at the trigger time, ordered by
+-- CASE WHEN variant IS NULL THEN 1 ELSE 0 END, variant, `seg_device`.
+triggers AS (
+  SELECT q.unit_id, CASE WHEN q.is_crossover THEN coalesce(q.row_variant, q.variant_lo) ELSE q.variant_lo END AS variant,
+    q.trigger_us, q.is_crossover, q.`seg_device`
+  FROM (
+    SELECT u.unit_id, u.variant_lo, r.variant AS row_variant, u.trigger_us, coalesce(u.variant_lo <> u.variant_hi, FALSE) AS is_crossover, r.`seg_device`,
+      row_number() OVER (PARTITION BY u.unit_id ORDER BY CASE WHEN r.variant IS NULL THEN 1 ELSE 0 END, r.variant, r.`seg_device`) AS rn
+    FROM exposed_units AS u
+    JOIN exposure_rows AS r ON r.unit_id = u.unit_id AND r.ts_us = u.trigger_us AND r.qualifies
+  ) AS q
+  WHERE q.rn = 1
+),
+-- Units exposed in a prior run before the analysis start: excluded as previously_exposed.
+prior_units AS (
+  -- Prior run first_try: visits in [2026-05-03T23:00:00Z, 2026-05-31T23:00:00Z) where device <> 'bot'.
+  SELECT x.`visitor_id` AS unit_id
+  FROM `web`.`basket_views` AS x
+  WHERE x.`visitor_id` IS NOT NULL
+    AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) >= 1777849200000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(x.`viewed_at`, 'Europe/Lisbon', '+00:00')) < 1780268400000000
+    AND coalesce(x.`device` <> _utf8mb4'bot' COLLATE utf8mb4_bin, FALSE)
+),
+-- Every triggered unit with the reasons it may be excluded.
+cohort AS (
+  SELECT
+    t.unit_id,
+    t.variant,
+    t.trigger_us,
+    DATE(CONVERT_TZ(TIMESTAMPADD(MICROSECOND, t.trigger_us, TIMESTAMP '1970-01-01 00:00:00'), '+00:00', 'Europe/Lisbon')) AS trigger_day,
+    t.`seg_device` AS `seg_device`,
+    t.is_crossover,
+    (t.variant IS NULL OR t.variant NOT IN ('control', 'dated')) AS is_unknown_variant,
+    (pe.unit_id IS NOT NULL) AS `is_previously_exposed`
+  FROM triggers AS t
+  LEFT JOIN prior_units AS pe ON pe.unit_id = t.unit_id
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day, c.`seg_device`
+  FROM cohort AS c
+  WHERE NOT c.`is_crossover`
+    AND NOT c.`is_unknown_variant`
+    AND NOT c.`is_previously_exposed`
+),
+-- One pass over orders for: m_orders, m_basket_value__num, m_basket_value__den.
+`pass_orders` AS (
+  SELECT
+    r.unit_id,
+    -- m_orders: count of rows in [trigger + 0d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 THEN 1 END) AS `m_orders`,
+    -- m_basket_value__num: sum of total in [trigger + 0d, trigger + 14d)
+    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0 THEN CAST(CAST(r.`c_total` AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS `m_basket_value__num`,
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND NOT (CAST(r.`c_total` AS DOUBLE) - CAST(r.`c_total` AS DOUBLE) = 0) THEN 1 END) AS `m_basket_value__num__nonfinite`
+    -- m_basket_value__den: count of rows in [trigger + 0d, trigger + 14d): the same as m_orders
+  FROM (
+    SELECT e.unit_id, TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(s.`placed_at`, 'Europe/Lisbon', '+00:00')) - e.trigger_us AS dt_us, s.`total` AS `c_total`
+    FROM eligible AS e
+    JOIN `web`.`orders` AS s ON s.`visitor_id` = e.unit_id
+  ) AS r
+  WHERE r.dt_us >= 0 AND r.dt_us < 1209600000000
+  GROUP BY r.unit_id
+),
+-- One row per eligible unit; a unit without outcome rows counts as zero.
+unit_values AS (
+  SELECT
+    e.unit_id,
+    e.variant,
+    e.trigger_day,
+    e.trigger_us,
+    e.`seg_device`,
+    (e.trigger_us + 1209600000000 <= 1782687600000000) AS mature_14d,
+    coalesce(p1.`m_orders`, 0) AS `m_orders`,
+    coalesce(p1.`m_basket_value__num`, 0) AS `m_basket_value__num`,
+    coalesce(p1.`m_basket_value__num__nonfinite`, 0) AS `m_basket_value__num__nonfinite`,
+    coalesce(p1.`m_orders`, 0) AS `m_basket_value__den`
+  FROM eligible AS e
+  LEFT JOIN `pass_orders` AS p1 ON p1.unit_id = e.unit_id
+),
+-- Centres: each variant's means, subtracted before the variance and covariance aggregates so
+-- their partial sums stay small (numerically stable whatever the engine's merge order).
+centres AS (
+  SELECT
+    u.variant,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_orders` AS DOUBLE) END) AS `c_orders`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END) AS `c_basket_value__num`,
+    avg(CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END) AS `c_basket_value__den`
+  FROM unit_values AS u
+  GROUP BY u.variant
+)
 SELECT
   '2983d6892f858269' AS `spec_fingerprint`,
   'as_of=2026-06-28T23:00:00Z;by=device,trigger_day,rollout_step' AS `compile_options`,
@@ -230,7 +590,7 @@ SELECT
   VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`)) AS `basket_value__den_var`,
   (VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`) + (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`)) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`) END) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__num` AS DOUBLE) END - c0.`c_basket_value__num`) IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u.`m_basket_value__den` AS DOUBLE) END - c0.`c_basket_value__den`) END)) / 2 AS `basket_value__cov`,
   sum(u.`m_basket_value__num__nonfinite`) AS `basket_value__nonfinite_rows`
-FROM keyed_units AS u
+FROM unit_values AS u
 JOIN centres AS c0 ON c0.variant = u.variant
 GROUP BY u.variant, CASE WHEN u.trigger_us >= 1780916400000000 THEN 'wide' WHEN u.trigger_us >= 1780527600000000 THEN 'half' ELSE 'trial' END
 ORDER BY `variant`, `seg_device`, `trigger_day`, `rollout_step`
