@@ -27,13 +27,14 @@ const (
 const usage = `assay compiles experiment metric definitions into SQL and analyses the results.
 
 Usage:
-  assay check SPEC.toml              validate a spec; print every problem
+  assay check SPEC.toml              validate a spec (or a shared library file); print every problem
   assay compile [flags] SPEC.toml    print the SQL for a spec
   assay run [flags] SPEC.toml        run the SQL on DuckDB (or --dsn PostgreSQL/MySQL) and print the analysis
   assay analyze SPEC.toml --aggregates FILE
                                      analyse a result set your own pipeline exported (CSV or JSON)
   assay calibrate [flags] SPEC.toml  re-split units at random many times (A/A) and
                                      report each metric's false-positive rate
+  assay reach METRIC SPEC|DIR...     list the specs that use a shared library metric
   assay version                      print the version
 
 Run 'assay COMMAND --help' for a command's flags.
@@ -71,6 +72,8 @@ func Run(args []string, stdin io.Reader, stdout, stderr io.Writer) (code int) {
 		return cmdAnalyze(args[1:], stdout, stderr)
 	case "calibrate":
 		return cmdCalibrate(args[1:], stdout, stderr)
+	case "reach":
+		return cmdReach(args[1:], stdout, stderr) // library.go
 	}
 	fmt.Fprintf(stderr, "assay: unknown command %q\n\n%s", args[0], usage)
 	return ExitInput
@@ -115,8 +118,11 @@ func parse(fs *flag.FlagSet, args []string) (string, int, bool) {
 
 // load reads and checks a spec, printing diagnostics to stderr.
 func load(path string, stderr io.Writer) (*metrics.Spec, bool) {
-	spec, src, ds := metrics.LoadFile(path)
-	printDiags(stderr, ds, src)
+	return loadFor(path, "", stderr) // library.go
+}
+
+// loadReport prints diagnostics and reports whether the spec can be used.
+func loadReport(path string, spec *metrics.Spec, ds metrics.Diagnostics, stderr io.Writer) (*metrics.Spec, bool) {
 	if spec == nil || ds.HasErrors() {
 		n := 0
 		for _, d := range ds {
