@@ -34,6 +34,11 @@ Usage:
                                      analyse a result set your own pipeline exported (CSV or JSON)
   assay calibrate [flags] SPEC.toml  re-split units at random many times (A/A) and
                                      report each metric's false-positive rate
+  assay fleet --out DIR [--store FILE] SPEC|DIR|GLOB...
+                                     run many specs on one connection: a report file and a status
+                                     line each, results appended to a store, one exit status
+  assay history --store FILE EXPERIMENT METRIC
+                                     how a metric's estimate and interval moved across stored runs
   assay reach METRIC SPEC|DIR...     list the specs that use a shared library metric
   assay version                      print the version
 
@@ -74,6 +79,10 @@ func Run(args []string, stdin io.Reader, stdout, stderr io.Writer) (code int) {
 		return cmdCalibrate(args[1:], stdout, stderr)
 	case "reach":
 		return cmdReach(args[1:], stdout, stderr) // library.go
+	case "fleet":
+		return cmdFleet(args[1:], stdout, stderr) // fleet.go
+	case "history":
+		return cmdHistory(args[1:], stdout, stderr) // history.go
 	}
 	fmt.Fprintf(stderr, "assay: unknown command %q\n\n%s", args[0], usage)
 	return ExitInput
