@@ -146,6 +146,7 @@ func runOne(ctx context.Context, eng *pipeline.Engine, path string, cf compileFl
 	if !ok {
 		return fail(ExitInput, "invalid spec (see the messages above)")
 	}
+	r.id = spec.ID
 	absoluteFiles(spec, path)
 	opt, err := cf.options(spec)
 	if err != nil {
