@@ -196,6 +196,15 @@ func TestHistoryThreeRuns(t *testing.T) {
 		t.Fatalf("history (text): exit %d\n%s", code, errb.String())
 	}
 	text := out.String()
+	var page bytes.Buffer
+	if code := Run([]string{"history", "--store", st, "--format", "html", "checkout-shelf-2026-03", "basket_28d"}, nil, &page, &errb); code != ExitOK {
+		t.Fatalf("history (html): exit %d\n%s", code, errb.String())
+	}
+	for _, w := range append([]string{"<svg", "shelf vs control"}, order...) {
+		if !strings.Contains(page.String(), w) {
+			t.Errorf("history html: want %q in the page", w)
+		}
+	}
 	if !strings.Contains(text, "3 point(s)") || strings.Index(text, "2026-04-03T00:00:00Z") > strings.Index(text, "2026-04-13T00:00:00Z") {
 		t.Errorf("history text: want three points in as-of order, got\n%s", text)
 	}

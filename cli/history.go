@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"os/signal"
 	"strconv"
@@ -13,6 +14,7 @@ import (
 	"time"
 
 	"github.com/assay-dev/assay/engine/store"
+	"github.com/assay-dev/assay/report/html"
 )
 
 // historyDoc is the JSON form of `assay history`: one point per stored run
@@ -29,7 +31,7 @@ type historyDoc struct {
 func cmdHistory(args []string, stdout, stderr io.Writer) int {
 	fs := flagSet("history", "history --store FILE [--format text|json] [--variant NAME] EXPERIMENT METRIC", stderr)
 	storePath := fs.String("store", "", "the results store written by assay fleet --store")
-	format := fs.String("format", "text", "output format: text or json")
+	format := fs.String("format", "text", "output format: text, json or html (a self-contained page with a plot per variant)")
 	variant := fs.String("variant", "", "only this treatment variant (default: every one)")
 	wait := fs.Duration("store-wait", time.Minute, "how long to wait for the results store while another run holds it")
 	pos, code, ok := parseMany(fs, args)
@@ -44,8 +46,8 @@ func cmdHistory(args []string, stdout, stderr io.Writer) int {
 	case *storePath == "":
 		fmt.Fprintf(stderr, "assay history: --store FILE is required\n")
 		return ExitInput
-	case *format != "text" && *format != "json":
-		fmt.Fprintf(stderr, "assay history: --format must be text or json\n")
+	case *format != "text" && *format != "json" && *format != "html":
+		fmt.Fprintf(stderr, "assay history: --format must be text, json or html\n")
 		return ExitInput
 	}
 	if _, err := os.Stat(*storePath); err != nil {
@@ -84,6 +86,13 @@ func cmdHistory(args []string, stdout, stderr io.Writer) int {
 			return ExitEngine
 		}
 		stdout.Write(append(b, '\n'))
+		return ExitOK
+	}
+	if *format == "html" {
+		if err := historyHTML(stdout, pos[0], pos[1], points); err != nil {
+			fmt.Fprintf(stderr, "assay history: %v\n", err)
+			return ExitEngine
+		}
 		return ExitOK
 	}
 	if len(points) == 0 {
@@ -139,4 +148,42 @@ func cleanErr(err error) string {
 		return pe.Err.Error()
 	}
 	return err.Error()
+}
+
+// historyHTML writes the history as a self-contained page: per treatment
+// variant, the estimate and its interval against the as-of time of each
+// run, with the numbers in a table beside the plot.
+func historyHTML(w io.Writer, experiment, metric string, points []store.Point) error {
+	page := html.Page{Title: fmt.Sprintf("History of %s in %s", metric, experiment)}
+	var variants []string
+	byVariant := map[string][]store.Point{}
+	for _, p := range points {
+		if _, ok := byVariant[p.Variant]; !ok {
+			variants = append(variants, p.Variant)
+		}
+		byVariant[p.Variant] = append(byVariant[p.Variant], p)
+	}
+	if len(points) == 0 {
+		page.Sections = append(page.Sections, html.Section{Heading: "No stored runs", Blocks: []html.Block{html.Paragraph{Text: "The results store holds no run of this metric in this experiment."}}})
+	}
+	val := func(x *float64) float64 {
+		if x == nil {
+			return math.NaN()
+		}
+		return *x
+	}
+	for _, v := range variants {
+		ps := byVariant[v]
+		line := html.Line{ID: "history-" + v, Title: fmt.Sprintf("%s vs %s: difference by as-of time", v, ps[0].Baseline),
+			Desc: "Each point is one stored run: its estimate and interval as of that time; the axis counts days from the first run's as-of time.", YLabel: "difference (" + v + " - " + ps[0].Baseline + ")", Absolute: true}
+		for i, p := range ps {
+			day := int(p.AsOf.Sub(ps[0].AsOf).Hours() / 24)
+			if i > 0 && day <= line.Points[i-1].Day {
+				day = line.Points[i-1].Day + 1 // runs on one day keep their order
+			}
+			line.Points = append(line.Points, html.LinePoint{Day: day, Label: p.AsOf.Format(time.RFC3339), Estimate: val(p.Difference), Low: val(p.CILow), High: val(p.CIHigh)})
+		}
+		page.Sections = append(page.Sections, html.Section{ID: "variant-" + v, Heading: v + " vs " + ps[0].Baseline, Blocks: []html.Block{line}})
+	}
+	return html.Render(w, page)
 }

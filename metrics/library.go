@@ -120,7 +120,7 @@ type LoadOptions struct {
 type SharedDef struct {
 	Library     string // the library file, as resolved
 	Name        string // the definition's name in the library
-	Fingerprint string // 8 hex digits of the definition as used (canonical JSON)
+	Fingerprint string // 8 hex digits of the library's definition (canonical JSON)
 	Overrides   []Override
 	At          Range // the spec's `shared` key
 }
@@ -536,13 +536,10 @@ func (l *loader) mergeMetric(name string, mt map[string]any) map[string]any {
 			delete(merged, "margin")
 		}
 	}
-	used := copyMap(def)
-	for _, k := range OverridableKeys {
-		if v, ok := mt[k]; ok {
-			used[k] = v
-		}
-	}
-	text := canonical("metric", lib.File, ref, used)
+	// The definition fingerprint covers the library's text only: a change
+	// of an override is the spec's and shows in the spec's fingerprint and
+	// the rule's "overridden here" part.
+	text := canonical("metric", lib.File, ref, def)
 	sum := sha256.Sum256([]byte(text))
 	sd.Fingerprint = hex.EncodeToString(sum[:4])
 	l.lib.defs = append(l.lib.defs, text)
