@@ -2,6 +2,7 @@ package cli
 
 import (
 	"bytes"
+	"encoding/json"
 	"os"
 	"path/filepath"
 	"strings"
@@ -103,5 +104,43 @@ func TestLibraryCommands(t *testing.T) {
 				t.Errorf("stderr: got %q, want %q", errb.String(), tc.stderr)
 			}
 		})
+	}
+}
+
+// TestOverridesShown checks that an experiment's overrides of a shared
+// definition are visible in the compiled SQL's comment and in the JSON
+// report's metric, and that a metric taken as the library has it has none.
+func TestOverridesShown(t *testing.T) {
+	var sqlText, errb bytes.Buffer
+	if code := Run([]string{"compile", "--query", "main", checkoutSpec}, nil, &sqlText, &errb); code != ExitOK {
+		t.Fatalf("compile: exit %d\n%s", code, errb.String())
+	}
+	want := `-- cancelled_28d (guard, mean): mean per unit of count of rows where status = 'cancelled'; window [trigger + 0d, trigger + 28d), mature units only; shared definition cancellations from grocery.toml (definition `
+	if !strings.Contains(sqlText.String(), want) || !strings.Contains(sqlText.String(), `margin 0.03 (library: 0.05), window ["0d", "28d"] (library: ["0d", "14d"])`) {
+		t.Errorf("compiled SQL: want the shared definition and its overrides in the metric's comment")
+	}
+	if testing.Short() {
+		return
+	}
+	rep := runJSON(t, "--segments=false", checkoutSpec)
+	for _, m := range rep["metrics"].([]any) {
+		mm := m.(map[string]any)
+		if mm["name"] != "cancelled_28d" {
+			continue
+		}
+		if mm["shared"] != "cancellations (grocery.toml)" || mm["margin"] != 0.03 {
+			t.Errorf("report: got shared %v margin %v, want cancellations (grocery.toml) and 0.03", mm["shared"], mm["margin"])
+		}
+		got, _ := json.Marshal(mm["overrides"])
+		if !strings.Contains(string(got), `margin 0.03 (library: 0.05)`) {
+			t.Errorf("report overrides: got %s", got)
+		}
+	}
+	demoRep := runJSON(t, "--segments=false", demo)
+	for _, m := range demoRep["metrics"].([]any) {
+		mm := m.(map[string]any)
+		if mm["name"] == "orders_14d" && (mm["shared"] != "delivered_orders (grocery.toml)" || mm["overrides"] != nil) {
+			t.Errorf("demo orders_14d: got shared %v overrides %v, want delivered_orders and none", mm["shared"], mm["overrides"])
+		}
 	}
 }
