@@ -423,6 +423,10 @@ func (l *loader) readLibraries(v any) {
 	}
 	seen := map[string]bool{}
 	for i, p := range paths {
+		if !strings.HasSuffix(strings.ToLower(p), ".toml") {
+			l.errAt(at[i], CodeLibrary, "a library is a TOML file, e.g. library = \"../library/grocery.toml\"", "library %q is not a .toml file", p)
+			continue
+		}
 		full := p
 		if !filepath.IsAbs(p) {
 			full = filepath.Join(filepath.Dir(l.file), p)

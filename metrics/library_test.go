@@ -179,6 +179,8 @@ func TestSharedDiagnostics(t *testing.T) {
 			"spec.toml", 1, metrics.CodeLibrary, "has errors"},
 		{"missing library", libText, strings.Replace(specHead, "lib.toml", "nope.toml", 1) + "\n[metrics.m]\nshared = \"spend\"\nrole = \"primary\"\n",
 			"spec.toml", 1, metrics.CodeLibrary, "cannot read library"},
+		{"library not a TOML file", libText, strings.Replace(specHead, "lib.toml", "lib.txt", 1) + "\n[metrics.m]\nshared = \"spend\"\nrole = \"primary\"\n",
+			"spec.toml", 1, metrics.CodeLibrary, "is not a .toml file"},
 		{"source reshaped", libText, specHead + "\n[sources.pay]\nfile = \"p.csv\"\nunit = \"uid\"\ntime = \"at\"\ncolumns = [\"uid\", \"at\"]\n\n[metrics.m]\nshared = \"spend\"\nrole = \"primary\"\n",
 			"spec.toml", 21, metrics.CodeSharedSource, "differs from library lib.toml in `columns`"},
 		{"override out of range, in the spec", libText, specHead + "\n[metrics.m]\nshared = \"refunds\"\nrole = \"guard\"\nmargin = 1.5\n",
