@@ -8,12 +8,17 @@ import (
 )
 
 func cmdCheck(args []string, stdout, stderr io.Writer) int {
-	fs := flagSet("check", "check SPEC.toml", stderr)
+	fs := flagSet("check", "check SPEC.toml|LIBRARY.toml", stderr)
+	var place string
+	registerPlace(fs, &place) // library.go
 	path, code, ok := parse(fs, args)
 	if !ok {
 		return code
 	}
-	spec, ok := load(path, stderr)
+	if src, lib := isLibraryFile(path); lib { // library.go: a library checks on its own
+		return checkLibrary(path, src, stdout, stderr)
+	}
+	spec, ok := loadFor(path, place, stderr)
 	if !ok {
 		return ExitInput
 	}

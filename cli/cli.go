@@ -30,7 +30,7 @@ const (
 const usage = `assay compiles experiment metric definitions into SQL and analyses the results.
 
 Usage:
-  assay check SPEC.toml              validate a spec; print every problem
+  assay check SPEC.toml              validate a spec (or a shared library file); print every problem
   assay compile [flags] SPEC.toml    print the SQL for a spec
   assay run [flags] SPEC.toml        run the SQL on DuckDB (or --dsn PostgreSQL/MySQL) and print the analysis
   assay analyze SPEC.toml --aggregates FILE
@@ -41,6 +41,12 @@ Usage:
                                      (sample ratio, logging, guards at a looser level; a fix-first list)
   assay size [flags] SPEC.toml       before launch: baselines, traffic and the whole-week
                                      duration a target effect needs, from a pre-period
+  assay fleet --out DIR [--store FILE] SPEC|DIR|GLOB...
+                                     run many specs on one connection: a report file and a status
+                                     line each, results appended to a store, one exit status
+  assay history --store FILE EXPERIMENT METRIC
+                                     how a metric's estimate and interval moved across stored runs
+  assay reach METRIC SPEC|DIR...     list the specs that use a shared library metric
   assay version                      print the version
 
 Run 'assay COMMAND --help' for a command's flags.
@@ -83,6 +89,12 @@ func Run(args []string, stdin io.Reader, stdout, stderr io.Writer) (code int) {
 		return cmdRampCheck(args[1:], stdout, stderr)
 	case "size":
 		return cmdSize(args[1:], stdout, stderr)
+	case "reach":
+		return cmdReach(args[1:], stdout, stderr) // library.go
+	case "fleet":
+		return cmdFleet(args[1:], stdout, stderr) // fleet.go
+	case "history":
+		return cmdHistory(args[1:], stdout, stderr) // history.go
 	}
 	fmt.Fprintf(stderr, "assay: unknown command %q\n\n%s", args[0], usage)
 	return ExitInput
@@ -127,8 +139,11 @@ func parse(fs *flag.FlagSet, args []string) (string, int, bool) {
 
 // load reads and checks a spec, printing diagnostics to stderr.
 func load(path string, stderr io.Writer) (*metrics.Spec, bool) {
-	spec, src, ds := metrics.LoadFile(path)
-	printDiags(stderr, ds, src)
+	return loadFor(path, "", stderr) // library.go
+}
+
+// loadReport prints diagnostics and reports whether the spec can be used.
+func loadReport(path string, spec *metrics.Spec, ds metrics.Diagnostics, stderr io.Writer) (*metrics.Spec, bool) {
 	if spec == nil || ds.HasErrors() {
 		n := 0
 		for _, d := range ds {

@@ -22,12 +22,14 @@ type compileFlags struct {
 	groupBy  string
 	segments bool
 	health   bool
+	place    string // library.go: the target that picks each source's place
 }
 
 func (c *compileFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&c.dialect, "dialect", "duckdb", "SQL dialect: "+strings.Join(dialects.Names(), ", "))
 	fs.StringVar(&c.asOf, "as-of", "", "count outcomes up to this time (RFC 3339, e.g. 2026-04-01T00:00:00Z); default: the analysis end")
 	c.registerBreakdowns(fs)
+	registerPlace(fs, &c.place) // library.go
 }
 
 func (c *compileFlags) registerBreakdowns(fs *flag.FlagSet) {
@@ -109,7 +111,7 @@ func cmdCompile(args []string, stdout, stderr io.Writer) int {
 	if !ok {
 		return code
 	}
-	spec, ok := load(path, stderr)
+	spec, ok := loadFor(path, cf.place, stderr)
 	if !ok {
 		return ExitInput
 	}
@@ -220,7 +222,7 @@ func compileFiles(paths []string, cf compileFlags, which, out, check string, std
 	var order []string
 	from := map[string]string{} // file name -> spec path
 	for _, path := range paths {
-		spec, ok := load(path, stderr)
+		spec, ok := loadFor(path, cf.place, stderr)
 		if !ok {
 			return ExitInput
 		}
@@ -275,6 +277,7 @@ func compileFiles(paths []string, cf compileFlags, which, out, check string, std
 		case string(got) != files[f]:
 			fmt.Fprintf(stderr, "assay compile --check: %s is stale: it differs from what %s compiles to now\n", p, from[f])
 			stale++
+			explainStale(stderr, got, files[f]) // library.go: names the metrics that changed
 		}
 	}
 	if stale > 0 {

@@ -63,7 +63,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		}
 		saveTarget = t
 	}
-	spec, ok := load(path, stderr)
+	spec, ok := loadFor(path, cf.place, stderr)
 	if !ok {
 		return ExitInput
 	}

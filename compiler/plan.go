@@ -425,7 +425,7 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 			p.Centres = append(p.Centres, a)
 		}
 		mp.Stats = statsFor(mp)
-		mp.Rule = metricRule(mp)
+		mp.Rule = metricRule(mp) + sharedNote(m) // shared.go
 		if mp.Cov != nil {
 			mp.CovRule = covRule(mp)
 		}

@@ -122,6 +122,9 @@ func TestDemo(t *testing.T) {
 	}
 	schema := newSchemaName()
 	text := fileSource.ReplaceAllString(string(src), `table = "`+schema+`.$1"`)
+	// The copy uses the demo's shared library, by absolute path.
+	lib, _ := filepath.Abs(filepath.Join("..", "testdata", "library", "grocery.toml"))
+	text = strings.Replace(text, `library = "../library/grocery.toml"`, `library = "`+filepath.ToSlash(lib)+`"`, 1)
 	if strings.Contains(text, "file =") || !strings.Contains(text, "table =") {
 		t.Fatal("the demo spec's file sources were not all rewritten to tables")
 	}

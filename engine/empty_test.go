@@ -32,6 +32,9 @@ func emptyDemo(t *testing.T, empty map[string][2]string) string {
 	}
 	dir := t.TempDir()
 	text := string(src)
+	// The copy's shared library is the demo's, by absolute path.
+	lib, _ := filepath.Abs("../testdata/library/grocery.toml")
+	text = strings.Replace(text, `library = "../library/grocery.toml"`, `library = "`+filepath.ToSlash(lib)+`"`, 1)
 	for _, name := range []string{"exposures", "orders", "taps", "support", "customers"} {
 		old := `file = "data/` + name + `.parquet"`
 		path := filepath.Join(data, name+".parquet")

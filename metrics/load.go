@@ -43,7 +43,12 @@ func cleanIOError(err error) string {
 // Load parses and checks a spec. Problems are reported all at once; the
 // returned spec is nil only when the TOML itself could not be parsed.
 func Load(file string, src []byte) (*Spec, Diagnostics) {
-	l := &loader{file: file, src: src}
+	return LoadWith(file, src, LoadOptions{})
+}
+
+// LoadWith is Load with options (the target that picks each source's place).
+func LoadWith(file string, src []byte, o LoadOptions) (*Spec, Diagnostics) {
+	l := &loader{file: file, src: src, opts: o}
 	if !utf8.Valid(src) {
 		off := 0
 		for off < len(src) {
@@ -64,7 +69,9 @@ func Load(file string, src []byte) (*Spec, Diagnostics) {
 	l.ix = buildKeyIndex(src)
 	sum := sha256.Sum256(src)
 	l.spec = &Spec{File: file, Fingerprint: hex.EncodeToString(sum[:8]), Ranges: map[string]Range{}}
+	l.useLibraries(raw) // library.go: merges shared definitions and picks places
 	l.load(raw)
+	l.sealShared() // library.go: records overrides, extends the fingerprint
 	l.diags.Sort()
 	return l.spec, l.diags
 }
@@ -94,6 +101,8 @@ type loader struct {
 	ix    *keyIndex
 	diags Diagnostics
 	spec  *Spec
+	opts  LoadOptions
+	lib   *libState // library.go: where merged keys came from
 }
 
 // pos returns the position of byte offset off in the spec text.
@@ -106,6 +115,9 @@ func (l *loader) pos(off int) Pos {
 
 // rng returns the range of a key path's value (or key when keyOnly).
 func (l *loader) rng(path []string, keyOnly bool) Range {
+	if r, ok := l.foreignRange(path, keyOnly); ok { // library.go
+		return r
+	}
 	for n := len(path); n > 0; n-- {
 		if loc, ok := l.ix.keys[pathKey(path[:n]...)]; ok {
 			r := loc.value
@@ -373,7 +385,7 @@ func tomlType(v any) string {
 
 // ---- the spec ----
 
-var topKeys = []string{"experiment", "variants", "sources", "exposure", "eligibility", "metrics", "segments", "rollout", "prior_runs", "calendar", "planning"}
+var topKeys = []string{"experiment", "variants", "sources", "exposure", "eligibility", "metrics", "segments", "rollout", "prior_runs", "calendar", "planning", libraryKey}
 
 func (l *loader) load(raw map[string]any) {
 	root := l.table(nil, raw, topKeys...)
@@ -932,6 +944,9 @@ func (l *loader) annotateTimes(n expr.Node, src *Source) {
 // exprOrigin returns the byte offset in the file where the expression text
 // begins, when offsets inside the string map one to one onto the file.
 func (l *loader) exprOrigin(path []string, text string) (int, bool) {
+	if l.isForeign(path) { // library.go: the text lives in another file
+		return 0, false
+	}
 	loc, ok := l.ix.keys[pathKey(path...)]
 	if !ok {
 		return 0, false

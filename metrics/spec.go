@@ -44,6 +44,13 @@ type Spec struct {
 	Planning *Planning
 
 	Ranges map[string]Range // key path ("metrics.orders.window") -> value range
+
+	// Libraries are the shared definition files the spec uses, as resolved
+	// paths, in the order written (see library.go).
+	Libraries []string
+	// Target is the place chosen for sources that say where they live per
+	// target ("" when none was chosen).
+	Target string
 }
 
 // Variant is one arm with its planned allocation weight.
@@ -193,10 +200,11 @@ type Metric struct {
 	Covariate *Covariate
 	// Guard metrics.
 	Harmful Direction // which direction of change is harm
-
-	Margin float64 // tolerated relative change, e.g. 0.02
-	Label  string
-	At     Range
+	Margin  float64   // tolerated relative change, e.g. 0.02
+	Label   string
+	At      Range
+	// Shared is set when the metric's definition comes from a library.
+	Shared *SharedDef
 }
 
 // Aggs returns the metric's per-unit aggregates.

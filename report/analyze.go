@@ -197,6 +197,10 @@ type MetricInfo struct {
 	Harmful   string    `json:"harmful,omitempty"`
 	Margin    *float64  `json:"margin,omitempty"`
 	Covariate *CovInfo  `json:"covariate,omitempty"`
+	// Shared names the library definition the metric uses, and Overrides
+	// what this experiment set differently (see shared.go).
+	Shared    string   `json:"shared,omitempty"`
+	Overrides []string `json:"overrides,omitempty"`
 	// NonFiniteRows counts outcome rows whose value was NaN or infinite;
 	// they are left out of the sums.
 	NonFiniteRows int64 `json:"nonfinite_rows"`
@@ -674,6 +678,7 @@ func ratio(a, b float64) float64 {
 func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]*results.Row, level float64) MetricInfo {
 	m := mp.M
 	mi := MetricInfo{Name: m.Name, Label: m.Label, Role: string(m.Role), Kind: kindName(m), Window: [2]string{m.From.Text, m.To.Text}, Rule: mp.Rule, Comparisons: []Compare{}}
+	mi.Shared, mi.Overrides = sharedInfo(m) // shared.go
 	if m.Role == metrics.Guard {
 		mi.Harmful = string(m.Harmful)
 		margin := m.Margin

@@ -1,4 +1,4 @@
--- assay 0.1.0 cohort table query for experiment reorder-shelf-2026-03 (spec fingerprint 29a70e58dcc0a2ef)
+-- assay 0.1.0 cohort table query for experiment reorder-shelf-2026-03 (spec fingerprint 846d848ffe86fa82)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
@@ -91,7 +91,7 @@ SELECT n.unit_id, NULL AS variant, NULL AS trigger_us, NULL AS trigger_day, NULL
 FROM never_triggered AS n
 ;
 
--- assay 0.1.0 per-variant statistics query for experiment reorder-shelf-2026-03 (spec fingerprint 29a70e58dcc0a2ef)
+-- assay 0.1.0 per-variant statistics query for experiment reorder-shelf-2026-03 (spec fingerprint 846d848ffe86fa82)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
@@ -243,13 +243,13 @@ centres AS (
 -- The overall rows and one set of rows per breakdown, from one pass over the units: in each
 -- grouping the keys it does not use are NULL.
 SELECT
-  '29a70e58dcc0a2ef' AS "spec_fingerprint",
+  '846d848ffe86fa82' AS "spec_fingerprint",
   'as_of=2026-04-13T00:00:00Z;by=platform,tenure' AS "compile_options",
   u.variant AS "variant",
   u."key_seg_platform" AS "seg_platform",
   u."key_seg_tenure" AS "seg_tenure",
   count(*) AS "units",
-  -- orders_14d (primary, mean): mean per unit of count of rows where status = 'delivered'; window [trigger + 0d, trigger + 14d), mature units only
+  -- orders_14d (primary, mean): mean per unit of count of rows where status = 'delivered'; window [trigger + 0d, trigger + 14d), mature units only; shared definition delivered_orders from grocery.toml (definition a3ead006)
   count(CASE WHEN u.mature_14d THEN 1 END) AS "orders_14d__n",
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) ELSE min(c0."c_orders_14d") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END - c0."c_orders_14d")) END AS "orders_14d__mean",
   var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END - c0."c_orders_14d")) AS "orders_14d__var",
@@ -261,7 +261,7 @@ SELECT
   count(CASE WHEN u.mature_14d THEN 1 END) AS "shelf_taps__n",
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) ELSE min(c0."c_shelf_taps") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END - c0."c_shelf_taps")) END AS "shelf_taps__mean",
   var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END - c0."c_shelf_taps")) AS "shelf_taps__var",
-  -- basket_value (secondary, ratio): per-unit sum of amount where status = 'delivered' over per-unit count of rows where status = 'delivered'; window [trigger + 0d, trigger + 14d), mature units only
+  -- basket_value (secondary, ratio): per-unit sum of amount where status = 'delivered' over per-unit count of rows where status = 'delivered'; window [trigger + 0d, trigger + 14d), mature units only; shared definition revenue_per_order from grocery.toml (definition 80b756ca)
   count(CASE WHEN u.mature_14d THEN 1 END) AS "basket_value__n",
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) ELSE min(c0."c_basket_value__num") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END - c0."c_basket_value__num")) END AS "basket_value__num_mean",
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) ELSE min(c0."c_basket_value__den") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END - c0."c_basket_value__den")) END AS "basket_value__den_mean",
@@ -274,15 +274,15 @@ SELECT
   covar_samp((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END - c0."c_basket_value__num"), (CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END - c0."c_basket_value__x")) AS "basket_value__num_x_cov",
   covar_samp((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END - c0."c_basket_value__den"), (CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END - c0."c_basket_value__x")) AS "basket_value__den_x_cov",
   sum(u."m_basket_value__num__nonfinite") AS "basket_value__nonfinite_rows",
-  -- converted (secondary, proportion): share of units whose count of rows where status = 'delivered' is above 0; window [trigger + 0d, trigger + 14d), mature units only
+  -- converted (secondary, proportion): share of units whose count of rows where status = 'delivered' is above 0; window [trigger + 0d, trigger + 14d), mature units only; shared definition ordered_at_all from grocery.toml (definition 29d6f30e)
   count(CASE WHEN u.mature_14d THEN 1 END) AS "converted__n",
   avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_converted" > 0 THEN 1.0 ELSE 0.0 END END) AS "converted__mean",
   var_samp(CASE WHEN u.mature_14d THEN CASE WHEN u."m_converted" > 0 THEN 1.0 ELSE 0.0 END END) AS "converted__var",
-  -- cancelled (guard, mean): mean per unit of count of rows where status = 'cancelled'; window [trigger + 0d, trigger + 14d), mature units only
+  -- cancelled (guard, mean): mean per unit of count of rows where status = 'cancelled'; window [trigger + 0d, trigger + 14d), mature units only; shared definition cancellations from grocery.toml (definition 9b45bd3c)
   count(CASE WHEN u.mature_14d THEN 1 END) AS "cancelled__n",
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END) ELSE min(c0."c_cancelled") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END - c0."c_cancelled")) END AS "cancelled__mean",
   var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_cancelled" AS DOUBLE) END - c0."c_cancelled")) AS "cancelled__var",
-  -- support_contacts (guard, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 14d), mature units only
+  -- support_contacts (guard, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 14d), mature units only; shared definition support_contacts from grocery.toml (definition 2753c20d)
   count(CASE WHEN u.mature_14d THEN 1 END) AS "support_contacts__n",
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END) ELSE min(c0."c_support_contacts") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END - c0."c_support_contacts")) END AS "support_contacts__mean",
   var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END - c0."c_support_contacts")) AS "support_contacts__var"
@@ -292,7 +292,7 @@ GROUP BY GROUPING SETS ((u.variant), (u.variant, u."key_seg_platform"), (u.varia
 ORDER BY "variant", "seg_platform", "seg_tenure"
 ;
 
--- assay 0.1.0 health query for experiment reorder-shelf-2026-03 (spec fingerprint 29a70e58dcc0a2ef)
+-- assay 0.1.0 health query for experiment reorder-shelf-2026-03 (spec fingerprint 846d848ffe86fa82)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
