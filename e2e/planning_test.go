@@ -576,7 +576,7 @@ func TestRunAgainstPlan(t *testing.T) {
 			t.Errorf("as of %q: interim caution %v for stage %s", tc.asOf, containsLine(r.Cautions, "not the planned final look"), tc.stage)
 		}
 	}
-	if r := run(noPlan); r.Plan.Fixed || !strings.Contains(r.Plan.Statement, "No duration was fixed in advance") || !containsLine(r.Cautions, "No duration was fixed in advance") {
+	if r := run(noPlan); r.Plan.Fixed || !strings.Contains(r.Plan.Statement, "No sample size or duration was planned") || !containsLine(r.Cautions, "No sample size or duration was planned") {
 		t.Errorf("no plan: %+v", r.Plan)
 	}
 	code, out, _ := runCLI("run", withPlan)

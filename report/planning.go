@@ -788,7 +788,7 @@ func AgainstPlan(p *compiler.Plan, r *Report) {
 	s := p.Spec
 	pl := s.Planning
 	if pl == nil || (pl.PlannedEnd.IsZero() && pl.PlannedUnits == 0) {
-		pc.Statement = "No duration was fixed in advance (the spec's [planning] table has no planned_end or planned_units): there is no planned end to tell an interim look from the final one. Plan the duration with assay size before launch."
+		pc.Statement = "No sample size or duration was planned (the spec has no planned_end or planned_units in [planning]): the spec's end date was not derived from the traffic and the effect worth detecting, so whether this sample could detect it is unknown. Plan it with assay size before launch."
 		r.addCaution(pc.Statement)
 		return
 	}
