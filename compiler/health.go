@@ -1,0 +1,111 @@
+package compiler
+
+import (
+	"fmt"
+	"strings"
+)
+
+// The health query: exposures, triggers, exclusions, ignored rows and
+// undeclared variants, with the columns of HealthColumns.
+
+// health prints the exposure and exclusion counts query. Its rows and
+// columns are the plan's health contract (HealthColumns, HealthKind).
+func (pr *printer) health() (string, error) {
+	pr.b.Reset()
+	p := pr.p
+	src := p.Spec.Exposure.Source
+	pr.header("health")
+	neverFrom := "exposed_units AS u"
+	if pr.stage != nil {
+		pr.line(0, "-- Reads the cohort table of the setup statement.")
+		pr.line(0, "WITH")
+		pr.exposureRows()
+		pr.stagedCohort()
+		neverFrom = pr.stage.TempRef(StagedTable) + " AS u"
+	} else {
+		pr.cohort()
+	}
+	pr.line(0, "-- Exposure rows outside the analysis window, or without a unit or time.")
+	pr.line(0, "ignored_rows AS (")
+	pr.line(1, "SELECT")
+	pr.line(2, "count(CASE WHEN x.%s IS NULL THEN 1 END) AS %s,", pr.id(src.Unit), IgnoredNullUnit)
+	pr.line(2, "count(CASE WHEN x.%s IS NULL THEN 1 END) AS %s,", pr.id(src.Time), IgnoredNullTime)
+	t := pr.time(src, "x")
+	pr.line(2, "count(CASE WHEN %s < %s THEN 1 END) AS %s,", t, us(p.StartUS), IgnoredBeforeStart)
+	pr.line(2, "count(CASE WHEN %s >= %s THEN 1 END) AS %s", t, us(p.EndUS), IgnoredAfterEnd)
+	pr.line(1, "FROM %s AS x", pr.from(src))
+	pr.line(0, "),")
+	pr.line(0, "-- Exposure rows in the window without a variant: they count for the trigger time only.")
+	pr.line(0, "variantless_rows AS (")
+	pr.line(1, "SELECT count(*) - count(variant) AS %s FROM exposure_rows", IgnoredNullVariant)
+	pr.line(0, "),")
+	pr.line(0, "-- Undeclared variant values of triggered units, the %d with the most units.", UnknownVariantValues)
+	pr.line(0, "unknown_values AS (")
+	pr.line(1, "SELECT v.variant, v.units FROM (")
+	pr.line(2, "SELECT c.variant, count(*) AS units,")
+	pr.line(3, "row_number() OVER (ORDER BY count(*) DESC, c.variant) AS value_rank")
+	pr.line(2, "FROM cohort AS c")
+	pr.line(2, "WHERE c.is_unknown_variant AND c.variant IS NOT NULL AND NOT c.is_crossover")
+	pr.line(2, "GROUP BY c.variant")
+	pr.line(1, ") AS v")
+	pr.line(1, "WHERE v.value_rank <= %d", UnknownVariantValues)
+	outcome := pr.outcomeSources()
+	pr.line(0, ")%s", commaIf(len(outcome) > 0))
+	for i, o := range outcome {
+		pr.line(0, "-- Rows of %s that no metric or rule can use: no unit or no time.", oneLine(o.Name))
+		pr.line(0, "nulls_%d AS (", i+1)
+		// count(*) - count(x) rather than a CASE per row: an engine that
+		// keeps NULL statistics per block (DuckDB does) answers it without
+		// reading a column that holds no NULLs.
+		pr.line(1, "SELECT count(*) - count(s.%s) AS %s, count(*) - count(s.%s) AS %s", pr.id(o.Unit), IgnoredNullUnit, pr.id(o.Time), IgnoredNullTime)
+		pr.line(1, "FROM %s AS s", pr.from(o))
+		pr.line(0, ")%s", commaIf(i < len(outcome)-1))
+	}
+	hc := make([]string, len(HealthColumns))
+	for i, c := range HealthColumns {
+		hc[i] = "h." + c
+	}
+	pr.line(0, "SELECT %s FROM (", strings.Join(hc, ", "))
+	first := true
+	sel := func(kind HealthKind, reason, source, variant, day, rows, units, from, where, group string) {
+		if !first {
+			pr.line(1, "UNION ALL")
+		}
+		first = false
+		pr.line(1, "SELECT %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s, %s AS %s", pr.d.Literal(string(kind)), HColKind, reason, HColReason, source, HColSource, variant, HColVariant, day, HColDay, rows, HColRows, units, HColUnits)
+		pr.line(1, "FROM %s", from)
+		if where != "" {
+			pr.line(1, "WHERE %s", where)
+		}
+		if group != "" {
+			pr.line(1, "GROUP BY %s", group)
+		}
+	}
+	q := pr.d.Literal
+	day := pr.d.Day("ts_us", p.TZ)
+	sel(HealthExposures, "NULL", "NULL", "variant", day, "count(*)", "count(DISTINCT unit_id)", "exposure_rows", "", "variant, "+day)
+	sel(HealthTriggers, "NULL", "NULL", "variant", "trigger_day", "count(*)", "count(*)", "cohort", "", "variant, trigger_day")
+	sel(HealthNeverTriggered, "NULL", "NULL", "NULL", "NULL", "count(*)", "count(*)", neverFrom, "u.trigger_us IS NULL", "")
+	var all []string
+	for _, x := range p.Exclusions {
+		sel(HealthExcluded, q(x.Reason), "NULL", "variant", "NULL", "count(*)", "count(*)", "cohort", pr.id(x.Flag), "variant")
+		all = append(all, pr.id(x.Flag))
+	}
+	sel(HealthExcluded, q(ExcludedAny), "NULL", "variant", "NULL", "count(*)", "count(*)", "cohort", strings.Join(all, " OR "), "variant")
+	for _, ig := range IgnoredExposureReasons {
+		from := "ignored_rows"
+		if ig == IgnoredNullVariant {
+			from = "variantless_rows"
+		}
+		sel(HealthIgnoredRows, q(ig), "NULL", "NULL", "NULL", ig, "NULL", from, "", "")
+	}
+	for i, o := range outcome {
+		for _, ig := range IgnoredOutcomeReasons {
+			sel(HealthOutcomeRows, q(ig), q(o.Name), "NULL", "NULL", ig, "NULL", fmt.Sprintf("nulls_%d", i+1), "", "")
+		}
+	}
+	sel(HealthUnknownVariant, "NULL", "NULL", "variant", "NULL", "units", "units", "unknown_values", "", "")
+	pr.line(0, ") AS h")
+	pr.line(0, "ORDER BY h.%s, h.%s, h.%s, h.%s, h.%s", HColKind, HColReason, HColSource, HColVariant, HColDay)
+	return pr.b.String(), pr.err
+}
