@@ -18,7 +18,6 @@
 package crossengine
 
 import (
-	"bytes"
 	"context"
 	"crypto/rand"
 	"database/sql"
@@ -33,6 +32,8 @@ import (
 	"strings"
 	"testing"
 	"time"
+
+	"github.com/assay-dev/assay/internal/testkit"
 
 	_ "github.com/duckdb/duckdb-go/v2"
 	"github.com/go-sql-driver/mysql"
@@ -318,15 +319,14 @@ func runCLI(t *testing.T, e *engineRun, spec string, extra ...string) (int, map[
 	t.Helper()
 	args := append([]string{"run", "--format", "json"}, e.args...)
 	args = append(append(args, extra...), spec)
-	var o, errb bytes.Buffer
-	code := cli.Run(args, nil, &o, &errb)
+	code, out, errs := testkit.Run(args...)
 	var rep map[string]any
 	if code == cli.ExitOK || code == cli.ExitSRM || code == cli.ExitHarm {
-		if err := json.Unmarshal(o.Bytes(), &rep); err != nil {
-			t.Fatalf("%s: report is not JSON: %v\n%s", e.name, err, errb.String())
+		if err := json.Unmarshal([]byte(out), &rep); err != nil {
+			t.Fatalf("%s: report is not JSON: %v\n%s", e.name, err, errs)
 		}
 	}
-	return code, rep, errb.String()
+	return code, rep, errs
 }
 
 // ---- comparing ----

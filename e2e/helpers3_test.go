@@ -22,6 +22,8 @@ import (
 	"testing"
 	"time"
 
+	"github.com/assay-dev/assay/internal/testkit"
+
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -140,57 +142,10 @@ var (
 	end3T   = ts("2026-04-13 00:00:00")
 )
 
-func quoteList(xs []string) string {
-	q := make([]string, len(xs))
-	for i, x := range xs {
-		q[i] = fmt.Sprintf("%q", x)
-	}
-	return strings.Join(q, ", ")
-}
-
 func (s spec3) toml() string {
-	variants := s.Variants
-	if variants == "" {
-		variants = "control = 0.5\ntreatment = 0.5\n"
-	}
-	events := s.EventsFile
-	if events == "" {
-		events = "events.parquet"
-	}
-	var b strings.Builder
-	fmt.Fprintf(&b, `[experiment]
-id = "e2e-analysis-fixture"
-hypothesis = "A synthetic fixture whose expected values are computed independently in the test."
-unit = "user"
-start = %s
-end = %s
-confidence = 0.95
-
-[variants]
-%s
-[sources.exposures]
-file = "exposures.parquet"
-unit = "unit_id"
-time = "exposed_at"
-columns = [%s]
-
-[sources.events]
-file = %q
-unit = "unit_id"
-time = "happened_at"
-columns = [%s]
-
-[exposure]
-source = "exposures"
-variant = "variant"
-`, start3, end3, variants,
-		quoteList(append([]string{"unit_id", "variant", "exposed_at"}, s.ExpoCols...)), events,
-		quoteList(append([]string{"unit_id", "happened_at"}, s.EventCols...)))
-	if s.ExposureFilter != "" {
-		fmt.Fprintf(&b, "filter = %q\n", s.ExposureFilter)
-	}
-	b.WriteString("\n" + s.Extra + "\n" + s.Metrics)
-	return b.String()
+	return testkit.Spec{ID: "e2e-analysis-fixture", Start: start3, End: end3, Variants: s.Variants,
+		ExposureCols: s.ExpoCols, EventsFile: s.EventsFile, EventCols: s.EventCols,
+		ExposureFilter: s.ExposureFilter, Extra: s.Extra, Metrics: s.Metrics}.TOML()
 }
 
 // ---- running ----

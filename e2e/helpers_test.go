@@ -15,9 +15,9 @@ import (
 	"testing"
 	"time"
 
-	_ "github.com/duckdb/duckdb-go/v2"
+	"github.com/assay-dev/assay/internal/testkit"
 
-	"github.com/assay-dev/assay/cli"
+	_ "github.com/duckdb/duckdb-go/v2"
 )
 
 // ---- fixture writing ----
@@ -137,51 +137,9 @@ type specParts struct {
 }
 
 func (p specParts) toml() string {
-	start, end := p.Start, p.End
-	if start == "" {
-		start = "2026-03-02T00:00:00Z"
-	}
-	if end == "" {
-		end = "2026-04-13T00:00:00Z"
-	}
-	var b strings.Builder
-	fmt.Fprintf(&b, `[experiment]
-id = "e2e-fixture"
-hypothesis = "An end-to-end fixture whose expected values are worked out by hand in the test."
-unit = "user"
-start = %s
-end = %s
-confidence = 0.95
-`, start, end)
-	if p.TimeZone != "" {
-		fmt.Fprintf(&b, "time_zone = %q\n", p.TimeZone)
-	}
-	b.WriteString(`
-[variants]
-control = 0.5
-treatment = 0.5
-
-[sources.exposures]
-file = "exposures.parquet"
-unit = "unit_id"
-time = "exposed_at"
-columns = ["unit_id", "variant", "exposed_at", "surface"]
-
-[sources.events]
-file = "events.parquet"
-unit = "unit_id"
-time = "happened_at"
-columns = ["unit_id", "happened_at", "w"]
-
-[exposure]
-source = "exposures"
-variant = "variant"
-`)
-	if p.ExposureFilter != "" {
-		fmt.Fprintf(&b, "filter = %q\n", p.ExposureFilter)
-	}
-	b.WriteString("\n" + p.Extra + "\n" + p.Metrics)
-	return b.String()
+	return testkit.Spec{ID: "e2e-fixture", Hypothesis: "An end-to-end fixture whose expected values are worked out by hand in the test.",
+		Start: p.Start, End: p.End, TimeZone: p.TimeZone, ExposureCols: []string{"surface"}, EventCols: []string{"w"},
+		ExposureFilter: p.ExposureFilter, Extra: p.Extra, Metrics: p.Metrics}.TOML()
 }
 
 // metricSumW is a primary metric: per-unit sum of events.w in [0d, 14d).
@@ -200,11 +158,7 @@ const eventCols = "unit_id, happened_at, w"
 // ---- running assay ----
 
 // runCLI runs the command line in-process.
-func runCLI(args ...string) (code int, stdout, stderr string) {
-	var o, e bytes.Buffer
-	code = cli.Run(args, nil, &o, &e)
-	return code, o.String(), e.String()
-}
+func runCLI(args ...string) (code int, stdout, stderr string) { return testkit.Run(args...) }
 
 // runReport runs `assay run --format json` on spec with extra flags and
 // decodes the report; a non-zero exit fails the test.
