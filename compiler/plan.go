@@ -157,9 +157,9 @@ type Plan struct {
 	Salt        int64
 	Weights     []float64
 	// Centres are the per-unit values shifted by their mean before the
-	// variance aggregates, and CentreBy says over which units that mean is
-	// taken: per variant, or pooled in calibration (whose groups mix the
-	// original variants).
+	// variance aggregates; CentrePerGroup says that mean is taken per
+	// variant (false: pooled, in calibration, whose groups mix the original
+	// variants).
 	Centres        []*AggPlan
 	CentrePerGroup bool
 	// Pooled says the plan is a planning query (Options.StandIn): Spec is

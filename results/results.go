@@ -230,9 +230,6 @@ func Health(cols []string, rows [][]any) ([]HealthRow, error) {
 	return out, nil
 }
 
-// ErrNoRows is returned when a main result has no rows at all.
-var ErrNoRows = errors.New("the main result has no rows")
-
 var dayPrefix = regexp.MustCompile(`^\d{4}-\d{2}-\d{2}([T ]|$)`)
 
 func list(names []string) string {
