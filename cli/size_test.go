@@ -21,7 +21,7 @@ func TestSizeFlags(t *testing.T) {
 		{"sql postgres", []string{"size", "--format", "sql", "--dialect", "postgres", spec}, cli.ExitOK, "CAST('all' AS TEXT) AS variant", ""},
 		{"sql overlapping period", []string{"size", "--format", "sql", "--start", "2026-04-20T00:00:00Z", "--end", "2026-05-04T00:00:00Z", spec}, cli.ExitInput, "", "overlaps the experiment"},
 		{"half a period", []string{"size", "--start", "2026-04-20T00:00:00Z", spec}, cli.ExitInput, "", "both --start and --end"},
-		{"no planning table", []string{"size", "../testdata/demo/reorder.toml"}, cli.ExitInput, "", "no [planning] table"},
+		{"no planning table", []string{"size", "../testdata/demo/checkout.toml"}, cli.ExitInput, "", "no [planning] table"},
 		{"format", []string{"size", "--format", "html", spec}, cli.ExitInput, "", "--format must be"},
 		{"power", []string{"size", "--power", "1.5", spec}, cli.ExitInput, "", "--power must be"},
 		{"max weeks", []string{"size", "--max-weeks", "53", spec}, cli.ExitInput, "", "--max-weeks must be"},

@@ -64,7 +64,7 @@ func demoTables(t *testing.T) []table {
 	}
 	defer db.Close()
 	var out []table
-	for _, name := range []string{"exposures", "orders", "taps", "support", "customers"} {
+	for _, name := range []string{"exposures", "orders", "taps", "support", "customers", "visits"} {
 		path, _ := filepath.Abs(filepath.Join("..", "testdata", "demo", "data", name+".parquet"))
 		rs, err := db.Query("SELECT * FROM read_parquet(?)", path)
 		if err != nil {

@@ -1,4 +1,4 @@
--- assay 0.1.0 cohort table query for experiment reorder-shelf-2026-03 (spec fingerprint 846d848ffe86fa82)
+-- assay 0.1.0 cohort table query for experiment reorder-shelf-2026-03 (spec fingerprint 1f4b3f1f0aeb1ae8)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
@@ -91,7 +91,7 @@ SELECT n.unit_id, NULL AS variant, NULL AS trigger_us, NULL AS trigger_day, NULL
 FROM never_triggered AS n
 ;
 
--- assay 0.1.0 per-variant statistics query for experiment reorder-shelf-2026-03 (spec fingerprint 846d848ffe86fa82)
+-- assay 0.1.0 per-variant statistics query for experiment reorder-shelf-2026-03 (spec fingerprint 1f4b3f1f0aeb1ae8)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
@@ -243,7 +243,7 @@ centres AS (
 -- The overall rows and one set of rows per breakdown, from one pass over the units: in each
 -- grouping the keys it does not use are NULL.
 SELECT
-  '846d848ffe86fa82' AS "spec_fingerprint",
+  '1f4b3f1f0aeb1ae8' AS "spec_fingerprint",
   'as_of=2026-04-13T00:00:00Z;by=platform,tenure' AS "compile_options",
   u.variant AS "variant",
   u."key_seg_platform" AS "seg_platform",
@@ -292,7 +292,7 @@ GROUP BY GROUPING SETS ((u.variant), (u.variant, u."key_seg_platform"), (u.varia
 ORDER BY "variant", "seg_platform", "seg_tenure"
 ;
 
--- assay 0.1.0 health query for experiment reorder-shelf-2026-03 (spec fingerprint 846d848ffe86fa82)
+-- assay 0.1.0 health query for experiment reorder-shelf-2026-03 (spec fingerprint 1f4b3f1f0aeb1ae8)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.

@@ -127,6 +127,7 @@ type dataset struct {
 	orders    []order
 	taps      []tap
 	contacts  []contact
+	visits    []visit // pre-period screen visits (visits.go)
 }
 
 // splitmix64 scrambles x; it derives independent per-customer seeds.
@@ -176,6 +177,7 @@ func simulate(seed uint64, n int) *dataset {
 		simulateCustomer(ds, r, id, i < n)
 	}
 	assignOrderIDs(ds.orders)
+	simulateVisits(ds, seed)
 	return ds
 }
 

@@ -236,5 +236,12 @@ func truthMarkdown(cfg config, st stats) string {
 	p("| cancelled share of orders | %.4f | %.4f | |", r.cancelRate[0], r.cancelRate[1])
 	p("| support contacts per customer | %.4f | %.4f | |", r.contactsPer[0], r.contactsPer[1])
 	p("| shelf taps per customer | %.3f | %.3f | |", r.tapsPer[0], r.tapsPer[1])
+	p("")
+	p("## Pre-period for planning")
+	p("")
+	p("visits.parquet holds screen visits in the four whole weeks [%s, %s), before any exposure of the experiment: "+
+		"%.2f per day for active customers, %.2f for lapsed and %.2f for new ones (after signing up), %.0f%% of them on the home screen. "+
+		"A home-screen visit is the stand-in trigger of the demo's [planning] table. Nothing is planted in the pre-period.",
+		ts(preStart)[:10], ts(preEnd)[:10], visitRateActive, visitRateLapsed, visitRateNew, homeShare*100)
 	return b.String()
 }

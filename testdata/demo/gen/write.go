@@ -78,6 +78,16 @@ func tables(ds *dataset) []table {
 			},
 		},
 		{
+			name:    "visits",
+			columns: [][2]string{{"customer_id", "BIGINT"}, {"visited_at", "TIMESTAMP"}, {"screen", "VARCHAR"}},
+			orderBy: "visited_at, customer_id, screen",
+			rows: func(emit func(...string)) {
+				for _, v := range ds.visits {
+					emit(itoa(v.customerID), ts(v.at), v.screen)
+				}
+			},
+		},
+		{
 			name:    "support",
 			columns: [][2]string{{"customer_id", "BIGINT"}, {"contacted_at", "TIMESTAMP"}, {"channel", "VARCHAR"}},
 			orderBy: "contacted_at, customer_id, channel",
