@@ -4,6 +4,7 @@ import (
 	"context"
 	"database/sql"
 	"fmt"
+	"slices"
 	"sort"
 	"strings"
 
@@ -31,8 +32,19 @@ import (
 // `table`, `file`, `columns` or `time` key). The queries are portable SQL
 // (SELECT * ... WHERE 1 = 0, information_schema.tables, LIMIT 1), so the
 // check works on every engine assay connects to.
-func CheckCatalog(ctx context.Context, db *sql.DB, spec *metrics.Spec, d dialects.Dialect) metrics.Diagnostics {
+//
+// empty names the sources already found to have no rows (EmptySources),
+// so that they are not queried again; with nil, CheckCatalog finds out
+// itself.
+func CheckCatalog(ctx context.Context, db *sql.DB, spec *metrics.Spec, d dialects.Dialect, empty []string) metrics.Diagnostics {
 	var ds metrics.Diagnostics
+	isKnownEmpty := func(src *metrics.Source, rel string) bool {
+		if empty != nil {
+			return slices.Contains(empty, src.Name)
+		}
+		e, err := isEmpty(ctx, db, rel)
+		return err == nil && e
+	}
 	var tables []catalogTable
 	tablesRead := false
 	var units []unitColumn
@@ -75,7 +87,7 @@ func CheckCatalog(ctx context.Context, db *sql.DB, spec *metrics.Spec, d dialect
 			ds = append(ds, metrics.Diagnostic{Severity: metrics.Warning, Code: metrics.CodeSource, Subject: at,
 				Summary: fmt.Sprintf("source `%s`: %s has no rows; it is read as an empty table of the declared columns", src.Name, what),
 				Hint:    "every metric that reads it will be zero for every unit"})
-		} else if empty, err := isEmpty(ctx, db, rel); err == nil && empty {
+		} else if isKnownEmpty(src, rel) {
 			ds = append(ds, metrics.Diagnostic{Severity: metrics.Warning, Code: metrics.CodeSource, Subject: at,
 				Summary: fmt.Sprintf("source `%s`: %s has no rows", src.Name, what),
 				Hint:    "every metric that reads it will be zero for every unit"})

@@ -133,7 +133,7 @@ func TestCheckCatalog(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	got := engine.CheckCatalog(context.Background(), db, spec, d)
+	got := engine.CheckCatalog(context.Background(), db, spec, d, nil)
 
 	// Expected diagnostics, written from the fixture above. Columns lines
 	// are the n-th "columns = " line of the spec (0-based n).
@@ -202,7 +202,7 @@ func TestCheckCatalogDemo(t *testing.T) {
 	}
 	defer db.Close()
 	d, _ := dialects.Lookup("duckdb")
-	if got := engine.CheckCatalog(context.Background(), db, spec, d); len(got) != 0 {
+	if got := engine.CheckCatalog(context.Background(), db, spec, d, nil); len(got) != 0 {
 		t.Errorf("got diagnostics for the demo data, want none:\n%s", got.Error())
 	}
 }
@@ -231,7 +231,7 @@ func TestCheckCatalogReadOnly(t *testing.T) {
 	}
 	spec, _ := metrics.Load("catalog.toml", []byte(catalogSpec))
 	d, _ := dialects.Lookup("duckdb")
-	if got := engine.CheckCatalog(context.Background(), db, spec, d); len(got) != 6 {
+	if got := engine.CheckCatalog(context.Background(), db, spec, d, nil); len(got) != 6 {
 		t.Errorf("got %d diagnostics on the read-only database, want 6:\n%s", len(got), got.Error())
 	}
 	db.Close()
@@ -256,7 +256,7 @@ func TestCheckCatalogCancelled(t *testing.T) {
 	ctx, cancel := context.WithCancel(context.Background())
 	cancel()
 	d, _ := dialects.Lookup("duckdb")
-	got := engine.CheckCatalog(ctx, db, spec, d)
+	got := engine.CheckCatalog(ctx, db, spec, d, nil)
 	if len(got) != 1 || !strings.Contains(got[0].Summary, "interrupted") || !got.HasErrors() {
 		t.Errorf("got %v, want one error saying the check was interrupted", got.Error())
 	}

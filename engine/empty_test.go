@@ -81,7 +81,7 @@ func TestEmptyOutcomeSourcesReadAsZeros(t *testing.T) {
 	}
 	defer db.Close()
 
-	if got := engine.CheckCatalog(ctx, db, spec, d); !got.HasErrors() {
+	if got := engine.CheckCatalog(ctx, db, spec, d, nil); !got.HasErrors() {
 		t.Errorf("before the stand-in: the check passed; want it to refuse the empty files:\n%s", got.Error())
 	}
 	empty, err := engine.EmptySources(ctx, db, spec, d)
@@ -95,7 +95,7 @@ func TestEmptyOutcomeSourcesReadAsZeros(t *testing.T) {
 	if err != nil || len(sds) != 0 {
 		t.Fatalf("StandInEmpty: %v, %v", sds.Error(), err)
 	}
-	cds := engine.CheckCatalog(ctx, db, spec, d)
+	cds := engine.CheckCatalog(ctx, db, spec, d, nil)
 	if cds.HasErrors() {
 		t.Fatalf("after the stand-in: the check refused:\n%s", cds.Error())
 	}
@@ -223,7 +223,7 @@ func TestStandInEmptyLeavesErrorsAlone(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			all := append(sds, engine.CheckCatalog(ctx, db, spec, d)...)
+			all := append(sds, engine.CheckCatalog(ctx, db, spec, d, nil)...)
 			if !all.HasErrors() {
 				t.Errorf("no error; got:\n%s", all.Error())
 			}
@@ -266,7 +266,7 @@ func TestStandInEmptyWithDatabaseFile(t *testing.T) {
 	if sds, err := engine.StandInEmpty(ctx, db, spec, d, empty); err != nil || len(sds) != 0 {
 		t.Fatalf("StandInEmpty: %v, %v", sds.Error(), err)
 	}
-	if cds := engine.CheckCatalog(ctx, db, spec, d); cds.HasErrors() {
+	if cds := engine.CheckCatalog(ctx, db, spec, d, nil); cds.HasErrors() {
 		t.Errorf("the check refused:\n%s", cds.Error())
 	}
 	if n := countOrders(t, db, "orders"); n != 2 {

@@ -102,7 +102,7 @@ func TestCheckCatalogUnitTypes(t *testing.T) {
 		}
 	}
 	d, _ := dialects.Lookup("duckdb")
-	got := engine.CheckCatalog(context.Background(), db, spec, d)
+	got := engine.CheckCatalog(context.Background(), db, spec, d, nil)
 	want := []struct {
 		line    int
 		summary string

@@ -113,7 +113,10 @@ func (e *Engine) Check(ctx context.Context, spec *metrics.Spec) (ds metrics.Diag
 			return ds, empty, nil
 		}
 	}
-	return append(ds, engine.CheckCatalog(ctx, e.DB, spec, e.Dialect)...), empty, nil
+	if empty == nil {
+		empty = []string{} // every source was looked at: none is empty
+	}
+	return append(ds, engine.CheckCatalog(ctx, e.DB, spec, e.Dialect, empty)...), empty, nil
 }
 
 // Compile compiles spec with opt for the engine's dialect, checking what

@@ -111,7 +111,7 @@ func TestDataProblems(t *testing.T) {
 		t.Fatal(err)
 	}
 	d, _ := dialects.Lookup("duckdb")
-	cat := engine.CheckCatalog(context.Background(), ro, spec, d)
+	cat := engine.CheckCatalog(context.Background(), ro, spec, d, nil)
 	ro.Close()
 	if len(cat) != 1 || cat.HasErrors() || !regexp.MustCompile("`refunds` has no rows").MatchString(cat[0].Summary) {
 		t.Errorf("catalogue check: got %v, want one warning that refunds is empty", cat.Error())
