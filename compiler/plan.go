@@ -126,6 +126,45 @@ func ParseOptions(s string) (Options, error) {
 	return o, nil
 }
 
+// DiffOptions names the compile options that differ between two options
+// texts (Options.Text), each as "name is X in the result and Y here".
+func DiffOptions(got, want string) string {
+	parse := func(s string) map[string]string {
+		m := map[string]string{}
+		for _, part := range strings.Split(s, ";") {
+			if k, v, ok := strings.Cut(part, "="); ok {
+				m[k] = v
+			}
+		}
+		return m
+	}
+	g, w := parse(got), parse(want)
+	var keys []string
+	for k := range g {
+		keys = append(keys, k)
+	}
+	for k := range w {
+		if _, ok := g[k]; !ok {
+			keys = append(keys, k)
+		}
+	}
+	sort.Strings(keys)
+	var diffs []string
+	for _, k := range keys {
+		if g[k] != w[k] {
+			diffs = append(diffs, fmt.Sprintf("%s is %s in the result and %s here", k, orNone(g[k]), orNone(w[k])))
+		}
+	}
+	return strings.Join(diffs, "; ")
+}
+
+func orNone(s string) string {
+	if s == "" {
+		return "not set"
+	}
+	return s
+}
+
 // Plan is a compiled experiment: every choice the SQL makes, resolved.
 type Plan struct {
 	Spec *metrics.Spec

@@ -352,7 +352,7 @@ func Analyze(p *compiler.Plan, set *results.Set, opt Options) (*Report, error) {
 		return nil, fmt.Errorf("the result carries spec fingerprint %s, but the spec's is %s: the query was compiled from another version of the spec", set.SpecFingerprint, s.Fingerprint)
 	}
 	if set.Options != p.Options.Text() {
-		return nil, fmt.Errorf("the result was compiled with options %q, but this analysis uses %q: %s", set.Options, p.Options.Text(), OptionsDiff(set.Options, p.Options.Text()))
+		return nil, fmt.Errorf("the result was compiled with options %q, but this analysis uses %q: %s", set.Options, p.Options.Text(), compiler.DiffOptions(set.Options, p.Options.Text()))
 	}
 	r := &Report{SchemaVersion: SchemaVersion, ToolVersion: compiler.Version, Alarms: []string{}, Segments: []Segment{}}
 	r.Experiment = Experiment{
@@ -433,45 +433,6 @@ func rowsByVariant(rows []results.Row) map[string]*results.Row {
 		out[rows[i].Variant] = &rows[i]
 	}
 	return out
-}
-
-// OptionsDiff names the compile options that differ between two options
-// texts (compiler.Options.Text).
-func OptionsDiff(got, want string) string {
-	parse := func(s string) map[string]string {
-		m := map[string]string{}
-		for _, part := range strings.Split(s, ";") {
-			if k, v, ok := strings.Cut(part, "="); ok {
-				m[k] = v
-			}
-		}
-		return m
-	}
-	g, w := parse(got), parse(want)
-	var keys []string
-	for k := range g {
-		keys = append(keys, k)
-	}
-	for k := range w {
-		if _, ok := g[k]; !ok {
-			keys = append(keys, k)
-		}
-	}
-	sort.Strings(keys)
-	var diffs []string
-	for _, k := range keys {
-		if g[k] != w[k] {
-			diffs = append(diffs, fmt.Sprintf("%s is %s in the result and %s here", k, orNone(g[k]), orNone(w[k])))
-		}
-	}
-	return strings.Join(diffs, "; ")
-}
-
-func orNone(s string) string {
-	if s == "" {
-		return "not set"
-	}
-	return s
 }
 
 // HarmShown reports whether any guard comparison's verdict is alarming:

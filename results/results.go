@@ -113,6 +113,16 @@ func Main(p *compiler.Plan, cols []string, rows [][]any) (*Set, error) {
 		}
 		return nil, fmt.Errorf("the main result %s; was it compiled from this spec with the same options (breakdowns, calibration)?", strings.Join(parts, " and "))
 	}
+	group := map[*compiler.Column]int{} // key column → its index in p.GroupBy
+	for i := range p.Columns {
+		if c := &p.Columns[i]; c.Role == compiler.RoleKey {
+			for g := range p.GroupBy {
+				if &p.GroupBy[g] == c.Key {
+					group[c] = g
+				}
+			}
+		}
+	}
 	set := &Set{}
 	for ri, vals := range rows {
 		r := Row{Group: -1, Stats: map[string]float64{}}
@@ -144,11 +154,7 @@ func Main(p *compiler.Plan, cols []string, rows [][]any) (*Set, error) {
 				if col.Key.Day && dayPrefix.MatchString(r.Key) {
 					r.Key = r.Key[:10]
 				}
-				for g := range p.GroupBy {
-					if &p.GroupBy[g] == col.Key {
-						r.Group = g
-					}
-				}
+				r.Group = group[col]
 			case compiler.RoleUnits:
 				if n := Number(v); !math.IsNaN(n) {
 					r.Units = int64(n)
