@@ -408,15 +408,12 @@ func Analyze(p *compiler.Plan, set *results.Set, opt Options) (*Report, error) {
 	}
 	r.Cautions = cautions(p, r)
 	// Hook (rollout.go): the schedule's cautions, before the closing one.
-	if rc := rolloutCautions(p, r); len(rc) > 0 {
-		last := len(r.Cautions) - 1
-		r.Cautions = append(r.Cautions[:last], append(rc, r.Cautions[last])...)
+	for _, c := range rolloutCautions(p, r) {
+		r.addCaution(c)
 	}
 	r.timing(p, set) // Hook (timing.go): weekdays, calendar, trigger weeks.
 	for _, src := range opt.EmptySources {
-		last := len(r.Cautions) - 1
-		note := fmt.Sprintf("Source %s has no rows: every metric that reads it is zero for every unit. Check that the extract or table is complete before reading those metrics.", src)
-		r.Cautions = append(r.Cautions[:last], note, r.Cautions[last])
+		r.addCaution(fmt.Sprintf("Source %s has no rows: every metric that reads it is zero for every unit. Check that the extract or table is complete before reading those metrics.", src))
 	}
 	AgainstPlan(p, r) // planning.go
 	for g := range p.GroupBy {
@@ -869,6 +866,16 @@ func cautions(p *compiler.Plan, r *Report) []string {
 	}
 	c = append(c, "This report states evidence under these assumptions; whether to ship is a decision for the people who own the product.")
 	return c
+}
+
+// addCaution adds c before the last caution (which is always the note that
+// the report hands down no ship verdict).
+func (r *Report) addCaution(c string) {
+	if n := len(r.Cautions); n > 0 {
+		r.Cautions = append(r.Cautions[:n-1], c, r.Cautions[n-1])
+		return
+	}
+	r.Cautions = append(r.Cautions, c)
 }
 
 // JSON renders the report as indented JSON.

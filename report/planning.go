@@ -892,16 +892,6 @@ func orEmpty(s, prefix, def string) string {
 	return prefix + s
 }
 
-// addCaution adds c before the last caution (which is always the note that
-// the report hands down no ship verdict).
-func (r *Report) addCaution(c string) {
-	if n := len(r.Cautions); n > 0 {
-		r.Cautions = append(r.Cautions[:n-1], c, r.Cautions[n-1])
-		return
-	}
-	r.Cautions = append(r.Cautions, c)
-}
-
 // planDoc adds the plan line to a run's document.
 func (r *Report) planDoc(d *document) {
 	if r.Plan != nil {

@@ -165,14 +165,7 @@ func (r *Report) addBreakdown(p *compiler.Plan, g int, rows []results.Row, opt O
 		r.Alarms = append(r.Alarms, fmt.Sprintf("VARIANT MIX differs across %s segments (chi-square p = %s): the variants received different shares of each segment, so pooled effects can mislead.", name, fmtP(float64(seg.VariantMix.PValue))))
 	}
 	if len(r.Segments) == 0 {
-		// Keep the closing sentence about the decision last.
-		last := len(r.Cautions) - 1
-		note := "Segment breakdowns are exploratory: with many segments some differ by chance (see the adjusted p-values), and a segment effect is a lead for a new experiment, not a finding."
-		if last >= 0 {
-			r.Cautions = append(r.Cautions[:last], note, r.Cautions[last])
-		} else {
-			r.Cautions = append(r.Cautions, note)
-		}
+		r.addCaution("Segment breakdowns are exploratory: with many segments some differ by chance (see the adjusted p-values), and a segment effect is a lead for a new experiment, not a finding.")
 	}
 	r.Segments = append(r.Segments, seg)
 }

@@ -202,9 +202,8 @@ func (r *Report) timing(p *compiler.Plan, set *results.Set) {
 		}
 		c = append(c, fmt.Sprintf("The effect of %s on %s %s across trigger weeks (%s per week, %s): a novelty or learning effect may be at work, so the average over this period may not last.", tw.Variant, tw.Metric, dir, signed(tw.Slope), pEquals(float64(tw.SlopePValue))))
 	}
-	if len(c) > 0 {
-		last := len(r.Cautions) - 1
-		r.Cautions = append(r.Cautions[:last], append(c, r.Cautions[last])...)
+	for _, s := range c {
+		r.addCaution(s)
 	}
 }
 
