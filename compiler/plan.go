@@ -209,8 +209,6 @@ type Plan struct {
 	// Exclusions are the reasons a triggered unit is left out, in the
 	// order the health query reports them.
 	Exclusions []Exclusion
-
-	metricOf map[*metrics.Metric]*MetricPlan
 }
 
 // GroupKey is a breakdown key of the result.
@@ -287,9 +285,6 @@ type MetricPlan struct {
 	CovRule string
 }
 
-// MetricPlan returns the plan of metric m.
-func (p *Plan) MetricPlan(m *metrics.Metric) *MetricPlan { return p.metricOf[m] }
-
 // MetricByName returns the plan of the metric called name, or nil.
 func (p *Plan) MetricByName(name string) *MetricPlan {
 	for _, mp := range p.Metrics {
@@ -314,7 +309,7 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 		}
 		s = si
 	}
-	p := &Plan{Spec: s, TZ: s.TZName, metricOf: map[*metrics.Metric]*MetricPlan{}}
+	p := &Plan{Spec: s, TZ: s.TZName}
 	start, end := s.Start, s.End
 	norm := Options{Splits: opt.Splits, Salt: opt.Salt, StandIn: opt.StandIn}
 	if !opt.Start.IsZero() && !opt.Start.Equal(s.Start) {
@@ -408,7 +403,6 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 	ends := map[int64]bool{}
 	for _, m := range s.Metrics {
 		mp := &MetricPlan{M: m}
-		p.metricOf[m] = mp
 		add := func(a *metrics.Agg, part string, from, to metrics.Duration) *AggPlan {
 			if a == nil || a.Source == nil {
 				return nil
