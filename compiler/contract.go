@@ -1,6 +1,7 @@
 package compiler
 
 import (
+	"strconv"
 	"strings"
 
 	"github.com/assay-dev/assay/metrics"
@@ -67,7 +68,32 @@ const (
 	StatYXCov   Stat = "yx_cov"    // mean and proportion metrics
 	StatNumXCov Stat = "num_x_cov" // ratio metrics
 	StatDenXCov Stat = "den_x_cov"
+	// StatTrendVar is the sample variance of the per-unit trend contrast
+	// L = Σ_b w_b·y_b over a metric's time-since-trigger buckets
+	// (MetricPlan.TrendWeights); its mean is Σ_b w_b·mean_b.
+	StatTrendVar Stat = "trend_var"
 )
+
+// BucketMean is the statistic holding the mean of time-since-trigger
+// bucket b (1-based) of a metric; BucketVar its sample variance.
+func BucketMean(b int) Stat { return Stat("b" + strconv.Itoa(b) + "_mean") }
+
+// BucketVar is the sample variance of bucket b's per-unit values.
+func BucketVar(b int) Stat { return Stat("b" + strconv.Itoa(b) + "_var") }
+
+// bucketStat returns the bucket (0-based) of a bucket statistic and
+// whether it is the bucket's mean; ok is false for other statistics.
+func (mp *MetricPlan) bucketStat(st Stat) (b int, mean, ok bool) {
+	for i := range mp.Buckets {
+		switch st {
+		case BucketMean(i + 1):
+			return i, true, true
+		case BucketVar(i + 1):
+			return i, false, true
+		}
+	}
+	return 0, false, false
+}
 
 // StatColumn is the result column holding statistic st of the metric
 // called metric.
@@ -94,6 +120,12 @@ func statsFor(mp *MetricPlan) []Stat {
 		if mp.Cov != nil {
 			out = append(out, StatXMean, StatXVar, StatYXCov)
 		}
+	}
+	for b := range mp.Buckets {
+		out = append(out, BucketMean(b+1), BucketVar(b+1))
+	}
+	if len(mp.Buckets) > 0 {
+		out = append(out, StatTrendVar)
 	}
 	return out
 }

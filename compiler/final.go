@@ -17,6 +17,7 @@ import (
 func (pr *printer) value(mp *MetricPlan, a *AggPlan) string {
 	v := "u." + pr.id(a.Col)
 	switch {
+	case a.IsBucket(): // bucket values are not capped
 	case a.Agg.HasCap:
 		v = pr.d.Least(v, strconv.FormatFloat(a.Agg.Cap, 'g', -1, 64))
 	case a.Agg.CapQuantile > 0:
@@ -75,6 +76,24 @@ func (pr *printer) covValue(mp *MetricPlan) string {
 		return fmt.Sprintf("CASE WHEN u.%s THEN %s END", mp.Mature, pr.d.OneZero(v+" > "+strconv.FormatFloat(c.Above, 'g', -1, 64)))
 	}
 	return "CASE WHEN u." + mp.Mature + " THEN " + pr.d.Double(v) + " END"
+}
+
+// bucketValue renders a unit's value in bucket a: the centred value, or
+// the 0/1 indicator of a proportion metric.
+func (pr *printer) bucketValue(mp *MetricPlan, a *AggPlan) string {
+	if mp.M.Kind == metrics.KindProportion {
+		return fmt.Sprintf("CASE WHEN u.%s THEN %s END", mp.Mature, pr.d.OneZero("u."+pr.id(a.Col)+" > "+strconv.FormatFloat(mp.M.Above, 'g', -1, 64)))
+	}
+	return pr.centred(a)
+}
+
+// trendText spells mp's trend contrast, e.g. "-1·b1 + 1·b2".
+func trendText(mp *MetricPlan) string {
+	var parts []string
+	for b, w := range mp.TrendWeights {
+		parts = append(parts, fmt.Sprintf("%+d·b%d", w, b+1))
+	}
+	return strings.Join(parts, " ")
 }
 
 func (pr *printer) indicator(mp *MetricPlan) string {
@@ -365,8 +384,33 @@ func (pr *printer) metricStats(mp *MetricPlan, last bool) {
 			e = pr.d.CovarSamp(num, x)
 		case StatDenXCov:
 			e = pr.d.CovarSamp(den, x)
+		case StatTrendVar:
+			// L = Σ_b w_b·y_b over the centred bucket values: centring
+			// shifts L by a constant, which leaves its variance unchanged.
+			var terms []string
+			for b, a := range mp.Buckets {
+				terms = append(terms, fmt.Sprintf("%d * %s", mp.TrendWeights[b], pr.bucketValue(mp, a)))
+			}
+			pr.line(1, "-- %s by time since trigger: trend contrast L = %s", oneLine(m.Name), trendText(mp))
+			e = pr.d.VarSamp(strings.Join(terms, " + "))
 		default:
-			pr.fail(fmt.Errorf("compiler: no SQL for statistic %s", st))
+			b, isMean, ok := mp.bucketStat(st)
+			if !ok {
+				pr.fail(fmt.Errorf("compiler: no SQL for statistic %s", st))
+				break
+			}
+			a := mp.Buckets[b]
+			if b == 0 && isMean {
+				pr.line(1, "-- %s by time since trigger: %d buckets of %s, each in [trigger %s, trigger %s) …", oneLine(m.Name), len(mp.Buckets), m.Bucket.Text, signed(a.From), signed(a.To))
+			}
+			switch {
+			case !isMean:
+				e = pr.d.VarSamp(pr.bucketValue(mp, a))
+			case m.Kind == metrics.KindProportion:
+				e = "avg(" + pr.bucketValue(mp, a) + ")"
+			default:
+				e = pr.mean(a)
+			}
 		}
 		pr.line(1, "%s AS %s%s", e, pr.id(mp.Column(st)), commaIf(j < len(mp.Stats)-1 || !last))
 	}

@@ -257,6 +257,21 @@ type AggPlan struct {
 	Centre string
 }
 
+// IsBucket reports whether a is one of its metric's time-since-trigger
+// buckets.
+func (a *AggPlan) IsBucket() bool { return strings.HasPrefix(a.Part, "b") }
+
+// bucketOffset is from moved later by us microseconds, spelled like the
+// spec's offsets.
+func bucketOffset(from metrics.Duration, us int64) metrics.Duration {
+	d := metrics.Duration{Micros: from.Micros + us}
+	d.Text = durationName(d.Micros)
+	if d.Micros == 0 {
+		d.Text = "0d"
+	}
+	return d
+}
+
 // Source returns the aggregate that computes a's value: a itself or the
 // one it is the same as.
 func (a *AggPlan) Source() *AggPlan {
@@ -283,6 +298,16 @@ type MetricPlan struct {
 	Rule string
 	// CovRule describes the covariate, when there is one.
 	CovRule string
+	// Buckets are the per-unit values of the metric's consecutive
+	// time-since-trigger buckets (metrics.Metric.Bucket), in time order,
+	// from the same pass as the metric; nil when it is not split. They are
+	// not capped.
+	Buckets []*AggPlan
+	// TrendWeights are the integer weights w_b = 2b − (B − 1) of the
+	// linear trend contrast L = Σ_b w_b·y_b, one per bucket (b = 0 … B−1).
+	// They sum to zero, so L's mean difference between two arms is zero
+	// when the effect is the same in every bucket (report: ElapsedTrend).
+	TrendWeights []int
 }
 
 // MetricByName returns the plan of the metric called name, or nil.
@@ -412,7 +437,7 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 				col += "__" + part
 			}
 			ap := &AggPlan{Col: col, Agg: a, From: from, To: to, Metric: mp, Part: part}
-			ap.NonFinite = a.Func == metrics.AggSum && part != "x"
+			ap.NonFinite = a.Func == metrics.AggSum && (part == "" || part == "num" || part == "den")
 			sp := passes[a.Source]
 			if sp == nil {
 				sp = &SourcePass{Source: a.Source, From: from.Micros, To: to.Micros}
@@ -441,6 +466,14 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 		if c := m.Covariate; c != nil {
 			mp.Cov = add(c.Agg, "x", c.From, c.To)
 		}
+		// Time-since-trigger buckets: the same aggregate over consecutive
+		// parts of the window, computed in the same pass.
+		for b := range m.Buckets() {
+			from := bucketOffset(m.From, int64(b)*m.Bucket.Micros)
+			to := bucketOffset(m.From, int64(b+1)*m.Bucket.Micros)
+			mp.Buckets = append(mp.Buckets, add(m.Value, fmt.Sprintf("b%d", b+1), from, to))
+			mp.TrendWeights = append(mp.TrendWeights, 2*b-(m.Buckets()-1))
+		}
 		mp.Mature = matureCol(m.To.Micros)
 		ends[m.To.Micros] = true
 		for _, a := range []*AggPlan{mp.Value, mp.Num, mp.Den} {
@@ -450,8 +483,8 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 		}
 		// Every mean, ratio part and covariate is centred; 0/1 indicators
 		// are not.
-		for _, a := range []*AggPlan{mp.Value, mp.Num, mp.Den, mp.Cov} {
-			if a == nil || (a == mp.Value && m.Kind == metrics.KindProportion) || (a == mp.Cov && m.Covariate.Indicator) {
+		for _, a := range append([]*AggPlan{mp.Value, mp.Num, mp.Den, mp.Cov}, mp.Buckets...) {
+			if a == nil || ((a == mp.Value || a.IsBucket()) && m.Kind == metrics.KindProportion) || (a == mp.Cov && m.Covariate.Indicator) {
 				continue
 			}
 			a.Centre = "c_" + strings.TrimPrefix(a.Col, "m_")

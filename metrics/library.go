@@ -107,7 +107,7 @@ var OverridableKeys = []string{"window", "cap", "cap_quantile", "margin", "harmf
 
 // experimentKeys are the keys of a shared metric that belong to the
 // experiment alone: a library may not set them.
-var experimentKeys = []string{"role", "covariate"}
+var experimentKeys = []string{"role", "covariate", "buckets"}
 
 // LoadOptions changes how a spec is read.
 type LoadOptions struct {
@@ -491,7 +491,7 @@ func (l *loader) mergeMetric(name string, mt map[string]any) map[string]any {
 			continue
 		}
 		bad = true
-		l.errKey(append(path, k), CodeLibrary, "a spec may set role, covariate, "+strings.Join(OverridableKeys, ", ")+" on a shared metric; change the library, or define a metric of its own under another name",
+		l.errKey(append(path, k), CodeLibrary, "a spec may set role, covariate, buckets, "+strings.Join(OverridableKeys, ", ")+" on a shared metric; change the library, or define a metric of its own under another name",
 			"`%s` of shared metric `%s` is fixed by the library (%s)", k, ref, filepath.Base(lib.File))
 	}
 	if bad {

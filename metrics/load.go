@@ -1045,7 +1045,7 @@ func firstPresent(t *table, keys ...string) string {
 	return keys[0]
 }
 
-var metricKeys = []string{"role", "kind", "label", "source", "value", "filter", "window", "above", "cap", "cap_quantile", "numerator", "denominator", "harmful", "margin", "covariate"}
+var metricKeys = []string{"role", "kind", "label", "source", "value", "filter", "window", "above", "cap", "cap_quantile", "numerator", "denominator", "harmful", "margin", "covariate", "buckets"}
 
 var aggKeys = []string{"source", "kind", "value", "filter", "cap", "cap_quantile"}
 
@@ -1102,6 +1102,7 @@ func (l *loader) metric(name string, t *table, ref refFunc) *Metric {
 		}
 		m.Value = l.aggFields(t, ref, AggFunc(fn))
 	}
+	l.buckets(m, t, kind)
 	if m.Role == Guard {
 		m.Harmful = Direction(t.enum("harmful", true, "", string(Increase), string(Decrease)))
 		if mg, ok := t.num("margin"); ok {
@@ -1120,6 +1121,60 @@ func (l *loader) metric(name string, t *table, ref refFunc) *Metric {
 		}
 	}
 	return m
+}
+
+// buckets reads a metric's optional buckets = "7d": the outcome window
+// split by time since the trigger (see Metric.Bucket).
+func (l *loader) buckets(m *Metric, t *table, kind string) {
+	s, ok := t.str("buckets", false, "write buckets = \"7d\": the length of each part of the outcome window")
+	if !ok {
+		return
+	}
+	path := t.p("buckets")
+	b, ok := l.duration(t, path, s)
+	if !ok {
+		return
+	}
+	w := m.To.Micros - m.From.Micros
+	switch {
+	case kind == "ratio":
+		l.errAt(path, CodeWindow, "split a count or sum metric of the numerator instead", "ratio metric `%s` cannot be split into buckets: a ratio per bucket has no per-unit value to compare", m.Name)
+	case b.Micros <= 0:
+		l.errAt(path, CodeWindow, "write a positive length such as \"1d\" or \"7d\"", "bucket length %s is not positive", b.Text)
+	case w <= 0:
+		// the window itself is reported
+	case w%b.Micros != 0:
+		l.errAt(path, CodeWindow, fmt.Sprintf("choose a length that divides the window (%s to %s) evenly, such as %s", m.From.Text, m.To.Text, bucketHint(w)), "bucket length %s does not divide metric `%s`'s window into whole buckets", b.Text, m.Name)
+	case w/b.Micros < 2 || w/b.Micros > MaxBuckets:
+		l.errAt(path, CodeWindow, fmt.Sprintf("choose a length that gives 2 to %d buckets, such as %s", MaxBuckets, bucketHint(w)), "bucket length %s splits metric `%s`'s window into %d buckets", b.Text, m.Name, w/b.Micros)
+	default:
+		m.Bucket, m.BucketAt = b, l.rng(path, false)
+	}
+}
+
+// bucketHint suggests bucket lengths that split a window of w
+// microseconds into 2 to MaxBuckets whole buckets: whole weeks first, then
+// whole days.
+func bucketHint(w int64) string {
+	const day = 86400e6
+	var out []string
+	for _, n := range []int64{7 * day, day} {
+		if w%n == 0 && w/n >= 2 && w/n <= MaxBuckets {
+			out = append(out, fmt.Sprintf("%q", durationText(n)))
+		}
+	}
+	if len(out) == 0 {
+		return "a whole fraction of it"
+	}
+	return strings.Join(out, " or ")
+}
+
+func durationText(us int64) string {
+	const day = 86400e6
+	if us%day == 0 {
+		return fmt.Sprintf("%dd", us/int64(day))
+	}
+	return fmt.Sprintf("%dh", us/3600e6)
 }
 
 // covariates reads each metric's optional covariate table once every metric

@@ -205,6 +205,24 @@ type Metric struct {
 	At      Range
 	// Shared is set when the metric's definition comes from a library.
 	Shared *SharedDef
+	// Bucket, when set, splits the outcome window into consecutive
+	// buckets of this length by time since the trigger, so the report can
+	// show the effect in each and test whether it fades or grows. The
+	// window's length is a whole number (2 to MaxBuckets) of buckets.
+	Bucket   Duration
+	BucketAt Range
+}
+
+// MaxBuckets is the most buckets a metric's window may be split into.
+const MaxBuckets = 28
+
+// Buckets returns the number of time-since-trigger buckets of m, 0 when it
+// is not split.
+func (m *Metric) Buckets() int {
+	if m.Bucket.Micros <= 0 {
+		return 0
+	}
+	return int((m.To.Micros - m.From.Micros) / m.Bucket.Micros)
 }
 
 // Aggs returns the metric's per-unit aggregates.

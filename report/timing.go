@@ -41,6 +41,9 @@ type Timing struct {
 	// each trigger day (outcomes as read at the as-of time), for plots;
 	// present when the result is broken down by trigger day.
 	Cumulative []DayEffect `json:"cumulative_by_trigger_day,omitempty"`
+	// Elapsed is the effect by time since the trigger of every metric
+	// whose window is split into buckets (elapsed.go).
+	Elapsed []ElapsedEffect `json:"by_time_since_trigger"`
 }
 
 // DayEffect is the primary comparison over the units triggered on or
@@ -180,6 +183,7 @@ func (r *Report) timing(p *compiler.Plan, set *results.Set) {
 	}
 	t.TriggerWeeks = triggerWeeks(p, set, r.Metrics)
 	t.Cumulative = cumulativeByDay(p, set)
+	t.Elapsed = elapsedEffects(p, set)
 	r.Timing = t
 	var c []string
 	if len(t.PartialWeeks) > 0 {
@@ -202,6 +206,7 @@ func (r *Report) timing(p *compiler.Plan, set *results.Set) {
 		}
 		c = append(c, fmt.Sprintf("The effect of %s on %s %s across trigger weeks (%s per week, %s): a novelty or learning effect may be at work, so the average over this period may not last.", tw.Variant, tw.Metric, dir, signed(tw.Slope), pEquals(float64(tw.SlopePValue))))
 	}
+	c = append(c, elapsedCautions(t.Elapsed)...)
 	for _, s := range c {
 		r.addCaution(s)
 	}
@@ -428,6 +433,7 @@ func (r *Report) timingDoc(d *document) {
 			d.para("Across weeks: Cochran's Q %s (%s); trend %s per week (SE %s, %s).", fmtNum(tw.Q), pEquals(float64(tw.QPValue)), signed(tw.Slope), fmtNum(tw.SlopeStdError), pEquals(float64(tw.SlopePValue)))
 		}
 	}
+	r.elapsedDoc(d) // elapsed.go
 }
 
 func shortDays() []string {
