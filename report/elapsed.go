@@ -166,7 +166,9 @@ func elapsedCautions(es []ElapsedEffect) []string {
 	return c
 }
 
-func trimP(a float64) string { return strings.TrimRight(strings.TrimRight(fmt.Sprintf("%.4f", a), "0"), ".") }
+func trimP(a float64) string {
+	return strings.TrimRight(strings.TrimRight(fmt.Sprintf("%.4f", a), "0"), ".")
+}
 
 // elapsedDoc adds the effect by time since the trigger to the document.
 func (r *Report) elapsedDoc(d *document) {

@@ -28,6 +28,8 @@ import (
 //     from the trigger_day breakdown when the run has one (assay run --by
 //     …,trigger_day): units triggered up to each day are pooled from the
 //     per-day moments (unadjusted for CUPED; ratio metrics are not drawn);
+//   - the difference by time since the trigger of every metric whose window
+//     is split into buckets, with the trend test (Timing.Elapsed);
 //   - daily exposed units per arm with the sample-ratio results;
 //   - the funnel of units per arm: triggered, eligible, mature (the primary
 //     metric's window elapsed), with the exposed units of all arms beside it
@@ -59,7 +61,11 @@ func (r *Report) HTMLPage(p *compiler.Plan, q compiler.Queries, dialect string) 
 	if s, ok := b.segmentsSection(); ok {
 		page.Sections = append(page.Sections, s)
 	}
-	page.Sections = append(page.Sections, b.cumulativeSection(), b.healthSection())
+	page.Sections = append(page.Sections, b.cumulativeSection())
+	if s, ok := b.elapsedSection(); ok {
+		page.Sections = append(page.Sections, s)
+	}
+	page.Sections = append(page.Sections, b.healthSection())
 	page.Sections = append(page.Sections, html.Section{ID: "cautions", Heading: "Cautions", Blocks: paras(r.Cautions, "– ")})
 	if sqlSec != nil {
 		page.Sections = append(page.Sections, *sqlSec)
@@ -423,6 +429,37 @@ func (b *htmlBuilder) segmentBlocks(seg Segment) (html.Forest, []html.Block) {
 		}
 	}
 	return f, inner
+}
+
+// elapsedSection draws each bucketed metric's difference by time since
+// the trigger (Timing.Elapsed), with the trend test below each plot.
+func (b *htmlBuilder) elapsedSection() (html.Section, bool) {
+	r := b.r
+	if r.Timing == nil || len(r.Timing.Elapsed) == 0 {
+		return html.Section{}, false
+	}
+	sec := html.Section{ID: "elapsed", Heading: "Effect by time since the trigger"}
+	sec.Blocks = append(sec.Blocks, html.Paragraph{Text: "Each point is the difference between the arms in one part of the outcome window, counted from each unit's trigger, from the same units and the same pass over the data as the metric. A line that falls towards zero suggests the effect fades (novelty); one that rises, that it grows (learning). Bucket values are not capped."})
+	for _, e := range r.Timing.Elapsed {
+		var pts []html.LinePoint
+		for i, bk := range e.Buckets {
+			pts = append(pts, html.LinePoint{Day: i + 1, Label: bk.From + " to " + bk.To, Estimate: float64(bk.Difference), Low: float64(bk.CILow), High: float64(bk.CIHigh)})
+		}
+		sec.Blocks = append(sec.Blocks, html.Line{ID: "elapsed-" + slugID(e.Metric) + "-" + slugID(e.Variant), Absolute: true, XLabel: "bucket", YLabel: "difference in the bucket",
+			Title:  fmt.Sprintf("%s: difference of %s by time since the trigger (%s buckets), %g%% intervals", e.Metric, e.Variant, e.BucketLength, r.Experiment.Confidence*100),
+			Desc:   fmt.Sprintf("Line plot of the difference in each of %d buckets of %s after the trigger, with its interval as a shaded band and a zero line. The numbers are in the table below.", len(e.Buckets), e.BucketLength),
+			Points: pts})
+		text := fmt.Sprintf("Trend test (%s): not tested (%s).", e.Method, e.Reason)
+		if e.Reason == "" {
+			verdict := "not flagged"
+			if e.Trend != "" {
+				verdict = "flagged: the effect is " + e.Trend
+			}
+			text = fmt.Sprintf("Trend of the difference (%s): %s per bucket [%s, %s], %s; %s at %s.", e.Method, signed(e.Slope), signed(e.SlopeCILow), signed(e.SlopeCIHigh), pEquals(float64(e.PValue)), verdict, trimP(e.Alpha))
+		}
+		sec.Blocks = append(sec.Blocks, html.Paragraph{Text: text})
+	}
+	return sec, true
 }
 
 // cumulativeSection draws the primary metric's effect among units triggered

@@ -11,10 +11,13 @@ import (
 // edged with dashed lines, against a zero line. Values are fractions drawn
 // as percentages, or plain numbers when Absolute is set.
 type Line struct {
-	ID       string
-	Title    string
-	Desc     string
-	YLabel   string // axis title; default "cumulative relative effect (%)" or "cumulative effect"
+	ID     string
+	Title  string
+	Desc   string
+	YLabel string // axis title; default "cumulative relative effect (%)" or "cumulative effect"
+	// XLabel names the x axis and the first column of the table; default
+	// "day".
+	XLabel   string
 	Absolute bool
 	Points   []LinePoint
 }
@@ -104,7 +107,7 @@ func (l Line) SVG() string {
 	}
 	line(&b, lineL, lineB, lineR, lineB, axisColour, 1, "")
 	line(&b, lineL, lineT, lineL, lineB, axisColour, 1, "")
-	text(&b, (lineL+lineR)/2, lineB+38, "middle", "axis-title", "day")
+	text(&b, (lineL+lineR)/2, lineB+38, "middle", "axis-title", l.xLabel())
 	ylab := l.YLabel
 	if ylab == "" {
 		ylab = "cumulative relative effect (%)"
@@ -162,7 +165,7 @@ func (l Line) SVG() string {
 	for _, p := range l.Points {
 		if finite(p.Estimate) {
 			b.WriteString(`<circle cx="` + f1(x(p.Day)) + `" cy="` + f1(y(p.Estimate)) + `" r="3.5" fill="#0072B2" stroke="#ffffff" stroke-width="1"><title>` +
-				esc("day "+strconv.Itoa(p.Day)+": "+fmtValue(p.Estimate, l.Absolute)+" ["+fmtValue(p.Low, l.Absolute)+", "+fmtValue(p.High, l.Absolute)+"]") + "</title></circle>\n")
+				esc(l.xLabel()+" "+strconv.Itoa(p.Day)+": "+fmtValue(p.Estimate, l.Absolute)+" ["+fmtValue(p.Low, l.Absolute)+", "+fmtValue(p.High, l.Absolute)+"]") + "</title></circle>\n")
 		}
 	}
 	if len(l.Points) > 0 {
@@ -177,6 +180,13 @@ func (l Line) SVG() string {
 	return b.String()
 }
 
+func (l Line) xLabel() string {
+	if l.XLabel == "" {
+		return "day"
+	}
+	return l.XLabel
+}
+
 // Table returns the numbers the plot draws, one row per day.
 func (l Line) Table() Table {
 	id := l.ID
@@ -186,7 +196,7 @@ func (l Line) Table() Table {
 	t := Table{
 		ID:      id + "-table",
 		Caption: "Numbers plotted in: " + l.Title,
-		Header:  []string{"Day", "Estimate", "Interval low", "Interval high"},
+		Header:  []string{strings.ToUpper(l.xLabel()[:1]) + l.xLabel()[1:], "Estimate", "Interval low", "Interval high"},
 	}
 	for _, p := range l.Points {
 		d := strconv.Itoa(p.Day)

@@ -1,4 +1,4 @@
--- assay 0.1.0 per-variant statistics query for experiment grouped (spec fingerprint 0f7f44ae43b6e942)
+-- assay 0.1.0 per-variant statistics query for experiment grouped (spec fingerprint d9cf0369181d4471)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-04-06T00:00:00Z, 2026-05-04T00:00:00Z); outcome windows must have ended by 2026-05-04T00:00:00Z.
 WITH
@@ -71,7 +71,7 @@ eligible AS (
   WHERE NOT c."is_crossover"
     AND NOT c."is_unknown_variant"
 ),
--- One pass over orders for: m_orders, m_orders__x, m_order_value__num, m_order_value__den, m_order_value__x, m_ordered, m_ordered__x, m_cancellations.
+-- One pass over orders for: m_orders, m_orders__x, m_orders__b1, m_orders__b2, m_order_value__num, m_order_value__den, m_order_value__x, m_ordered, m_ordered__x, m_ordered__b1, m_ordered__b2, m_ordered__b3, m_ordered__b4, m_ordered__b5, m_ordered__b6, m_ordered__b7, m_cancellations.
 "pass_orders" AS (
   SELECT
     r.unit_id,
@@ -79,6 +79,10 @@ eligible AS (
     count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r."c_state" <> 'test') THEN 1 END) AS "m_orders",
     -- m_orders__x: count of rows where state <> 'test' in [trigger - 28d, trigger + 0d)
     count(CASE WHEN r.dt_us >= -2419200000000 AND r.dt_us < 0 AND (r."c_state" <> 'test') THEN 1 END) AS "m_orders__x",
+    -- m_orders__b1: count of rows where state <> 'test' in [trigger + 0d, trigger + 7d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 604800000000 AND (r."c_state" <> 'test') THEN 1 END) AS "m_orders__b1",
+    -- m_orders__b2: count of rows where state <> 'test' in [trigger + 7d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 604800000000 AND r.dt_us < 1209600000000 AND (r."c_state" <> 'test') THEN 1 END) AS "m_orders__b2",
     -- m_order_value__num: sum of total where state <> 'test' in [trigger + 0d, trigger + 14d)
     CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r."c_state" <> 'test') AND CAST(r."c_total" AS DOUBLE PRECISION) - CAST(r."c_total" AS DOUBLE PRECISION) = 0 THEN CAST(CAST(r."c_total" AS DOUBLE PRECISION) AS DECIMAL(38, 10)) END) AS DOUBLE PRECISION) AS "m_order_value__num",
     count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r."c_state" <> 'test') AND NOT (CAST(r."c_total" AS DOUBLE PRECISION) - CAST(r."c_total" AS DOUBLE PRECISION) = 0) THEN 1 END) AS "m_order_value__num__nonfinite",
@@ -87,6 +91,20 @@ eligible AS (
     CAST(sum(CASE WHEN r.dt_us >= -2419200000000 AND r.dt_us < 0 AND (r."c_state" <> 'test') AND CAST(r."c_total" AS DOUBLE PRECISION) - CAST(r."c_total" AS DOUBLE PRECISION) = 0 THEN CAST(CAST(r."c_total" AS DOUBLE PRECISION) AS DECIMAL(38, 10)) END) AS DOUBLE PRECISION) AS "m_order_value__x",
     -- m_ordered: count of rows where state <> 'test' in [trigger + 0d, trigger + 14d): the same as m_orders
     -- m_ordered__x: count of rows where state <> 'test' in [trigger - 28d, trigger + 0d): the same as m_orders__x
+    -- m_ordered__b1: count of rows where state <> 'test' in [trigger + 0d, trigger + 2d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 172800000000 AND (r."c_state" <> 'test') THEN 1 END) AS "m_ordered__b1",
+    -- m_ordered__b2: count of rows where state <> 'test' in [trigger + 2d, trigger + 4d)
+    count(CASE WHEN r.dt_us >= 172800000000 AND r.dt_us < 345600000000 AND (r."c_state" <> 'test') THEN 1 END) AS "m_ordered__b2",
+    -- m_ordered__b3: count of rows where state <> 'test' in [trigger + 4d, trigger + 6d)
+    count(CASE WHEN r.dt_us >= 345600000000 AND r.dt_us < 518400000000 AND (r."c_state" <> 'test') THEN 1 END) AS "m_ordered__b3",
+    -- m_ordered__b4: count of rows where state <> 'test' in [trigger + 6d, trigger + 8d)
+    count(CASE WHEN r.dt_us >= 518400000000 AND r.dt_us < 691200000000 AND (r."c_state" <> 'test') THEN 1 END) AS "m_ordered__b4",
+    -- m_ordered__b5: count of rows where state <> 'test' in [trigger + 8d, trigger + 10d)
+    count(CASE WHEN r.dt_us >= 691200000000 AND r.dt_us < 864000000000 AND (r."c_state" <> 'test') THEN 1 END) AS "m_ordered__b5",
+    -- m_ordered__b6: count of rows where state <> 'test' in [trigger + 10d, trigger + 12d)
+    count(CASE WHEN r.dt_us >= 864000000000 AND r.dt_us < 1036800000000 AND (r."c_state" <> 'test') THEN 1 END) AS "m_ordered__b6",
+    -- m_ordered__b7: count of rows where state <> 'test' in [trigger + 12d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 1036800000000 AND r.dt_us < 1209600000000 AND (r."c_state" <> 'test') THEN 1 END) AS "m_ordered__b7",
     -- m_cancellations: count of rows where state = 'cancelled' in [trigger + 0d, trigger + 14d)
     count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r."c_state" = 'cancelled') THEN 1 END) AS "m_cancellations"
   FROM (
@@ -108,12 +126,21 @@ unit_values AS (
     (e.trigger_us + 1209600000000 <= 1777852800000000) AS mature_14d,
     coalesce(p1."m_orders", 0) AS "m_orders",
     coalesce(p1."m_orders__x", 0) AS "m_orders__x",
+    coalesce(p1."m_orders__b1", 0) AS "m_orders__b1",
+    coalesce(p1."m_orders__b2", 0) AS "m_orders__b2",
     coalesce(p1."m_order_value__num", 0) AS "m_order_value__num",
     coalesce(p1."m_order_value__num__nonfinite", 0) AS "m_order_value__num__nonfinite",
     coalesce(p1."m_orders", 0) AS "m_order_value__den",
     coalesce(p1."m_order_value__x", 0) AS "m_order_value__x",
     coalesce(p1."m_orders", 0) AS "m_ordered",
     coalesce(p1."m_orders__x", 0) AS "m_ordered__x",
+    coalesce(p1."m_ordered__b1", 0) AS "m_ordered__b1",
+    coalesce(p1."m_ordered__b2", 0) AS "m_ordered__b2",
+    coalesce(p1."m_ordered__b3", 0) AS "m_ordered__b3",
+    coalesce(p1."m_ordered__b4", 0) AS "m_ordered__b4",
+    coalesce(p1."m_ordered__b5", 0) AS "m_ordered__b5",
+    coalesce(p1."m_ordered__b6", 0) AS "m_ordered__b6",
+    coalesce(p1."m_ordered__b7", 0) AS "m_ordered__b7",
     coalesce(p1."m_cancellations", 0) AS "m_cancellations"
   FROM eligible AS e
   LEFT JOIN "pass_orders" AS p1 ON p1.unit_id = e.unit_id
@@ -155,6 +182,8 @@ centres AS (
     u.variant,
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders" AS DOUBLE PRECISION) END) AS "c_orders",
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders__x" AS DOUBLE PRECISION) END) AS "c_orders__x",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders__b1" AS DOUBLE PRECISION) END) AS "c_orders__b1",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders__b2" AS DOUBLE PRECISION) END) AS "c_orders__b2",
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_order_value__num" AS DOUBLE PRECISION) END) AS "c_order_value__num",
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_order_value__den" AS DOUBLE PRECISION) END) AS "c_order_value__den",
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_order_value__x" AS DOUBLE PRECISION) END) AS "c_order_value__x",
@@ -165,7 +194,7 @@ centres AS (
 -- The overall rows and one set of rows per breakdown, from one pass over the units: in each
 -- grouping the keys it does not use are NULL.
 SELECT
-  '0f7f44ae43b6e942' AS "spec_fingerprint",
+  'd9cf0369181d4471' AS "spec_fingerprint",
   'as_of=2026-05-04T00:00:00Z;by=device,region,trigger_day' AS "compile_options",
   u.variant AS "variant",
   u."key_seg_device" AS "seg_device",
@@ -180,6 +209,13 @@ SELECT
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders__x" AS DOUBLE PRECISION) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_orders__x" AS DOUBLE PRECISION) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders__x" AS DOUBLE PRECISION) END) ELSE min(c0."c_orders__x") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_orders__x" AS DOUBLE PRECISION) END - c0."c_orders__x")) END AS "orders__x_mean",
   VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u."m_orders__x" AS DOUBLE PRECISION) END - c0."c_orders__x")) AS "orders__x_var",
   (VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u."m_orders" AS DOUBLE PRECISION) END - c0."c_orders") + (CASE WHEN u.mature_14d THEN CAST(u."m_orders__x" AS DOUBLE PRECISION) END - c0."c_orders__x")) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u."m_orders__x" AS DOUBLE PRECISION) END - c0."c_orders__x") IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u."m_orders" AS DOUBLE PRECISION) END - c0."c_orders") END) - VAR_SAMP(CASE WHEN (CASE WHEN u.mature_14d THEN CAST(u."m_orders" AS DOUBLE PRECISION) END - c0."c_orders") IS NOT NULL THEN (CASE WHEN u.mature_14d THEN CAST(u."m_orders__x" AS DOUBLE PRECISION) END - c0."c_orders__x") END)) / 2 AS "orders__yx_cov",
+  -- orders by time since trigger: 2 buckets of 7d, each in [trigger + 0d, trigger + 7d) …
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders__b1" AS DOUBLE PRECISION) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_orders__b1" AS DOUBLE PRECISION) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders__b1" AS DOUBLE PRECISION) END) ELSE min(c0."c_orders__b1") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_orders__b1" AS DOUBLE PRECISION) END - c0."c_orders__b1")) END AS "orders__b1_mean",
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u."m_orders__b1" AS DOUBLE PRECISION) END - c0."c_orders__b1")) AS "orders__b1_var",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders__b2" AS DOUBLE PRECISION) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_orders__b2" AS DOUBLE PRECISION) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders__b2" AS DOUBLE PRECISION) END) ELSE min(c0."c_orders__b2") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_orders__b2" AS DOUBLE PRECISION) END - c0."c_orders__b2")) END AS "orders__b2_mean",
+  VAR_SAMP((CASE WHEN u.mature_14d THEN CAST(u."m_orders__b2" AS DOUBLE PRECISION) END - c0."c_orders__b2")) AS "orders__b2_var",
+  -- orders by time since trigger: trend contrast L = -1·b1 +1·b2
+  VAR_SAMP(-1 * (CASE WHEN u.mature_14d THEN CAST(u."m_orders__b1" AS DOUBLE PRECISION) END - c0."c_orders__b1") + 1 * (CASE WHEN u.mature_14d THEN CAST(u."m_orders__b2" AS DOUBLE PRECISION) END - c0."c_orders__b2")) AS "orders__trend_var",
   -- order_value (secondary, ratio): per-unit sum of total where state <> 'test' over per-unit count of rows where state <> 'test'; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "order_value__n",
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_order_value__num" AS DOUBLE PRECISION) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_order_value__num" AS DOUBLE PRECISION) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_order_value__num" AS DOUBLE PRECISION) END) ELSE min(c0."c_order_value__num") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_order_value__num" AS DOUBLE PRECISION) END - c0."c_order_value__num")) END AS "order_value__num_mean",
@@ -201,6 +237,23 @@ SELECT
   avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__x" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__x_mean",
   VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__x" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__x_var",
   (VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END + CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__x" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) - VAR_SAMP(CASE WHEN CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__x" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END IS NOT NULL THEN CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END END) - VAR_SAMP(CASE WHEN CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END IS NOT NULL THEN CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__x" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END END)) / 2 AS "ordered__yx_cov",
+  -- ordered by time since trigger: 7 buckets of 2d, each in [trigger + 0d, trigger + 2d) …
+  avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b1" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b1_mean",
+  VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b1" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b1_var",
+  avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b2" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b2_mean",
+  VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b2" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b2_var",
+  avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b3" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b3_mean",
+  VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b3" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b3_var",
+  avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b4" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b4_mean",
+  VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b4" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b4_var",
+  avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b5" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b5_mean",
+  VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b5" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b5_var",
+  avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b6" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b6_mean",
+  VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b6" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b6_var",
+  avg(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b7" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b7_mean",
+  VAR_SAMP(CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b7" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__b7_var",
+  -- ordered by time since trigger: trend contrast L = -6·b1 -4·b2 -2·b3 +0·b4 +2·b5 +4·b6 +6·b7
+  VAR_SAMP(-6 * CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b1" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END + -4 * CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b2" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END + -2 * CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b3" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END + 0 * CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b4" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END + 2 * CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b5" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END + 4 * CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b6" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END + 6 * CASE WHEN u.mature_14d THEN CASE WHEN u."m_ordered__b7" > 0 THEN CAST(1 AS DOUBLE PRECISION) ELSE CAST(0 AS DOUBLE PRECISION) END END) AS "ordered__trend_var",
   -- cancellations (guard, mean): mean per unit of count of rows where state = 'cancelled'; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "cancellations__n",
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_cancellations" AS DOUBLE PRECISION) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_cancellations" AS DOUBLE PRECISION) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_cancellations" AS DOUBLE PRECISION) END) ELSE min(c0."c_cancellations") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_cancellations" AS DOUBLE PRECISION) END - c0."c_cancellations")) END AS "cancellations__mean",
@@ -211,7 +264,7 @@ GROUP BY GROUPING SETS ((u.variant), (u.variant, u."key_seg_device"), (u.variant
 ORDER BY "variant", "seg_device", "seg_region", "trigger_day"
 ;
 
--- assay 0.1.0 health query for experiment grouped (spec fingerprint 0f7f44ae43b6e942)
+-- assay 0.1.0 health query for experiment grouped (spec fingerprint d9cf0369181d4471)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-04-06T00:00:00Z, 2026-05-04T00:00:00Z); outcome windows must have ended by 2026-05-04T00:00:00Z.
 WITH

@@ -1,4 +1,4 @@
--- assay 0.1.0 per-variant statistics query for experiment ratio-caps (spec fingerprint 70f84f6c6f917d36)
+-- assay 0.1.0 per-variant statistics query for experiment ratio-caps (spec fingerprint cbcd3dda7f10fcac)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-06-01T00:00:00Z, 2026-07-01T00:00:00Z); outcome windows must have ended by 2026-07-01T00:00:00Z.
 WITH
@@ -57,7 +57,7 @@ eligible AS (
   WHERE NOT c."is_crossover"
     AND NOT c."is_unknown_variant"
 ),
--- One pass over orders for: m_revenue_per_session__num, m_big_spender, m_revenue, m_distinct_orders.
+-- One pass over orders for: m_revenue_per_session__num, m_big_spender, m_revenue, m_revenue__b1, m_revenue__b2, m_revenue__b3, m_revenue__b4, m_revenue__b5, m_revenue__b6, m_revenue__b7, m_distinct_orders.
 "pass_orders" AS (
   SELECT
     r.unit_id,
@@ -70,6 +70,20 @@ eligible AS (
     -- m_revenue: sum of gross in [trigger + 0d, trigger + 7d)
     CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 604800000000 AND CAST(r."c_gross" AS DOUBLE) - CAST(r."c_gross" AS DOUBLE) = 0 THEN CAST(CAST(r."c_gross" AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS "m_revenue",
     count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 604800000000 AND NOT (CAST(r."c_gross" AS DOUBLE) - CAST(r."c_gross" AS DOUBLE) = 0) THEN 1 END) AS "m_revenue__nonfinite",
+    -- m_revenue__b1: sum of gross in [trigger + 0d, trigger + 1d)
+    CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 86400000000 AND CAST(r."c_gross" AS DOUBLE) - CAST(r."c_gross" AS DOUBLE) = 0 THEN CAST(CAST(r."c_gross" AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS "m_revenue__b1",
+    -- m_revenue__b2: sum of gross in [trigger + 1d, trigger + 2d)
+    CAST(sum(CASE WHEN r.dt_us >= 86400000000 AND r.dt_us < 172800000000 AND CAST(r."c_gross" AS DOUBLE) - CAST(r."c_gross" AS DOUBLE) = 0 THEN CAST(CAST(r."c_gross" AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS "m_revenue__b2",
+    -- m_revenue__b3: sum of gross in [trigger + 2d, trigger + 3d)
+    CAST(sum(CASE WHEN r.dt_us >= 172800000000 AND r.dt_us < 259200000000 AND CAST(r."c_gross" AS DOUBLE) - CAST(r."c_gross" AS DOUBLE) = 0 THEN CAST(CAST(r."c_gross" AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS "m_revenue__b3",
+    -- m_revenue__b4: sum of gross in [trigger + 3d, trigger + 4d)
+    CAST(sum(CASE WHEN r.dt_us >= 259200000000 AND r.dt_us < 345600000000 AND CAST(r."c_gross" AS DOUBLE) - CAST(r."c_gross" AS DOUBLE) = 0 THEN CAST(CAST(r."c_gross" AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS "m_revenue__b4",
+    -- m_revenue__b5: sum of gross in [trigger + 4d, trigger + 5d)
+    CAST(sum(CASE WHEN r.dt_us >= 345600000000 AND r.dt_us < 432000000000 AND CAST(r."c_gross" AS DOUBLE) - CAST(r."c_gross" AS DOUBLE) = 0 THEN CAST(CAST(r."c_gross" AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS "m_revenue__b5",
+    -- m_revenue__b6: sum of gross in [trigger + 5d, trigger + 6d)
+    CAST(sum(CASE WHEN r.dt_us >= 432000000000 AND r.dt_us < 518400000000 AND CAST(r."c_gross" AS DOUBLE) - CAST(r."c_gross" AS DOUBLE) = 0 THEN CAST(CAST(r."c_gross" AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS "m_revenue__b6",
+    -- m_revenue__b7: sum of gross in [trigger + 6d, trigger + 7d)
+    CAST(sum(CASE WHEN r.dt_us >= 518400000000 AND r.dt_us < 604800000000 AND CAST(r."c_gross" AS DOUBLE) - CAST(r."c_gross" AS DOUBLE) = 0 THEN CAST(CAST(r."c_gross" AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS "m_revenue__b7",
     -- m_distinct_orders: distinct values of order_id where sku_count >= 1 in [trigger + 0d, trigger + 36h)
     count(DISTINCT CASE WHEN r.dt_us >= 0 AND r.dt_us < 129600000000 AND (r."c_sku_count" >= 1) THEN r."c_order_id" END) AS "m_distinct_orders"
   FROM (
@@ -111,6 +125,13 @@ unit_values AS (
     coalesce(p1."m_big_spender__nonfinite", 0) AS "m_big_spender__nonfinite",
     coalesce(p1."m_revenue", 0) AS "m_revenue",
     coalesce(p1."m_revenue__nonfinite", 0) AS "m_revenue__nonfinite",
+    coalesce(p1."m_revenue__b1", 0) AS "m_revenue__b1",
+    coalesce(p1."m_revenue__b2", 0) AS "m_revenue__b2",
+    coalesce(p1."m_revenue__b3", 0) AS "m_revenue__b3",
+    coalesce(p1."m_revenue__b4", 0) AS "m_revenue__b4",
+    coalesce(p1."m_revenue__b5", 0) AS "m_revenue__b5",
+    coalesce(p1."m_revenue__b6", 0) AS "m_revenue__b6",
+    coalesce(p1."m_revenue__b7", 0) AS "m_revenue__b7",
     coalesce(p1."m_distinct_orders", 0) AS "m_distinct_orders",
     coalesce(p2."m_revenue_per_session__den", 0) AS "m_revenue_per_session__den",
     coalesce(p2."m_long_sessions", 0) AS "m_long_sessions"
@@ -132,6 +153,13 @@ centres AS (
     avg(CASE WHEN u.mature_14d THEN CAST(least(u."m_revenue_per_session__num", k."cap_revenue_per_session__num") AS DOUBLE) END) AS "c_revenue_per_session__num",
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_revenue_per_session__den" AS DOUBLE) END) AS "c_revenue_per_session__den",
     avg(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE) END) AS "c_revenue",
+    avg(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b1" AS DOUBLE) END) AS "c_revenue__b1",
+    avg(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b2" AS DOUBLE) END) AS "c_revenue__b2",
+    avg(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b3" AS DOUBLE) END) AS "c_revenue__b3",
+    avg(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b4" AS DOUBLE) END) AS "c_revenue__b4",
+    avg(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b5" AS DOUBLE) END) AS "c_revenue__b5",
+    avg(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b6" AS DOUBLE) END) AS "c_revenue__b6",
+    avg(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b7" AS DOUBLE) END) AS "c_revenue__b7",
     avg(CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE) END) AS "c_distinct_orders",
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_long_sessions" AS DOUBLE) END) AS "c_long_sessions"
   FROM unit_values AS u
@@ -139,7 +167,7 @@ centres AS (
   GROUP BY u.variant
 )
 SELECT
-  '70f84f6c6f917d36' AS "spec_fingerprint",
+  'cbcd3dda7f10fcac' AS "spec_fingerprint",
   'as_of=2026-07-01T00:00:00Z' AS "compile_options",
   u.variant AS "variant",
   count(*) AS "units",
@@ -161,6 +189,23 @@ SELECT
   sum(u."m_revenue__nonfinite") AS "revenue__nonfinite_rows",
   CASE WHEN min(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE) END) = max(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE) END) THEN min(CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE) END) ELSE min(c0."c_revenue") + avg((CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE) END - c0."c_revenue")) END AS "revenue__mean",
   var_samp((CASE WHEN u.mature_7d THEN CAST(least(u."m_revenue", 500) AS DOUBLE) END - c0."c_revenue")) AS "revenue__var",
+  -- revenue by time since trigger: 7 buckets of 1d, each in [trigger + 0d, trigger + 1d) …
+  CASE WHEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b1" AS DOUBLE) END) = max(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b1" AS DOUBLE) END) THEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b1" AS DOUBLE) END) ELSE min(c0."c_revenue__b1") + avg((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b1" AS DOUBLE) END - c0."c_revenue__b1")) END AS "revenue__b1_mean",
+  var_samp((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b1" AS DOUBLE) END - c0."c_revenue__b1")) AS "revenue__b1_var",
+  CASE WHEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b2" AS DOUBLE) END) = max(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b2" AS DOUBLE) END) THEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b2" AS DOUBLE) END) ELSE min(c0."c_revenue__b2") + avg((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b2" AS DOUBLE) END - c0."c_revenue__b2")) END AS "revenue__b2_mean",
+  var_samp((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b2" AS DOUBLE) END - c0."c_revenue__b2")) AS "revenue__b2_var",
+  CASE WHEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b3" AS DOUBLE) END) = max(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b3" AS DOUBLE) END) THEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b3" AS DOUBLE) END) ELSE min(c0."c_revenue__b3") + avg((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b3" AS DOUBLE) END - c0."c_revenue__b3")) END AS "revenue__b3_mean",
+  var_samp((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b3" AS DOUBLE) END - c0."c_revenue__b3")) AS "revenue__b3_var",
+  CASE WHEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b4" AS DOUBLE) END) = max(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b4" AS DOUBLE) END) THEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b4" AS DOUBLE) END) ELSE min(c0."c_revenue__b4") + avg((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b4" AS DOUBLE) END - c0."c_revenue__b4")) END AS "revenue__b4_mean",
+  var_samp((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b4" AS DOUBLE) END - c0."c_revenue__b4")) AS "revenue__b4_var",
+  CASE WHEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b5" AS DOUBLE) END) = max(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b5" AS DOUBLE) END) THEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b5" AS DOUBLE) END) ELSE min(c0."c_revenue__b5") + avg((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b5" AS DOUBLE) END - c0."c_revenue__b5")) END AS "revenue__b5_mean",
+  var_samp((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b5" AS DOUBLE) END - c0."c_revenue__b5")) AS "revenue__b5_var",
+  CASE WHEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b6" AS DOUBLE) END) = max(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b6" AS DOUBLE) END) THEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b6" AS DOUBLE) END) ELSE min(c0."c_revenue__b6") + avg((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b6" AS DOUBLE) END - c0."c_revenue__b6")) END AS "revenue__b6_mean",
+  var_samp((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b6" AS DOUBLE) END - c0."c_revenue__b6")) AS "revenue__b6_var",
+  CASE WHEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b7" AS DOUBLE) END) = max(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b7" AS DOUBLE) END) THEN min(CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b7" AS DOUBLE) END) ELSE min(c0."c_revenue__b7") + avg((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b7" AS DOUBLE) END - c0."c_revenue__b7")) END AS "revenue__b7_mean",
+  var_samp((CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b7" AS DOUBLE) END - c0."c_revenue__b7")) AS "revenue__b7_var",
+  -- revenue by time since trigger: trend contrast L = -6·b1 -4·b2 -2·b3 +0·b4 +2·b5 +4·b6 +6·b7
+  var_samp(-6 * (CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b1" AS DOUBLE) END - c0."c_revenue__b1") + -4 * (CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b2" AS DOUBLE) END - c0."c_revenue__b2") + -2 * (CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b3" AS DOUBLE) END - c0."c_revenue__b3") + 0 * (CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b4" AS DOUBLE) END - c0."c_revenue__b4") + 2 * (CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b5" AS DOUBLE) END - c0."c_revenue__b5") + 4 * (CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b6" AS DOUBLE) END - c0."c_revenue__b6") + 6 * (CASE WHEN u.mature_7d THEN CAST(u."m_revenue__b7" AS DOUBLE) END - c0."c_revenue__b7")) AS "revenue__trend_var",
   -- distinct_orders (mechanism, mean): mean per unit of distinct values of order_id where sku_count >= 1; window [trigger + 0d, trigger + 36h), mature units only
   count(CASE WHEN u.mature_36h THEN 1 END) AS "distinct_orders__n",
   CASE WHEN min(CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE) END) = max(CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE) END) THEN min(CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE) END) ELSE min(c0."c_distinct_orders") + avg((CASE WHEN u.mature_36h THEN CAST(u."m_distinct_orders" AS DOUBLE) END - c0."c_distinct_orders")) END AS "distinct_orders__mean",
@@ -176,7 +221,7 @@ GROUP BY u.variant
 ORDER BY "variant"
 ;
 
--- assay 0.1.0 health query for experiment ratio-caps (spec fingerprint 70f84f6c6f917d36)
+-- assay 0.1.0 health query for experiment ratio-caps (spec fingerprint cbcd3dda7f10fcac)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-06-01T00:00:00Z, 2026-07-01T00:00:00Z); outcome windows must have ended by 2026-07-01T00:00:00Z.
 WITH
