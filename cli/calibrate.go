@@ -132,4 +132,11 @@ func absoluteFiles(spec *metrics.Spec, specPath string) {
 			src.File = filepath.Join(dir, src.File)
 		}
 	}
+	// A prior run named by its spec reads that spec's exposure source,
+	// which is not among this spec's sources.
+	for _, pr := range spec.PriorRuns {
+		if src := pr.Source; pr.Spec != "" && src != nil && src.File != "" && !filepath.IsAbs(src.File) {
+			src.File = filepath.Join(dir, src.File)
+		}
+	}
 }

@@ -13,6 +13,7 @@ import (
 	"github.com/assay-dev/assay/engine"
 	"github.com/assay-dev/assay/pipeline"
 	"github.com/assay-dev/assay/report"
+	"github.com/assay-dev/assay/results"
 )
 
 func cmdRun(args []string, stdout, stderr io.Writer) int {
@@ -125,6 +126,29 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		prog.Pause()
 		fmt.Fprintf(stderr, "assay: %v\n", err)
 		return ExitEngine
+	}
+	if spec.PriorApart() && ctx.Err() == nil {
+		// Units of prior runs, analysed apart: a second per-variant query
+		// whose eligible units are exactly those (report/prior.go).
+		prog.Stage("running the per-variant query of previously exposed units")
+		aopt := opt
+		aopt.PriorOnly, aopt.Breakdowns = true, nil
+		aplan, aq, ads, err := eng.Compile(ctx, spec, aopt)
+		if err == nil && ads.HasErrors() {
+			err = ads.Err()
+		}
+		var aset *results.Set
+		if err == nil {
+			aset, err = eng.Run(ctx, aplan, aq, false)
+		}
+		if err == nil {
+			err = rep.AddPriorApart(aplan, aset, ropt)
+		}
+		if err != nil {
+			prog.Pause()
+			fmt.Fprintf(stderr, "assay: previously exposed units: %v\n", engine.Redact(err))
+			return ExitEngine
+		}
 	}
 	saveFailed := false
 	if saveTarget != "" && ctx.Err() == nil {

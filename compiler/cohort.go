@@ -373,9 +373,17 @@ func (pr *printer) eligible() {
 	p := pr.p
 	var conds []string
 	for _, x := range p.Exclusions {
+		if p.PriorOnly && x.Flag == FlagPrior {
+			conds = append(conds, "c."+pr.id(x.Flag))
+			continue
+		}
 		conds = append(conds, "NOT c."+pr.id(x.Flag))
 	}
-	pr.line(0, "-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.")
+	if p.PriorOnly {
+		pr.line(0, "-- Units a prior run exposed, analysed apart: one variant only, a declared variant, every eligibility rule met.")
+	} else {
+		pr.line(0, "-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.")
+	}
 	pr.line(0, "eligible AS (")
 	pr.line(1, "SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day%s", segCols(pr, p.Segments, "c"))
 	pr.line(1, "FROM cohort AS c")

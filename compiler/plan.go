@@ -48,6 +48,10 @@ type Options struct {
 	// StandIn compiles a planning query (planning.go): the trigger is the
 	// spec's stand-in trigger and every unit is in one pooled arm.
 	StandIn bool
+	// PriorOnly compiles the analysis of the units a prior run exposed
+	// (the spec's [prior_runs] with analysis = "apart"): they are the
+	// eligible units instead of an exclusion; every other rule applies.
+	PriorOnly bool
 }
 
 // KeyTriggerDay groups results by the calendar day of each unit's trigger
@@ -86,6 +90,9 @@ func (o Options) Text() string {
 	if o.StandIn {
 		parts = append(parts, "stand_in=true")
 	}
+	if o.PriorOnly {
+		parts = append(parts, "prior_only=true")
+	}
 	return strings.Join(parts, ";")
 }
 
@@ -116,6 +123,8 @@ func ParseOptions(s string) (Options, error) {
 			_, err = fmt.Sscan(v, &o.Salt)
 		case "stand_in":
 			o.StandIn, err = strconv.ParseBool(v)
+		case "prior_only":
+			o.PriorOnly, err = strconv.ParseBool(v)
 		default:
 			err = fmt.Errorf("unknown option %q", k)
 		}
@@ -204,6 +213,9 @@ type Plan struct {
 	// Pooled says the plan is a planning query (Options.StandIn): Spec is
 	// then a copy whose exposure is the stand-in trigger (planning.go).
 	Pooled bool
+	// PriorOnly says the eligible units are those a prior run exposed
+	// (Options.PriorOnly).
+	PriorOnly bool
 	// Columns are the main query's result columns, in order.
 	Columns []Column
 	// Exclusions are the reasons a triggered unit is left out, in the
@@ -336,7 +348,10 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 	}
 	p := &Plan{Spec: s, TZ: s.TZName}
 	start, end := s.Start, s.End
-	norm := Options{Splits: opt.Splits, Salt: opt.Salt, StandIn: opt.StandIn}
+	norm := Options{Splits: opt.Splits, Salt: opt.Salt, StandIn: opt.StandIn, PriorOnly: opt.PriorOnly}
+	if opt.PriorOnly && len(s.PriorRuns) == 0 {
+		bad(metrics.CodePriorRun, "declare [prior_runs.<name>] with analysis = \"apart\"", "the spec declares no prior run whose units could be analysed apart")
+	}
 	if !opt.Start.IsZero() && !opt.Start.Equal(s.Start) {
 		start, norm.Start = opt.Start, opt.Start.UTC()
 	}
@@ -421,6 +436,7 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 		addAttr(found.Source)
 	}
 	p.Options = norm
+	p.PriorOnly = opt.PriorOnly && len(s.PriorRuns) > 0
 	sum := sha256.Sum256([]byte(s.Fingerprint + "\n" + norm.Text()))
 	p.Fingerprint = hex.EncodeToString(sum[:8])
 

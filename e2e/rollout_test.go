@@ -15,6 +15,8 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 	"time"
@@ -496,6 +498,158 @@ func TestPriorRuns(t *testing.T) {
 			}
 			if !found {
 				t.Errorf("cautions: got %q, want one on the 60 exposure rows before the start", rep.Cautions)
+			}
+		})
+	}
+}
+
+// priorApartFixture writes 400 units triggered in the first week; units
+// 0–59 were also exposed before the start (in a prior run, to the file
+// priorFile under dir) and respond differently: Poisson(3) events in the
+// window instead of Poisson(1). It returns each unit's count and whether
+// it was exposed before.
+func priorApartFixture(t testing.TB, dir, priorFile string, seed uint64) (ys []float64, prior []bool) {
+	t.Helper()
+	r := newRand(seed)
+	var expo, old, ev [][]string
+	for i := range 400 {
+		u := fmt.Sprintf("u%06d", i)
+		arm := []string{"control", "treatment"}[i%2]
+		trig := within(r, start3T, week)
+		expo = append(expo, []string{u, arm, tsText(trig)})
+		lambda := 1.0
+		if i < 60 {
+			old = append(old, []string{u, arm, tsText(within(r, ts("2026-02-20 00:00:00"), day))})
+			lambda = 3
+		}
+		k := poisson(r, lambda)
+		for range k {
+			ev = append(ev, []string{u, tsText(within(r, trig, week))})
+		}
+		ys, prior = append(ys, float64(k)), append(prior, i < 60)
+	}
+	cols := []col3{{"unit_id", "VARCHAR"}, {"variant", "VARCHAR"}, {"exposed_at", "TIMESTAMP"}}
+	if priorFile == "exposures.parquet" {
+		expo = append(expo, old...)
+	} else {
+		writeBulk(t, dir, priorFile, cols, old)
+	}
+	writeBulk(t, dir, "exposures.parquet", cols, expo)
+	writeBulk(t, dir, "events.parquet", []col3{{"unit_id", "VARCHAR"}, {"happened_at", "TIMESTAMP"}}, ev)
+	return ys, prior
+}
+
+// TestPriorRunsApartAndBySpec: previously exposed units analysed apart
+// (analysis = "apart"), and a prior run named by the earlier run's spec,
+// whose exposure file lives in another directory.
+// Source: arm means of the planted counts, by hand (gonum stat.Mean).
+func TestPriorRunsApartAndBySpec(t *testing.T) {
+	earlier := `[experiment]
+id = "first-try"
+hypothesis = "The first run of the same change, stopped after a logging fault."
+unit = "user"
+start = 2026-02-15T00:00:00Z
+end = 2026-03-01T00:00:00Z
+confidence = 0.95
+
+[variants]
+control = 0.5
+treatment = 0.5
+
+[sources.exposures]
+file = "exposures_feb.parquet"
+unit = "unit_id"
+time = "exposed_at"
+columns = ["unit_id", "variant", "exposed_at"]
+
+[sources.events]
+file = "../events.parquet"
+unit = "unit_id"
+time = "happened_at"
+columns = ["unit_id", "happened_at"]
+
+[exposure]
+source = "exposures"
+variant = "variant"
+
+[metrics.visits]
+role = "primary"
+kind = "count"
+source = "events"
+window = ["0d", "14d"]
+`
+	cases := []struct {
+		name, extra, priorFile string
+		apart                  bool
+	}{
+		{"apart", "[prior_runs.first]\nsource = \"exposures\"\nfrom = 2026-02-01T00:00:00Z\nanalysis = \"apart\"\n", "exposures.parquet", true},
+		{"by spec", "[prior_runs.first]\nspec = \"old/first.toml\"\n", "old/exposures_feb.parquet", false},
+		{"by spec, apart", "[prior_runs.first]\nspec = \"old/first.toml\"\nanalysis = \"apart\"\n", "old/exposures_feb.parquet", true},
+	}
+	for i, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			dir := t.TempDir()
+			if err := os.MkdirAll(filepath.Join(dir, "old"), 0o755); err != nil {
+				t.Fatal(err)
+			}
+			ys, prior := priorApartFixture(t, dir, tc.priorFile, uint64(1400+i))
+			writeText(t, dir, "old/first.toml", earlier)
+			spec := writeText(t, dir, "spec.toml", spec3{Metrics: metricVisits, Extra: tc.extra}.toml())
+			code, out, errs := runCLI("run", "--format", "json", spec)
+			var rep struct {
+				priorReport
+				Metrics    []metricJSON `json:"metrics"`
+				PriorApart *struct {
+					Runs    []string         `json:"runs"`
+					Units   map[string]int64 `json:"units_by_variant"`
+					Metrics []metricJSON     `json:"metrics"`
+				} `json:"prior_apart"`
+			}
+			if err := json.Unmarshal([]byte(out), &rep); err != nil {
+				t.Fatalf("exit %d: %v\n%s", code, err, errs)
+			}
+			// By hand: arm means of the new and of the previously exposed units.
+			var fresh, old [2][]float64
+			for u, y := range ys {
+				if prior[u] {
+					old[u%2] = append(old[u%2], y)
+				} else {
+					fresh[u%2] = append(fresh[u%2], y)
+				}
+			}
+			if rep.Health.Eligible != 340 {
+				t.Errorf("eligible units: got %d, want 340 (60 previously exposed left out)", rep.Health.Eligible)
+			}
+			m := rep.Metrics[0]
+			for a, v := range []string{"control", "treatment"} {
+				if got, want := m.variant(t, v).Value, stat.Mean(fresh[a], nil); math.Abs(got-want) > 1e-9 {
+					t.Errorf("main result, %s: got %v, want %v (new units only)", v, got, want)
+				}
+			}
+			if !tc.apart {
+				if rep.PriorApart != nil {
+					t.Errorf("prior_apart present without analysis = \"apart\"")
+				}
+				return
+			}
+			if rep.PriorApart == nil || len(rep.PriorApart.Metrics) != 1 {
+				t.Fatalf("prior_apart: got %+v, want one metric", rep.PriorApart)
+			}
+			pm := rep.PriorApart.Metrics[0]
+			for a, v := range []string{"control", "treatment"} {
+				if got := rep.PriorApart.Units[v]; got != 30 {
+					t.Errorf("previously exposed units in %s: got %d, want 30", v, got)
+				}
+				if got, want := pm.variant(t, v).Value, stat.Mean(old[a], nil); math.Abs(got-want) > 1e-9 {
+					t.Errorf("apart, %s: got %v, want %v (previously exposed units only)", v, got, want)
+				}
+			}
+			_, text, _ := runCLI("run", spec)
+			if testing.Verbose() {
+				t.Log(text)
+			}
+			if !strings.Contains(text, "Previously exposed units, analysed apart") {
+				t.Errorf("text report has no section on the units analysed apart")
 			}
 		})
 	}

@@ -1,6 +1,7 @@
 package metrics
 
 import (
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -187,18 +188,31 @@ func normalise(w []float64) []float64 {
 
 // PriorRun names the exposures of an earlier run of the experiment (or of
 // another experiment on the same feature): units with a qualifying row in
-// Source in [From, Until) have seen the change before, so they are
-// excluded from this analysis ("previously_exposed") and counted by
-// variant. Only rows before the current analysis start count.
+// Source in [From, Until) have seen the change before. They are excluded
+// from this analysis ("previously_exposed") and counted by variant, or,
+// with analysis = "apart", analysed on their own beside it. Only rows
+// before the current analysis start count.
 type PriorRun struct {
 	Name        string
 	Source      *Source
 	From, Until time.Time
 	Filter      *Expr // nil: every row
-	At          Range
+	// Spec is the earlier run's spec file when the run was named by it
+	// (spec = "…"): Source, From, Until and Filter are then its exposure
+	// source and filter and its analysis period.
+	Spec string
+	// Apart says the previously exposed units are analysed apart instead
+	// of only excluded (analysis = "apart"); every prior run of a spec
+	// says the same.
+	Apart bool
+	At    Range
 }
 
-var priorRunKeys = []string{"source", "from", "until", "filter"}
+var priorRunKeys = []string{"source", "from", "until", "filter", "spec", "analysis"}
+
+// PriorApart reports whether the spec's previously exposed units are
+// analysed apart.
+func (s *Spec) PriorApart() bool { return len(s.PriorRuns) > 0 && s.PriorRuns[0].Apart }
 
 // priorRun reads one [prior_runs.<name>] table.
 func (l *loader) priorRun(name string, t *table, ref refFunc) *PriorRun {
@@ -208,24 +222,94 @@ func (l *loader) priorRun(name string, t *table, ref refFunc) *PriorRun {
 	s := l.spec
 	pr := &PriorRun{Name: name, At: l.rng(t.path, true)}
 	l.ident(t.path, name, "prior run name", true)
-	pr.Source = ref(t, "source")
-	if pr.Source != nil && !pr.Source.IsEvent() {
-		l.errAt(t.p("source"), CodePriorRun, "name an event source with a time column, such as the earlier run's exposure log", "source `%s` has no time column, so earlier exposures cannot be dated", pr.Source.Name)
+	pr.Apart = t.enum("analysis", false, "exclude", "exclude", "apart") == "apart"
+	raw, _ := t.m["analysis"].(string)
+	known := !t.has("analysis") || raw == "exclude" || raw == "apart"
+	if known && len(s.PriorRuns) > 0 && s.PriorRuns[0].Apart != pr.Apart {
+		l.errAt(t.p("analysis"), CodePriorRun, fmt.Sprintf("set the same analysis on every prior run (prior run `%s` has %q)", s.PriorRuns[0].Name, map[bool]string{true: "apart", false: "exclude"}[s.PriorRuns[0].Apart]), "prior runs disagree on how previously exposed units are analysed")
 	}
-	var okF, okU bool
-	pr.From, okF = l.timestamp(t, "from", true)
-	pr.Until, okU = l.timestamp(t, "until", false)
-	if !t.has("until") {
-		pr.Until, okU = s.Start, !s.Start.IsZero()
+	if t.has("spec") {
+		for _, k := range []string{"source", "from", "until", "filter"} {
+			if t.has(k) {
+				l.errKey(t.p(k), CodePriorRun, "a prior run named by its spec takes that spec's exposure source, filter and period", "prior run `%s` names a spec and cannot also set `%s`", name, k)
+			}
+		}
+		if !l.priorSpec(pr, t) {
+			return nil
+		}
+	} else {
+		pr.Source = ref(t, "source")
+		if pr.Source != nil && !pr.Source.IsEvent() {
+			l.errAt(t.p("source"), CodePriorRun, "name an event source with a time column, such as the earlier run's exposure log", "source `%s` has no time column, so earlier exposures cannot be dated", pr.Source.Name)
+		}
+		var okF, okU bool
+		pr.From, okF = l.timestamp(t, "from", true)
+		pr.Until, okU = l.timestamp(t, "until", false)
+		if !t.has("until") {
+			pr.Until, okU = s.Start, !s.Start.IsZero()
+		}
+		if okF && okU && t.has("until") && !pr.Until.After(pr.From) {
+			l.errAt(t.p("until"), CodePriorRun, "", "prior run `%s` ends at %s, not after its start %s", name, pr.Until.UTC().Format(time.RFC3339), pr.From.UTC().Format(time.RFC3339))
+		}
+		pr.Filter = l.expression(t, "filter", pr.Source, true)
 	}
-	if okF && okU && t.has("until") && !pr.Until.After(pr.From) {
-		l.errAt(t.p("until"), CodePriorRun, "", "prior run `%s` ends at %s, not after its start %s", name, pr.Until.UTC().Format(time.RFC3339), pr.From.UTC().Format(time.RFC3339))
+	if !pr.From.IsZero() && !s.Start.IsZero() && !pr.From.Before(s.Start) {
+		key := "from"
+		if pr.Spec != "" {
+			key = "spec"
+		}
+		l.errAt(t.p(key), CodePriorRun, "earlier exposures are those before this run's start", "prior run `%s` starts at %s, not before the analysis start %s", name, pr.From.UTC().Format(time.RFC3339), s.Start.UTC().Format(time.RFC3339))
 	}
-	if okF && !s.Start.IsZero() && !pr.From.Before(s.Start) {
-		l.errAt(t.p("from"), CodePriorRun, "earlier exposures are those before this run's start", "prior run `%s` starts at %s, not before the analysis start %s", name, pr.From.UTC().Format(time.RFC3339), s.Start.UTC().Format(time.RFC3339))
-	}
-	pr.Filter = l.expression(t, "filter", pr.Source, true)
 	return pr
+}
+
+// priorSpec fills pr from the earlier run's spec named by t's spec key:
+// its exposure source (file paths made relative to this spec's
+// directory), its exposure filter and its analysis period. The earlier
+// spec's own prior runs are not followed.
+func (l *loader) priorSpec(pr *PriorRun, t *table) bool {
+	path := t.p("spec")
+	p, ok := t.str("spec", true, "the path of the earlier run's spec, relative to this spec")
+	if !ok {
+		return false
+	}
+	full := p
+	if !filepath.IsAbs(p) {
+		full = filepath.Join(filepath.Dir(l.file), p)
+	}
+	if filepath.Clean(full) == filepath.Clean(l.file) {
+		l.errAt(path, CodePriorRun, "name the spec of the earlier run", "prior run `%s` names this spec itself", pr.Name)
+		return false
+	}
+	src, err := os.ReadFile(full)
+	if err != nil {
+		l.errAt(path, CodePriorRun, "paths are relative to the spec's directory", "cannot read the spec of prior run `%s`: %s", pr.Name, cleanIOError(err))
+		return false
+	}
+	other, ds := LoadWith(full, src, l.opts)
+	if other == nil || ds.HasErrors() || other.Exposure.Source == nil {
+		first := "it cannot be parsed"
+		for _, d := range ds {
+			if d.Severity != Warning {
+				first = d.Short()
+				break
+			}
+		}
+		l.errAt(path, CodePriorRun, "fix it first: assay check "+full, "the spec of prior run `%s` has errors (%s)", pr.Name, first)
+		return false
+	}
+	if l.spec.Unit != "" && other.Unit != "" && other.Unit != l.spec.Unit {
+		l.errAt(path, CodePriorRun, "earlier exposures must be of the same kind of unit", "the spec of prior run `%s` randomises %q, this one %q", pr.Name, other.Unit, l.spec.Unit)
+		return false
+	}
+	cp := *other.Exposure.Source
+	if cp.File != "" && !filepath.IsAbs(cp.File) {
+		if rel, err := filepath.Rel(filepath.Dir(l.file), filepath.Join(filepath.Dir(full), cp.File)); err == nil {
+			cp.File = rel
+		}
+	}
+	pr.Spec, pr.Source, pr.Filter, pr.From, pr.Until = p, &cp, other.Exposure.Filter, other.Start, other.End
+	return true
 }
 
 // Event is a declared calendar event (a holiday, a sale, a fiscal year

@@ -71,6 +71,9 @@ type Report struct {
 	// Timing is the section on weekdays, declared calendar events and the
 	// effect by trigger week (timing.go).
 	Timing *Timing `json:"timing,omitempty"`
+	// PriorApart is the separate analysis of units exposed in a prior run,
+	// when the spec's prior runs say analysis = "apart" (prior.go).
+	PriorApart *PriorApart `json:"prior_apart,omitempty"`
 	// Plan compares the run with the spec's [planning] (planning.go).
 	Plan *PlanCheck `json:"plan"`
 }

@@ -65,6 +65,9 @@ func (r *Report) HTMLPage(p *compiler.Plan, q compiler.Queries, dialect string) 
 	if s, ok := b.elapsedSection(); ok {
 		page.Sections = append(page.Sections, s)
 	}
+	if s, ok := b.priorApartSection(); ok {
+		page.Sections = append(page.Sections, s)
+	}
 	page.Sections = append(page.Sections, b.healthSection())
 	page.Sections = append(page.Sections, html.Section{ID: "cautions", Heading: "Cautions", Blocks: paras(r.Cautions, "– ")})
 	if sqlSec != nil {
@@ -429,6 +432,41 @@ func (b *htmlBuilder) segmentBlocks(seg Segment) (html.Forest, []html.Block) {
 		}
 	}
 	return f, inner
+}
+
+// priorApartSection lists the comparisons of the units a prior run
+// exposed, analysed apart (Report.PriorApart).
+func (b *htmlBuilder) priorApartSection() (html.Section, bool) {
+	pa := b.r.PriorApart
+	if pa == nil {
+		return html.Section{}, false
+	}
+	sec := html.Section{ID: "prior-apart", Heading: "Previously exposed units, analysed apart"}
+	var units []string
+	for _, v := range b.r.Experiment.Variants {
+		units = append(units, fmt.Sprintf("%s %d", v.Name, pa.Units[v.Name]))
+	}
+	sec.Blocks = append(sec.Blocks, html.Paragraph{Text: fmt.Sprintf("Prior runs %s; units analysed: %s. %s", strings.Join(pa.Runs, ", "), strings.Join(units, ", "), pa.Note)})
+	t := html.Table{ID: "prior-apart-table", Caption: "Comparisons among previously exposed units only",
+		Header: []string{"metric", "arm", "n (baseline)", "n (arm)", "baseline", "arm value", "difference", "interval", "relative", "p-value"}}
+	for _, m := range pa.Metrics {
+		for _, c := range m.Comparisons {
+			var base, arm VariantVal
+			for _, v := range m.Variants {
+				switch v.Variant {
+				case c.Baseline:
+					base = v
+				case c.Variant:
+					arm = v
+				}
+			}
+			t.Rows = append(t.Rows, []html.Cell{txt(m.Name), txt(c.Variant), num(fmt.Sprint(base.N), ""), num(fmt.Sprint(arm.N), ""),
+				num(fmtNum(base.Value), ""), num(fmtNum(arm.Value), ""), num(signed(c.Difference), ""), num(ci(c.CILow, c.CIHigh), ""),
+				num(pct(float64(c.Relative)), ""), num(pEquals(float64(c.PValue)), "")})
+		}
+	}
+	sec.Blocks = append(sec.Blocks, t)
+	return sec, true
 }
 
 // elapsedSection draws each bucketed metric's difference by time since

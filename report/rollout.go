@@ -510,8 +510,12 @@ func priorCautions(p *compiler.Plan, r *Report) []string {
 		for _, v := range p.Variants {
 			parts = append(parts, fmt.Sprintf("%s %d", v, e.ByVariant[v]))
 		}
-		c = append(c, fmt.Sprintf("%d triggered units (%s of triggered; %s) were exposed in a prior run before the start and are left out: they have seen the change before and may react differently the second time.",
-			e.Units, pctAbs(float64(e.Rate)), strings.Join(parts, ", ")))
+		apart := ""
+		if p.Spec.PriorApart() {
+			apart = " (the section on previously exposed units compares them on their own)"
+		}
+		c = append(c, fmt.Sprintf("%d triggered units (%s of triggered; %s) were exposed in a prior run before the start and are left out%s: they have seen the change before and may react differently the second time.",
+			e.Units, pctAbs(float64(e.Rate)), strings.Join(parts, ", "), apart))
 	}
 	if n := h.IgnoredRows[compiler.IgnoredBeforeStart]; n > 0 {
 		what := "Declare the earlier run under [prior_runs] to leave its units out."

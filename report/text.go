@@ -121,6 +121,7 @@ func (r *Report) document() *document {
 			metricDoc(d, m)
 		}
 	}
+	r.priorApartDoc(d) // prior.go
 	for _, seg := range r.Segments {
 		segmentDoc(d, seg)
 	}
