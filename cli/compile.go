@@ -23,6 +23,9 @@ type compileFlags struct {
 	segments bool
 	health   bool
 	place    string // library.go: the target that picks each source's place
+	// priorOnly compiles the query of the units prior runs exposed (the
+	// analysis = "apart" query assay run adds); compile only.
+	priorOnly bool
 }
 
 func (c *compileFlags) register(fs *flag.FlagSet) {
@@ -57,6 +60,9 @@ func (c *compileFlags) options(spec *metrics.Spec) (compiler.Options, error) {
 		}
 	case c.segments:
 		opt.Breakdowns = compiler.DefaultBreakdowns(spec)
+	}
+	if c.priorOnly {
+		opt.PriorOnly, opt.Breakdowns = true, nil
 	}
 	return opt, nil
 }
@@ -97,6 +103,7 @@ func cmdCompile(args []string, stdout, stderr io.Writer) int {
 	fs := flagSet("compile", "compile [flags] SPEC.toml\n       assay compile --out DIR | --check DIR [flags] SPEC.toml...", stderr)
 	var cf compileFlags
 	cf.register(fs)
+	fs.BoolVar(&cf.priorOnly, "prior-only", false, "print the query that assay run adds for a spec whose prior runs say analysis = \"apart\": its eligible units are those a prior run exposed")
 	which := fs.String("query", "both", "which query to print: main, health or both")
 	out := fs.String("out", "", "write the SQL to DIR instead of printing it: one file <experiment id>.<dialect>.sql per spec and per dialect (--dialect takes a comma-separated list or all)")
 	check := fs.String("check", "", "compare the files in DIR with what --out would write; exit 3 if any is missing or stale")
