@@ -102,6 +102,8 @@ type rolloutReport struct {
 			CILow      num    `json:"ci_low"`
 			CIHigh     num    `json:"ci_high"`
 			PValue     num    `json:"p_value"`
+			RelLow     num    `json:"relative_ci_low"`
+			RelHigh    num    `json:"relative_ci_high"`
 		} `json:"comparisons"`
 	} `json:"metrics"`
 	Rollout *struct {
@@ -157,6 +159,25 @@ func stratifiedByHand(units []rolloutUnit) (d, se float64) {
 	return d, math.Sqrt(v)
 }
 
+// stratifiedMeansByHand returns the stratified arm means T = Σ w_k·ȳ_{t,k}
+// and B = Σ w_k·ȳ_{b,k} and their variances Σ w_k²·s²/n.
+func stratifiedMeansByHand(units []rolloutUnit) (t, b, vt, vb float64) {
+	var ys [2][2][]float64
+	for _, u := range units {
+		ys[u.step][u.arm] = append(ys[u.step][u.arm], u.y)
+	}
+	n := float64(len(units))
+	for k := range 2 {
+		mb, sb := stat.MeanVariance(ys[k][0], nil)
+		mt, st := stat.MeanVariance(ys[k][1], nil)
+		nb, nt := float64(len(ys[k][0])), float64(len(ys[k][1]))
+		w := (nb + nt) / n
+		t, b = t+w*mt, b+w*mb
+		vt, vb = vt+w*w*st/nt, vb+w*w*sb/nb
+	}
+	return t, b, vt, vb
+}
+
 // pooledByHand is the Welch difference of arm means over all units, with
 // its 95% interval (gonum Student's t with Welch–Satterthwaite df).
 func pooledByHand(units []rolloutUnit) (d, lo, hi float64) {
@@ -207,6 +228,19 @@ func TestRolloutByStep(t *testing.T) {
 	}
 	if !(f(c.CILow) <= effect && effect <= f(c.CIHigh)) {
 		t.Errorf("by-step interval [%v, %v] does not cover the planted effect %v", f(c.CILow), f(c.CIHigh), effect)
+	}
+	// The relative change T/B − 1 of the stratified means, with Fieller's
+	// interval written out (Fieller 1954): the roots of
+	// (b² − z²·se_B²)θ² − 2tbθ + (t² − z²·se_T²) = 0.
+	tb, bb, vt, vb := stratifiedMeansByHand(units)
+	A, Bq, C := bb*bb-q*q*vb, tb*bb, tb*tb-q*q*vt
+	D := math.Sqrt(Bq*Bq - A*C)
+	runChecks(t, []check3{
+		{"by-step relative low", f(c.RelLow), (Bq-D)/A - 1, 1e-9, "Fieller roots by hand from the stratified means"},
+		{"by-step relative high", f(c.RelHigh), (Bq+D)/A - 1, 1e-9, "Fieller roots by hand from the stratified means"},
+	})
+	if (f(c.RelLow) > 0 || f(c.RelHigh) < 0) != (f(c.PValue) < 0.05) {
+		t.Errorf("relative interval [%v, %v] and p = %v disagree", f(c.RelLow), f(c.RelHigh), f(c.PValue))
 	}
 	pd, plo, phi := pooledByHand(units)
 	t.Logf("planted %v; by step %.4f [%.4f, %.4f]; pooled %.4f [%.4f, %.4f]", effect, f(c.Difference), f(c.CILow), f(c.CIHigh), pd, plo, phi)

@@ -636,6 +636,29 @@ func ratio(a, b float64) float64 {
 	return a / b
 }
 
+// rowCovMoments are mp's CUPED moments in row (NaN when row is nil).
+func rowCovMoments(mp *compiler.MetricPlan, row *results.Row) stats.CovariateMoments {
+	m := rowMoments(mp, row)
+	c := stats.CovariateMoments{N: m.N, MeanY: m.Mean, VarY: m.Var, MeanX: math.NaN(), VarX: math.NaN(), CovYX: math.NaN()}
+	if row != nil {
+		c.MeanX, c.VarX, c.CovYX = row.Stat(mp, compiler.StatXMean), row.Stat(mp, compiler.StatXVar), row.Stat(mp, compiler.StatYXCov)
+	}
+	return c
+}
+
+// rowRatioCovMoments are mp's ratio CUPED moments in row (NaN when row is
+// nil).
+func rowRatioCovMoments(mp *compiler.MetricPlan, row *results.Row) stats.RatioCovariateMoments {
+	r := rowRatioMoments(mp, row)
+	c := stats.RatioCovariateMoments{N: r.N, MeanNum: r.MeanNum, MeanDen: r.MeanDen, VarNum: r.VarNum, VarDen: r.VarDen, CovNumDen: r.Cov,
+		MeanX: math.NaN(), VarX: math.NaN(), CovNumX: math.NaN(), CovDenX: math.NaN()}
+	if row != nil {
+		c.MeanX, c.VarX = row.Stat(mp, compiler.StatXMean), row.Stat(mp, compiler.StatXVar)
+		c.CovNumX, c.CovDenX = row.Stat(mp, compiler.StatNumXCov), row.Stat(mp, compiler.StatDenXCov)
+	}
+	return c
+}
+
 func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]*results.Row, level float64) MetricInfo {
 	m := mp.M
 	mi := MetricInfo{Name: m.Name, Label: m.Label, Role: string(m.Role), Kind: kindName(m), Window: [2]string{m.From.Text, m.To.Text}, Rule: mp.Rule, Comparisons: []Compare{}}
@@ -665,15 +688,8 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 		return stats.RatioMoments{N: nOf(row), MeanNum: stat(row, compiler.StatNumMean), MeanDen: stat(row, compiler.StatDenMean),
 			VarNum: stat(row, compiler.StatNumVar), VarDen: stat(row, compiler.StatDenVar), Cov: stat(row, compiler.StatCov)}
 	}
-	cmoments := func(row *results.Row) stats.CovariateMoments {
-		return stats.CovariateMoments{N: nOf(row), MeanY: stat(row, compiler.StatMean), MeanX: stat(row, compiler.StatXMean),
-			VarY: stat(row, compiler.StatVar), VarX: stat(row, compiler.StatXVar), CovYX: stat(row, compiler.StatYXCov)}
-	}
-	rcmoments := func(row *results.Row) stats.RatioCovariateMoments {
-		return stats.RatioCovariateMoments{N: nOf(row), MeanNum: stat(row, compiler.StatNumMean), MeanDen: stat(row, compiler.StatDenMean), MeanX: stat(row, compiler.StatXMean),
-			VarNum: stat(row, compiler.StatNumVar), VarDen: stat(row, compiler.StatDenVar), VarX: stat(row, compiler.StatXVar),
-			CovNumDen: stat(row, compiler.StatCov), CovNumX: stat(row, compiler.StatNumXCov), CovDenX: stat(row, compiler.StatDenXCov)}
-	}
+	cmoments := func(row *results.Row) stats.CovariateMoments { return rowCovMoments(mp, row) }
+	rcmoments := func(row *results.Row) stats.RatioCovariateMoments { return rowRatioCovMoments(mp, row) }
 	// theta and the covariate mean are pooled within each compared pair, so
 	// a comparison does not change when another arm does.
 	if mp.Cov != nil {

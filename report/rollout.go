@@ -408,25 +408,45 @@ func kindMethod(k metrics.Kind) string {
 
 // byStepCompare is the primary comparison read by step: the stratified
 // difference, its normal interval and p-value, and the relative change
-// against the stratified baseline mean Σ_k w_k·ȳ_{b,k}. No relative
-// interval is given (the Fieller set needs one pair of means).
+// T/B − 1 of the stratified means T = Σ_k w_k·ȳ_{t,k} and
+// B = Σ_k w_k·ȳ_{b,k} (T − B is the stratified difference), with
+// Fieller's set (stats.Fieller) at the same normal critical value from
+// SE(T)² = Σ_k w_k²·se²_{t,k} and SE(B)² = Σ_k w_k²·se²_{b,k} (the arms
+// are independent, so the covariance is 0): it excludes 0 exactly when
+// the stratified test rejects.
 func byStepCompare(p *compiler.Plan, mp *compiler.MetricPlan, pooled Compare, sr stats.StratifiedResult, rows map[string]map[string]*results.Row, level float64) Compare {
 	nan := Num(math.NaN())
 	c := Compare{Variant: pooled.Variant, Baseline: pooled.Baseline, Method: MethodByStep + " " + "stratified-" + kindMethod(mp.M.Kind),
 		Difference: Num(sr.Difference), StdError: Num(sr.StdError), CILow: Num(sr.CILow), CIHigh: Num(sr.CIHigh),
 		Relative: nan, RelativeCILow: nan, RelativeCIHigh: nan,
 		Statistic: Num(sr.Statistic), DF: Num(math.Inf(1)), PValue: Num(sr.PValue), PValueAdjusted: Num(sr.PValue), Family: pooled.Family,
-		Reason: sr.Reason, RelReason: "no relative interval for the by-step estimate; read the difference and its interval"}
-	var b float64
+		Reason: sr.Reason}
+	var b, t, vb, vt float64
 	for i, st := range p.Spec.Rollout.Steps {
-		if sr.Weights[i] == 0 {
+		w := sr.Weights[i]
+		if w == 0 {
 			continue
 		}
-		est, _ := stepEstimate(mp, rows[st.Name][p.Variants[0]])
-		b += sr.Weights[i] * est.Value
+		be, _ := stepEstimate(mp, rows[st.Name][p.Variants[0]])
+		te, _ := stepEstimate(mp, rows[st.Name][pooled.Variant])
+		b, t = b+w*be.Value, t+w*te.Value
+		vb, vt = vb+w*w*be.StdError*be.StdError, vt+w*w*te.StdError*te.StdError
 	}
-	if b != 0 && !math.IsNaN(b) && sr.Reason == "" {
+	switch {
+	case sr.Reason != "" || math.IsNaN(b):
+		c.RelReason = "the by-step difference is undefined"
+	case b == 0:
+		c.RelReason = "baseline mean is zero"
+	default:
 		c.Relative = Num(sr.Difference / b)
+		set := stats.Fieller(t, b, math.Sqrt(vt), math.Sqrt(vb), 0, stats.NormalQuantile((1+level)/2))
+		c.RelativeShape, c.RelReason = set.Shape, set.Reason
+		if set.Shape == stats.ShapeBounded || set.Shape == stats.ShapeUnbounded {
+			c.RelativeCILow, c.RelativeCIHigh = Num(set.Low-1), Num(set.High-1)
+		}
+		if set.Shape == stats.ShapeComplement {
+			c.RelReason = "the relative confidence set is not an interval (the baseline is not clearly away from zero)"
+		}
 	}
 	if pooled.Sequential != nil && sr.Reason == "" {
 		var n float64
