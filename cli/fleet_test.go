@@ -148,7 +148,9 @@ func TestHistoryThreeRuns(t *testing.T) {
 	}
 	dir := t.TempDir()
 	st := filepath.Join(dir, "results.duckdb")
-	asOfs := []string{"2026-04-13T00:00:00Z", "2026-04-03T00:00:00Z", "2026-04-08T00:00:00Z"} // stored out of order on purpose
+	// Stored out of order on purpose. The experiment starts 2026-03-09 with
+	// 28-day windows, so units mature from 2026-04-06.
+	asOfs := []string{"2026-04-13T00:00:00Z", "2026-04-09T00:00:00Z", "2026-04-11T00:00:00Z"}
 	type point struct{ asOf, diff, lo, hi any }
 	byAsOf := map[string]point{}
 	for _, a := range asOfs {
@@ -181,7 +183,7 @@ func TestHistoryThreeRuns(t *testing.T) {
 	if err := json.Unmarshal(out.Bytes(), &doc); err != nil {
 		t.Fatal(err)
 	}
-	order := []string{"2026-04-03T00:00:00Z", "2026-04-08T00:00:00Z", "2026-04-13T00:00:00Z"}
+	order := []string{"2026-04-09T00:00:00Z", "2026-04-11T00:00:00Z", "2026-04-13T00:00:00Z"}
 	if len(doc.Points) != 3 {
 		t.Fatalf("history: got %d points, want 3:\n%s", len(doc.Points), out.String())
 	}
@@ -205,7 +207,7 @@ func TestHistoryThreeRuns(t *testing.T) {
 			t.Errorf("history html: want %q in the page", w)
 		}
 	}
-	if !strings.Contains(text, "3 point(s)") || strings.Index(text, "2026-04-03T00:00:00Z") > strings.Index(text, "2026-04-13T00:00:00Z") {
+	if !strings.Contains(text, "3 point(s)") || strings.Index(text, "2026-04-09T00:00:00Z") > strings.Index(text, "2026-04-13T00:00:00Z") {
 		t.Errorf("history text: want three points in as-of order, got\n%s", text)
 	}
 }

@@ -127,8 +127,10 @@ func TestBreakdownsLeaveOverallUnchanged(t *testing.T) {
 	if err := json.Unmarshal([]byte(without), &b); err != nil {
 		t.Fatalf("%v: %s", err, stderr2)
 	}
-	if segs, _ := a["segments"].([]any); len(segs) != 3 {
-		t.Fatalf("got %d breakdowns, want 3", len(segs))
+	// The three asked for, and the rollout step that a spec with a
+	// [rollout] schedule always gets.
+	if segs, _ := a["segments"].([]any); len(segs) != 4 {
+		t.Fatalf("got %d breakdowns, want 4", len(segs))
 	}
 	for _, k := range []string{"metrics", "health", "alarms"} {
 		ka, _ := json.Marshal(a[k])

@@ -11,13 +11,13 @@ import (
 
 const checkoutSpec = "../testdata/demo/checkout.toml"
 
-// copyLibraryDemo copies the second demo spec and the shared library into a
-// temporary tree with the same layout and returns the spec and library
-// paths.
+// copyLibraryDemo copies the second demo spec, the shared library and the
+// shared calendar into a temporary tree with the same layout and returns
+// the spec and library paths.
 func copyLibraryDemo(t *testing.T) (spec, lib string) {
 	t.Helper()
 	root := t.TempDir()
-	for _, f := range [][2]string{{checkoutSpec, "demo/checkout.toml"}, {"../testdata/library/grocery.toml", "library/grocery.toml"}} {
+	for _, f := range [][2]string{{checkoutSpec, "demo/checkout.toml"}, {"../testdata/library/grocery.toml", "library/grocery.toml"}, {"../testdata/library/grocery-calendar.toml", "library/grocery-calendar.toml"}} {
 		b, err := os.ReadFile(f[0])
 		if err != nil {
 			t.Fatal(err)
@@ -84,7 +84,7 @@ func TestLibraryCommands(t *testing.T) {
 		{"check broken library", []string{"check", lib}, ExitInput, "", "grocery.toml:75:10: source `suport` is not declared in this library; did you mean `support`?"},
 		{"snippet from the library", []string{"check", lib}, ExitInput, "", `  75 | source = "suport"`},
 		{"spec using a broken library", []string{"check", spec}, ExitInput, "", "has errors; its definitions are not used"},
-		{"reach", []string{"reach", "delivered_orders", "../testdata/demo"}, ExitOK, "checkout.toml:36:10: grocery.toml#delivered_orders as orders_28d (secondary) in experiment checkout-shelf-2026-03; overrides", ""},
+		{"reach", []string{"reach", "delivered_orders", "../testdata/demo"}, ExitOK, "checkout.toml:50:10: grocery.toml#delivered_orders as orders_28d (secondary) in experiment checkout-shelf-2026-03; overrides", ""},
 		{"reach glob", []string{"reach", "cancellations", "../testdata/demo/*.toml"}, ExitOK, "margin 0.03 (library: 0.05)", ""},
 		{"reach nothing", []string{"reach", "no_such_metric", checkoutSpec}, ExitOK, "0 use(s) of no_such_metric in 1 spec file(s)", ""},
 		{"reach without specs", []string{"reach", "x"}, ExitInput, "", "give a library metric name"},

@@ -242,9 +242,12 @@ func testSpecs(t *testing.T, tables bool) map[string]string {
 			t.Fatal(err)
 		}
 		text := string(b)
-		// A copy of the demo uses the demo's shared library, by absolute path.
+		// A copy of the demo uses the demo's shared library and calendar,
+		// by absolute path.
 		lib, _ := filepath.Abs("../testdata/library/grocery.toml")
 		text = strings.Replace(text, `library = "../library/grocery.toml"`, `library = "`+filepath.ToSlash(lib)+`"`, 1)
+		cal, _ := filepath.Abs("../testdata/library/grocery-calendar.toml")
+		text = strings.Replace(text, `files = ["../library/grocery-calendar.toml"]`, `files = ["`+filepath.ToSlash(cal)+`"]`, 1)
 		if tables {
 			text = fileSource.ReplaceAllString(text, `table = "fixtures.$2"`)
 		}

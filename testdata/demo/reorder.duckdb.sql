@@ -1,4 +1,4 @@
--- assay 0.1.0 cohort table query for experiment reorder-shelf-2026-03 (spec fingerprint 1f4b3f1f0aeb1ae8)
+-- assay 0.1.0 cohort table query for experiment reorder-shelf-2026-03 (spec fingerprint 0156596dc764c47c)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
@@ -64,6 +64,15 @@ rule_1 AS (
     AND s."ordered_at" >= TIMESTAMP '2025-12-30 00:00:00' AND s."ordered_at" < TIMESTAMP '2026-04-15 00:00:00'
     AND coalesce(s."status" <> 'cancelled', FALSE)
 ),
+-- Units exposed in a prior run before the analysis start: excluded as previously_exposed.
+prior_units AS (
+  -- Prior run dry_run: exposures in [2026-02-26T00:00:00Z, 2026-03-02T00:00:00Z) where surface = 'home'.
+  SELECT x."customer_id" AS unit_id
+  FROM read_parquet('data/exposures.parquet') AS x
+  WHERE x."customer_id" IS NOT NULL
+    AND epoch_us(x."exposed_at") >= 1772064000000000 AND epoch_us(x."exposed_at") < 1772409600000000
+    AND coalesce(x."surface" = 'home', FALSE)
+),
 -- Every triggered unit with the reasons it may be excluded.
 cohort AS (
   SELECT
@@ -75,23 +84,25 @@ cohort AS (
     a1."seg_tenure" AS "seg_tenure",
     t.is_crossover,
     (t.variant IS NULL OR t.variant NOT IN ('control', 'shelf')) AS is_unknown_variant,
-    (r1.unit_id IS NULL) AS "fails_recent_order"
+    (r1.unit_id IS NULL) AS "fails_recent_order",
+    (pe.unit_id IS NOT NULL) AS "is_previously_exposed"
   FROM triggers AS t
   LEFT JOIN "attr_customers" AS a1 ON a1.unit_id = t.unit_id
   LEFT JOIN rule_1 AS r1 ON r1.unit_id = t.unit_id
+  LEFT JOIN prior_units AS pe ON pe.unit_id = t.unit_id
 ),
 -- Exposed units without a qualifying exposure, kept with no trigger for the health counts.
 never_triggered AS (
   SELECT u.unit_id FROM exposed_units AS u WHERE u.trigger_us IS NULL
 )
-SELECT unit_id, variant, trigger_us, trigger_day, "seg_platform", "seg_tenure", "is_crossover", "is_unknown_variant", "fails_recent_order"
+SELECT unit_id, variant, trigger_us, trigger_day, "seg_platform", "seg_tenure", "is_crossover", "is_unknown_variant", "fails_recent_order", "is_previously_exposed"
 FROM cohort
 UNION ALL
-SELECT n.unit_id, NULL AS variant, NULL AS trigger_us, NULL AS trigger_day, NULL AS "seg_platform", NULL AS "seg_tenure", NULL AS "is_crossover", NULL AS "is_unknown_variant", NULL AS "fails_recent_order"
+SELECT n.unit_id, NULL AS variant, NULL AS trigger_us, NULL AS trigger_day, NULL AS "seg_platform", NULL AS "seg_tenure", NULL AS "is_crossover", NULL AS "is_unknown_variant", NULL AS "fails_recent_order", NULL AS "is_previously_exposed"
 FROM never_triggered AS n
 ;
 
--- assay 0.1.0 per-variant statistics query for experiment reorder-shelf-2026-03 (spec fingerprint 1f4b3f1f0aeb1ae8)
+-- assay 0.1.0 per-variant statistics query for experiment reorder-shelf-2026-03 (spec fingerprint 0156596dc764c47c)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
@@ -99,7 +110,7 @@ FROM never_triggered AS n
 WITH
 -- Every triggered unit with the reasons it may be excluded, from the cohort table.
 cohort AS (
-  SELECT unit_id, variant, trigger_us, trigger_day, "seg_platform", "seg_tenure", "is_crossover", "is_unknown_variant", "fails_recent_order"
+  SELECT unit_id, variant, trigger_us, trigger_day, "seg_platform", "seg_tenure", "is_crossover", "is_unknown_variant", "fails_recent_order", "is_previously_exposed"
   FROM temp.main."assay_cohort"
   WHERE trigger_us IS NOT NULL
 ),
@@ -110,6 +121,7 @@ eligible AS (
   WHERE NOT c."is_crossover"
     AND NOT c."is_unknown_variant"
     AND NOT c."fails_recent_order"
+    AND NOT c."is_previously_exposed"
 ),
 -- One pass over orders for: m_orders_14d, m_orders_14d__x, m_basket_value__num, m_basket_value__den, m_basket_value__x, m_converted, m_cancelled.
 "pass_orders" AS (
@@ -176,6 +188,7 @@ unit_values AS (
     e.unit_id,
     e.variant,
     e.trigger_day,
+    e.trigger_us,
     e."seg_platform",
     e."seg_tenure",
     (e.trigger_us + 1209600000000 <= 1776038400000000) AS mature_14d,
@@ -243,11 +256,12 @@ centres AS (
 -- The overall rows and one set of rows per breakdown, from one pass over the units: in each
 -- grouping the keys it does not use are NULL.
 SELECT
-  '1f4b3f1f0aeb1ae8' AS "spec_fingerprint",
-  'as_of=2026-04-13T00:00:00Z;by=platform,tenure' AS "compile_options",
+  '0156596dc764c47c' AS "spec_fingerprint",
+  'as_of=2026-04-13T00:00:00Z;by=platform,tenure,rollout_step' AS "compile_options",
   u.variant AS "variant",
   u."key_seg_platform" AS "seg_platform",
   u."key_seg_tenure" AS "seg_tenure",
+  CASE WHEN u.trigger_us >= 1773014400000000 THEN 'full' WHEN u.trigger_us >= 1772668800000000 THEN 'ramp' ELSE 'test' END AS "rollout_step",
   count(*) AS "units",
   -- orders_14d (primary, mean): mean per unit of count of rows where status = 'delivered'; window [trigger + 0d, trigger + 14d), mature units only; shared definition delivered_orders from grocery.toml (definition a3ead006)
   count(CASE WHEN u.mature_14d THEN 1 END) AS "orders_14d__n",
@@ -288,11 +302,11 @@ SELECT
   var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_support_contacts" AS DOUBLE) END - c0."c_support_contacts")) AS "support_contacts__var"
 FROM keyed_units AS u
 JOIN centres AS c0 ON c0.variant = u.variant
-GROUP BY GROUPING SETS ((u.variant), (u.variant, u."key_seg_platform"), (u.variant, u."key_seg_tenure"))
-ORDER BY "variant", "seg_platform", "seg_tenure"
+GROUP BY GROUPING SETS ((u.variant), (u.variant, u."key_seg_platform"), (u.variant, u."key_seg_tenure"), (u.variant, CASE WHEN u.trigger_us >= 1773014400000000 THEN 'full' WHEN u.trigger_us >= 1772668800000000 THEN 'ramp' ELSE 'test' END))
+ORDER BY "variant", "seg_platform", "seg_tenure", "rollout_step"
 ;
 
--- assay 0.1.0 health query for experiment reorder-shelf-2026-03 (spec fingerprint 1f4b3f1f0aeb1ae8)
+-- assay 0.1.0 health query for experiment reorder-shelf-2026-03 (spec fingerprint 0156596dc764c47c)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
@@ -313,7 +327,7 @@ exposure_rows AS NOT MATERIALIZED (
 ),
 -- Every triggered unit with the reasons it may be excluded, from the cohort table.
 cohort AS (
-  SELECT unit_id, variant, trigger_us, trigger_day, "seg_platform", "seg_tenure", "is_crossover", "is_unknown_variant", "fails_recent_order"
+  SELECT unit_id, variant, trigger_us, trigger_day, "seg_platform", "seg_tenure", "is_crossover", "is_unknown_variant", "fails_recent_order", "is_previously_exposed"
   FROM temp.main."assay_cohort"
   WHERE trigger_us IS NOT NULL
 ),
@@ -384,9 +398,14 @@ SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count F
   WHERE "fails_recent_order"
   GROUP BY variant
   UNION ALL
+  SELECT 'excluded' AS kind, 'previously_exposed' AS reason, NULL AS source, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
+  FROM cohort
+  WHERE "is_previously_exposed"
+  GROUP BY variant
+  UNION ALL
   SELECT 'excluded' AS kind, 'any' AS reason, NULL AS source, variant AS variant, NULL AS day, count(*) AS row_count, count(*) AS unit_count
   FROM cohort
-  WHERE "is_crossover" OR "is_unknown_variant" OR "fails_recent_order"
+  WHERE "is_crossover" OR "is_unknown_variant" OR "fails_recent_order" OR "is_previously_exposed"
   GROUP BY variant
   UNION ALL
   SELECT 'ignored_rows' AS kind, 'null_unit' AS reason, NULL AS source, NULL AS variant, NULL AS day, null_unit AS row_count, NULL AS unit_count

@@ -4,9 +4,12 @@
 // The scenario is invented: a grocery-delivery app shows a row of previously
 // bought items (the reorder shelf) on its home screen to customers in the
 // "shelf" variant. The generator plants known effects for eligible treated
-// customers so that an analysis can be checked against the truth, and it
-// writes TRUTH.md next to the Parquet files describing what was planted and
-// how many customers fell into each category.
+// customers so that an analysis can be checked against the truth. The shelf
+// is launched in steps (a 5% test step, a 25% ramp, then 50/50) and a
+// spring pantry sale raises everyone's orders for a weekend, so that pooling
+// the steps misleads while a by-step reading does not. It writes TRUTH.md
+// next to the Parquet files describing what was planted and how many
+// customers fell into each category.
 //
 // Usage:
 //

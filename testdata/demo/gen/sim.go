@@ -30,7 +30,38 @@ var (
 	windowEnd    = unixDate(2026, time.April, 13)    // analysis window end (exclusive); outcome data stop here
 	matureCutoff = windowEnd - horizon               // triggers at or after this instant are immature
 	signupFloor  = unixDate(2021, time.June, 1)
+	saleStart    = unixDate(2026, time.March, 13) // spring pantry sale, Friday to Sunday
+	saleEnd      = unixDate(2026, time.March, 16) // first moment after the sale
 )
+
+// step is one step of the launch schedule: from start until the next step's
+// start, a customer triggered then is in the shelf variant with probability
+// shelfPct/100.
+type step struct {
+	name     string
+	start    int64
+	shelfPct int
+}
+
+// schedule is the launch: a small test step, a ramp, then the planned 50/50.
+// Each step begins at midnight UTC; the first at the analysis start.
+var schedule = []step{
+	{"test", windowStart, 5},
+	{"ramp", unixDate(2026, time.March, 5), 25},
+	{"full", unixDate(2026, time.March, 9), 50},
+}
+
+// stepAt returns the index of the step in force at t: the last step that
+// began at or before t, the first step for earlier times.
+func stepAt(t int64) int {
+	i := 0
+	for j, s := range schedule {
+		if s.start <= t {
+			i = j
+		}
+	}
+	return i
+}
 
 // Variant names.
 const (
@@ -49,6 +80,7 @@ const (
 	supportPer14   = 0.05 // support contacts per customer per 14 days, identical in both variants
 	tapsPer14      = 3.0  // shelf taps per eligible treated customer per 14 days
 	maxExposures   = 6    // exposure rows per exposed customer are between 1 and this
+	saleBoost      = 2.0  // order rate multiplier of everyone during the pantry sale
 )
 
 // kind is the latent ordering behaviour of a customer.
@@ -79,7 +111,8 @@ type customer struct {
 	signup    int64
 	tenure    string
 	exposed   bool
-	variant   string // hashed assignment
+	variant   string // hashed assignment under the step in force at the trigger
+	step      int    // index in schedule of the step that decided variant
 	kind      kind
 	trigger   int64 // first home exposure inside the window; zero when never triggered
 	eligible  bool  // triggered and at least one non-cancelled order in [trigger-60d, trigger)
@@ -90,6 +123,11 @@ type customer struct {
 	stray     bool  // has an exposure row after the window end
 	searchPre bool  // has a search or checkout exposure before the trigger
 	role      role
+	// planted is the expected extra non-cancelled orders in [trigger,
+	// trigger+14d) that the shelf would cause for this customer if treated
+	// (zero when ineligible): the planted lift on the expected baseline
+	// count, which includes the sale's extra orders.
+	planted float64
 }
 
 type exposure struct {
@@ -138,14 +176,26 @@ func splitmix64(x uint64) uint64 {
 	return x ^ (x >> 31)
 }
 
-// assign returns the variant of a customer by hashing its id, 50/50.
-func assign(id int64) string {
+// assign sets the variant of a customer decided at instant at (and the step
+// that decided it) by hashing its id: shelf when the hash modulo 100 is at least 100 minus the
+// shelf percentage of the step in force. The thresholds nest, so a customer
+// in shelf at 5% is in shelf at every wider step, and customers triggered in
+// the 50/50 step keep the variant the hash gave them before there was a
+// schedule.
+func (c *customer) assign(at int64) {
+	c.step = stepAt(at)
+	c.variant = control
+	if hashShelf(c.id, schedule[c.step].shelfPct) {
+		c.variant = shelf
+	}
+}
+
+// hashShelf reports whether customer id is in the shelf variant when pct
+// percent of customers are.
+func hashShelf(id int64, pct int) bool {
 	h := fnv.New64a()
 	h.Write([]byte("reorder-shelf:" + strconv.FormatInt(id, 10)))
-	if h.Sum64()%100 < 50 {
-		return control
-	}
-	return shelf
+	return h.Sum64()%100 >= uint64(100-pct)
 }
 
 // other returns the variant that is not v.
@@ -173,8 +223,12 @@ func simulate(seed uint64, n int) *dataset {
 	ds := &dataset{}
 	for i, id := range ids {
 		s := splitmix64(seed ^ splitmix64(uint64(i)+1))
-		r := rand.New(rand.NewPCG(s, splitmix64(s)))
-		simulateCustomer(ds, r, id, i < n)
+		src := rand.NewPCG(s, splitmix64(s))
+		// The sale's extra orders come from a stream of their own, so the
+		// other draws of a customer do not depend on them.
+		ss := splitmix64(seed ^ 0x73616c6500000000 ^ splitmix64(uint64(i)+1))
+		rs := rand.New(rand.NewPCG(ss, splitmix64(ss)))
+		simulateCustomer(ds, src, rs, id, i < n)
 	}
 	assignOrderIDs(ds.orders)
 	simulateVisits(ds, seed)
@@ -264,9 +318,11 @@ var (
 	anyWeights     = []float64{0.50, 0.30, 0.20}
 )
 
-// simulateCustomer draws one customer with all its rows and appends them to ds.
-func simulateCustomer(ds *dataset, r *rand.Rand, id int64, exposed bool) {
-	c := customer{id: id, exposed: exposed, variant: assign(id)}
+// simulateCustomer draws one customer with all its rows and appends them to
+// ds. The extra orders of the pantry sale are drawn from rs.
+func simulateCustomer(ds *dataset, src *rand.PCG, rs *rand.Rand, id int64, exposed bool) {
+	r := rand.New(src)
+	c := customer{id: id, exposed: exposed}
 	c.region = pick(r, regions, regionWeights)
 	switch u := r.Float64(); {
 	case u < 0.74:
@@ -295,6 +351,7 @@ func simulateCustomer(ds *dataset, r *rand.Rand, id int64, exposed bool) {
 		c.signup = c.drawSignup(r, firstRow)
 	} else {
 		ref = between(r, windowStart, windowEnd)
+		c.assign(ref) // never written: these customers have no exposure rows
 		c.signup = c.drawSignup(r, ref)
 	}
 	c.tenure = tenureBand(c.signup)
@@ -325,64 +382,106 @@ func simulateCustomer(ds *dataset, r *rand.Rand, id int64, exposed bool) {
 	lambda := gamma(r, orderRateShape) * orderRateMean / orderRateShape
 	basket := 52 * math.Exp(0.35*r.NormFloat64()-0.35*0.35/2)
 	var orders []order
-	add := func(at int64, factor float64, forceDelivered bool) {
+	addFrom := func(r *rand.Rand, at int64, factor float64, forceDelivered bool) {
 		amount := basket * math.Exp(0.30*r.NormFloat64()-0.30*0.30/2) * factor
 		amount = math.Max(3, math.Round(amount*100)/100)
 		cancelled := r.Float64() < cancelProb && !forceDelivered
 		orders = append(orders, order{customerID: id, at: at, amount: amount, cancelled: cancelled})
 	}
+	add := func(at int64, factor float64, forceDelivered bool) { addFrom(r, at, factor, forceDelivered) }
+	// sale adds the pantry sale's extra orders to a stretch [from, to) of
+	// the customer's order process with the given rate: a Poisson process
+	// of rate (saleBoost-1)·rate on the part inside the sale.
+	sale := func(from, to int64, rate, factor float64) {
+		arrivals(rs, max(from, saleStart), min(to, saleEnd), (saleBoost-1)*rate, func(at int64) { addFrom(rs, at, factor, false) })
+	}
 	preFrom := max(dataStart, c.signup)
+	preTo := int64(0) // end of the baseline process before ref
 	switch c.kind {
 	case kindActive:
-		arrivals(r, preFrom, ref, lambda, func(at int64) { add(at, 1, false) })
+		preTo = ref
+		arrivals(r, preFrom, preTo, lambda, func(at int64) { add(at, 1, false) })
 	case kindLapsed:
-		lapse := ref - lookback - r.Int64N(45*secPerDay)
-		arrivals(r, preFrom, lapse, lambda, func(at int64) { add(at, 1, false) })
+		preTo = ref - lookback - r.Int64N(45*secPerDay)
+		arrivals(r, preFrom, preTo, lambda, func(at int64) { add(at, 1, false) })
 	}
 	if c.role == roleActiveBeforeTrigger || c.role == roleLapsedBeforeTrigger {
 		add(ref-1, 1, true)
 	}
-
 	// Eligibility uses the half-open look-back [trigger-60d, trigger).
-	if c.trigger != 0 {
+	eligible := func() bool {
 		for _, o := range orders {
-			if !o.cancelled && o.at >= c.trigger-lookback && o.at < c.trigger {
-				c.eligible = true
-				break
+			if c.trigger != 0 && !o.cancelled && o.at >= c.trigger-lookback && o.at < c.trigger {
+				return true
 			}
 		}
+		return false
 	}
+	// hashTreated is whether the customer would be treated under a plain
+	// 50/50 hash and without the sale (see the support contacts below).
+	hashTreated := eligible() && hashShelf(id, 50)
+	if c.kind != kindNew {
+		sale(preFrom, preTo, lambda, 1)
+	}
+	c.eligible = eligible()
 	treated := c.eligible && c.variant == shelf
 
-	// Orders from ref onwards carry the planted effect for treated customers.
-	postRate := lambda
-	switch c.kind {
-	case kindLapsed:
-		postRate = 0.3 * lambda
-	case kindNew:
-		postRate = 0.8 * gamma(r, orderRateShape) * orderRateMean / orderRateShape
-	}
-	factor := 1.0
-	if treated {
-		postRate *= orderLift
-		factor = basketFactor
-	}
-	if c.role == roleActiveAtTrigger || c.role == roleNewAtTrigger {
-		add(ref, factor, true)
-	}
-	arrivals(r, ref, windowEnd, postRate, func(at int64) { add(at, factor, false) })
-	ds.orders = append(ds.orders, orders...)
-
-	// Shelf taps: only eligible treated customers, after their trigger.
-	if treated {
-		items := make([]int64, 4+r.IntN(9))
-		for i := range items {
-			items[i] = 700_000 + r.Int64N(3000)
+	// after draws everything that depends on treatment: orders from ref
+	// onwards, which carry the planted effect for treated customers, and
+	// shelf taps. With emit false it only advances r.
+	after := func(treated, emit bool) {
+		postRate := lambda
+		switch c.kind {
+		case kindLapsed:
+			postRate = 0.3 * lambda
+		case kindNew:
+			postRate = 0.8 * gamma(r, orderRateShape) * orderRateMean / orderRateShape
 		}
-		arrivals(r, c.trigger, windowEnd, tapsPer14/14, func(at int64) {
-			ds.taps = append(ds.taps, tap{customerID: id, at: at, itemID: items[r.IntN(len(items))]})
-		})
+		if emit && c.eligible {
+			in := float64(horizon) + (saleBoost-1)*float64(max(0, min(c.trigger+horizon, saleEnd)-max(c.trigger, saleStart)))
+			c.planted = (orderLift - 1) * (1 - cancelProb) * postRate * in / float64(secPerDay)
+		}
+		factor := 1.0
+		if treated {
+			postRate *= orderLift
+			factor = basketFactor
+		}
+		n := len(orders)
+		if c.role == roleActiveAtTrigger || c.role == roleNewAtTrigger {
+			add(ref, factor, true)
+		}
+		arrivals(r, ref, windowEnd, postRate, func(at int64) { add(at, factor, false) })
+		if emit {
+			sale(ref, windowEnd, postRate, factor)
+		} else {
+			orders = orders[:n]
+		}
+		// Shelf taps: only eligible treated customers, after their trigger.
+		if treated {
+			items := make([]int64, 4+r.IntN(9))
+			for i := range items {
+				items[i] = 700_000 + r.Int64N(3000)
+			}
+			arrivals(r, c.trigger, windowEnd, tapsPer14/14, func(at int64) {
+				t := tap{customerID: id, at: at, itemID: items[r.IntN(len(items))]}
+				if emit {
+					ds.taps = append(ds.taps, t)
+				}
+			})
+		}
 	}
+	// Support contacts, drawn next from r, do not depend on the variant.
+	// To keep them (and support.parquet) the same as under a plain 50/50
+	// hash without the sale, a customer whose treatment differs from that
+	// assignment has the draws after the trigger replayed for it, from the
+	// same state of r, before the contacts are drawn.
+	state := *src
+	after(treated, true)
+	if treated != hashTreated {
+		*src = state
+		after(hashTreated, false)
+	}
+	ds.orders = append(ds.orders, orders...)
 
 	// Support contacts: same rate for everyone, before and after the trigger.
 	arrivals(r, max(dataStart, c.signup), windowEnd, supportPer14/14, func(at int64) {
@@ -432,18 +531,21 @@ func (c *customer) drawExposures(r *rand.Rand) []exposure {
 	case u < 0.07: // never reaches the home screen
 		c.noHome = true
 		at := drawTrigger(r)
+		c.assign(at)
 		for k := 1 + r.IntN(3); k > 0 && at < windowEnd; k-- {
 			rows = append(rows, row(at, pick(r, otherSurfaces, otherWeights), c.variant))
 			at += 60 + r.Int64N(5*secPerDay)
 		}
 	case u < 0.073: // only seen during the pre-launch dry run
 		c.dryOnly = true
+		c.assign(windowStart) // the dry run used the test step's weights
 		for k := 1 + r.IntN(2); k > 0; k-- {
 			rows = append(rows, row(between(r, dryRunStart, windowStart), "home", c.variant))
 		}
 	default:
 		t := drawTrigger(r)
 		c.trigger = t
+		c.assign(t)
 		c.crossover = r.Float64() < 0.005 && windowEnd-t > 3600
 		c.dryRun = r.Float64() < 0.012
 		c.stray = r.Float64() < 0.02
