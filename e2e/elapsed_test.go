@@ -241,6 +241,19 @@ func TestElapsedTrendByStep(t *testing.T) {
 		d += w * (mt - mb)
 		v += w * w * (vt/nt + vb/nb)
 	}
+	// Each bucket's difference is post-stratified the same way.
+	for b := range 2 {
+		var ys [2][2][]float64
+		for _, u := range units {
+			ys[u.step][u.arm] = append(ys[u.step][u.arm], u.y[b])
+		}
+		want := 0.0
+		for k := range 2 {
+			w := float64(len(ys[k][0])+len(ys[k][1])) / n
+			want += w * (stat.Mean(ys[k][1], nil) - stat.Mean(ys[k][0], nil))
+		}
+		runChecks(t, []check3{{fmt.Sprintf("bucket %d by-step difference", b+1), f(e.Buckets[b].Difference), want, 1e-9, "Σ_k w_k·(ȳ_t − ȳ_b) by hand"}})
+	}
 	// Two buckets: w = (−1, 1), Σ w_b·b = 1, so the slope is D itself.
 	runChecks(t, []check3{
 		{"by-step slope", f(e.Slope), d, 1e-9, "Σ_k w_k·(L̄_t − L̄_b) by hand"},

@@ -97,56 +97,96 @@ func elapsedEffects(p *compiler.Plan, set *results.Set) []ElapsedEffect {
 	level := p.Spec.Confidence
 	alpha := (1 - level) / float64(tests)
 	overall := map[string]*results.Row{}
+	steps := stepRows(p, set)
+	ro := p.Spec.Rollout
 	for _, r := range set.Overall() {
 		r := r
 		overall[r.Variant] = &r
 	}
-	steps := stepRows(p, set)
-	ro := p.Spec.Rollout
 	for _, mp := range p.Metrics {
 		if len(mp.Buckets) == 0 {
 			continue
 		}
 		w := mp.TrendWeights
 		for _, v := range p.Variants[1:] {
-			base, treat := bucketArm(mp, overall[p.Variants[0]]), bucketArm(mp, overall[v])
 			e := ElapsedEffect{Metric: mp.M.Name, Variant: v, Baseline: p.Variants[0], BucketLength: mp.M.Bucket.Text, Alpha: alpha, Buckets: []ElapsedBucket{}}
-			var tr stats.TrendResult
+			// The strata read: the overall rows, the last step's, or every
+			// step's (weighted by its units, as the primary comparison).
+			var strata []stats.StratumBuckets
 			switch {
 			case ro != nil && len(ro.Steps) > 0 && ro.Estimate == metrics.EstimateLastStep:
 				last := ro.Steps[len(ro.Steps)-1].Name
-				base, treat = bucketArm(mp, steps[last][p.Variants[0]]), bucketArm(mp, steps[last][v])
-				tr = stats.ElapsedTrend(w, base, treat, level)
+				strata = []stats.StratumBuckets{{Base: bucketArm(mp, steps[last][p.Variants[0]]), Treat: bucketArm(mp, steps[last][v])}}
 				e.Method = fmt.Sprintf("units triggered in the last rollout step (%s) only; Welch's t on the per-unit linear trend contrast", last)
 			case ro != nil && len(ro.Steps) > 0:
-				var strata []stats.StratumBuckets
 				for _, st := range ro.Steps {
 					strata = append(strata, stats.StratumBuckets{Base: bucketArm(mp, steps[st.Name][p.Variants[0]]), Treat: bucketArm(mp, steps[st.Name][v])})
 				}
-				tr = stats.ElapsedTrendStratified(w, strata, level)
-				e.Method = "per-unit linear trend contrast, stratified by rollout step (normal approximation)"
+				e.Method = "stratified by rollout step, each step weighted by its share of units (normal approximation); the trend from the per-unit linear trend contrast"
 			default:
-				tr = stats.ElapsedTrend(w, base, treat, level)
+				strata = []stats.StratumBuckets{{Base: bucketArm(mp, overall[p.Variants[0]]), Treat: bucketArm(mp, overall[v])}}
 				e.Method = "Welch's t on the per-unit linear trend contrast"
+			}
+			var tr stats.TrendResult
+			if len(strata) == 1 {
+				tr = stats.ElapsedTrend(w, strata[0].Base, strata[0].Treat, level)
+			} else {
+				tr = stats.ElapsedTrendStratified(w, strata, level)
 			}
 			e.Slope, e.SlopeStdError, e.SlopeCILow, e.SlopeCIHigh, e.PValue, e.Reason = Num(tr.Slope), Num(tr.StdError), Num(tr.CILow), Num(tr.CIHigh), Num(tr.PValue), tr.Reason
 			total := 0.0
 			for b, a := range mp.Buckets {
-				var c stats.Comparison
-				if mp.M.Kind == metrics.KindProportion {
-					c = stats.TwoProportion(base.Buckets[b], treat.Buckets[b], level)
-				} else {
-					c = stats.Welch(base.Buckets[b], treat.Buckets[b], level)
-				}
-				total += c.Difference
-				e.Buckets = append(e.Buckets, ElapsedBucket{From: a.From.Text, To: a.To.Text, N: int64(base.Buckets[b].N), NVariant: int64(treat.Buckets[b].N),
-					Baseline: Num(base.Buckets[b].Mean), Value: Num(treat.Buckets[b].Mean), Difference: Num(c.Difference), CILow: Num(c.CILow), CIHigh: Num(c.CIHigh), Relative: Num(c.Relative)})
+				bk := bucketCompare(mp, strata, b, level)
+				bk.From, bk.To = a.From.Text, a.To.Text
+				total += float64(bk.Difference)
+				e.Buckets = append(e.Buckets, bk)
 			}
 			e.Trend = stats.TrendDirection(tr, total, alpha)
 			out = append(out, e)
 		}
 	}
 	return out
+}
+
+// bucketCompare compares bucket b between the arms: Welch's t (two
+// proportions for a proportion metric) from one stratum, or the
+// post-stratified difference (stats.Stratified) from several, with the
+// arms' values then the stratified means Σ_k w_k·ȳ_k.
+func bucketCompare(mp *compiler.MetricPlan, strata []stats.StratumBuckets, b int, level float64) ElapsedBucket {
+	prop := mp.M.Kind == metrics.KindProportion
+	var bk ElapsedBucket
+	if len(strata) == 1 {
+		base, treat := strata[0].Base.Buckets[b], strata[0].Treat.Buckets[b]
+		c := stats.Welch(base, treat, level)
+		if prop {
+			c = stats.TwoProportion(base, treat, level)
+		}
+		return ElapsedBucket{N: int64(base.N), NVariant: int64(treat.N), Baseline: Num(base.Mean), Value: Num(treat.Mean),
+			Difference: Num(c.Difference), CILow: Num(c.CILow), CIHigh: Num(c.CIHigh), Relative: Num(c.Relative)}
+	}
+	ms := make([]stats.StratumMoments, len(strata))
+	for k, s := range strata {
+		ms[k] = stats.StratumMoments{Base: s.Base.Buckets[b], Treat: s.Treat.Buckets[b]}
+		bk.N += int64(s.Base.Buckets[b].N)
+		bk.NVariant += int64(s.Treat.Buckets[b].N)
+	}
+	sr := stats.Stratified(ms, level)
+	if prop {
+		sr = stats.StratifiedProportion(ms, level)
+	}
+	var mb, mt float64
+	for k, m := range ms {
+		if sr.Weights[k] > 0 {
+			mb += sr.Weights[k] * m.Base.Mean
+			mt += sr.Weights[k] * m.Treat.Mean
+		}
+	}
+	bk.Baseline, bk.Value = Num(mb), Num(mt)
+	bk.Difference, bk.CILow, bk.CIHigh, bk.Relative = Num(sr.Difference), Num(sr.CILow), Num(sr.CIHigh), Num(math.NaN())
+	if mb != 0 && sr.Reason == "" {
+		bk.Relative = Num(sr.Difference / mb)
+	}
+	return bk
 }
 
 // elapsedCautions are the cautions of flagged trends.
