@@ -91,13 +91,7 @@ type demoRollout struct {
 			Variant string `json:"variant"`
 			Value   num    `json:"value"`
 		} `json:"variants"`
-		Comparisons []struct {
-			Variant    string `json:"variant"`
-			Method     string `json:"method"`
-			Difference num    `json:"difference"`
-			CILow      num    `json:"ci_low"`
-			CIHigh     num    `json:"ci_high"`
-		} `json:"comparisons"`
+		Comparisons []comparisonJSON `json:"comparisons"`
 	} `json:"metrics"`
 	Rollout *struct {
 		Estimate string `json:"estimate"`
@@ -184,10 +178,14 @@ func TestDemoRollout(t *testing.T) {
 			if !(lo <= plantedTruth && plantedTruth <= hi) {
 				t.Errorf("orders_14d by step: got interval [%v, %v], want it to contain the planted %v", lo, hi, plantedTruth)
 			}
-			// The by-step estimate is unadjusted, so it is the realized
-			// by-step difference up to TRUTH.md's rounding.
-			if got := f(c.Difference); math.Abs(got-byStepTruth) > 5e-5 {
-				t.Errorf("orders_14d by step: got %v, want %v ± 5e-5", got, byStepTruth)
+			// The primary comparison is CUPED within each step; its
+			// unadjusted by-step difference is the realized by-step
+			// difference up to TRUTH.md's rounding.
+			if !strings.Contains(c.Method, "cuped") || c.CUPED == nil {
+				t.Errorf("orders_14d method: got %q, want CUPED within steps", c.Method)
+			}
+			if got := f(c.raw().Difference); math.Abs(got-byStepTruth) > 5e-5 {
+				t.Errorf("orders_14d by step, unadjusted: got %v, want %v ± 5e-5", got, byStepTruth)
 			}
 			// Each arm's value is its by-step mean Σ_k w_k·ȳ_k, computed
 			// here from TRUTH.md's per-step rows (each rounded to 1e-4).

@@ -234,6 +234,9 @@ type CUPEDInfo struct {
 	VariantValue      Num     `json:"variant_value"`
 	VariantStdError   Num     `json:"variant_std_error"`
 	Unadjusted        Compare `json:"unadjusted"`
+	// StepThetas are the θ of each rollout step when the comparison is
+	// CUPED within steps (Theta is then NaN: there is no single θ).
+	StepThetas []Num `json:"step_thetas,omitempty"`
 	// NotApplied says why no adjustment was made (the comparison shown is
 	// then the unadjusted one).
 	NotApplied string `json:"not_applied,omitempty"`

@@ -119,7 +119,7 @@ func rolloutHealth(p *compiler.Plan, set *results.Set, h *Health, alpha float64)
 	case metrics.EstimateLastStep:
 		info.Method = fmt.Sprintf("The primary comparison uses only units triggered in the last rollout step (%s), whose weights held throughout it; units of earlier steps are left out of it.", ro.Steps[len(ro.Steps)-1].Name)
 	default:
-		info.Method = "The primary comparison is stratified by the rollout step in force at each unit's trigger: the within-step differences weighted by each step's share of units (post-stratification, Cochran 1977 §5A.9), so steps with different allocations are not pooled. Its interval uses the normal approximation and no CUPED adjustment."
+		info.Method = "The primary comparison is stratified by the rollout step in force at each unit's trigger: the within-step differences weighted by each step's share of units (post-stratification, Cochran 1977 §5A.9), so steps with different allocations are not pooled. Its interval uses the normal approximation; a metric with a covariate is CUPED-adjusted within each step (θ per step) before the steps are combined."
 	}
 	info.Method += " Sample-ratio checks compare counts with the weights in force: each step with its own weights, each day with the weights of the step in force that day, and the overall eligible units with the step weights averaged by each step's share of eligible units."
 	rows := stepRows(p, set)
@@ -343,7 +343,11 @@ func (r *Report) rolloutEffects(p *compiler.Plan, set *results.Set) {
 			if p.Spec.Rollout.Estimate == metrics.EstimateLastStep {
 				continue
 			}
-			m.Comparisons[vi] = byStepCompare(p, mp, m.Comparisons[vi], sr, rows, level)
+			c := byStepCompare(p, mp, m.Comparisons[vi], sr, rows, level)
+			if mp.Cov != nil {
+				c = byStepCUPED(p, mp, c, rows, level)
+			}
+			m.Comparisons[vi] = c
 		}
 		if mp.M.Role == metrics.Primary && p.Spec.Rollout.Estimate != metrics.EstimateLastStep {
 			byStepValues(p, mp, m, rows)
@@ -449,22 +453,97 @@ func byStepCompare(p *compiler.Plan, mp *compiler.MetricPlan, pooled Compare, sr
 		}
 	}
 	if pooled.Sequential != nil && sr.Reason == "" {
-		var n float64
-		for _, st := range p.Spec.Rollout.Steps {
-			for _, v := range []string{pooled.Baseline, pooled.Variant} {
-				_, k := stepEstimate(mp, rows[st.Name][v])
-				n += k
-			}
-		}
-		target := n
-		vi := indexOf(p.Variants, pooled.Variant)
-		if t := stats.SequentialTarget(p.Spec.PlannedUnits, p.Weights, 0, vi); p.Spec.PlannedUnits > 0 && !math.IsNaN(t) {
-			target = t
-		}
-		sq := stats.SequentialDiff(sr.Difference, sr.StdError, n, stats.SequentialRho(1-level, target), 1-level)
-		c.Sequential = &SeqInfo{CILow: Num(sq.CILow), CIHigh: Num(sq.CIHigh), PValue: Num(sq.PValue), Reason: sq.Reason}
+		c.Sequential = byStepSequential(p, mp, pooled, sr.Difference, sr.StdError, rows, level)
 	}
 	return c
+}
+
+// byStepCUPED replaces the by-step comparison plain of a metric with a
+// covariate by its CUPED version (stats.StratifiedCUPED: CUPED within
+// each step, steps weighted by their share of units); plain becomes its
+// unadjusted comparison. When no step can be adjusted, plain is kept and
+// the reason given.
+func byStepCUPED(p *compiler.Plan, mp *compiler.MetricPlan, plain Compare, rows map[string]map[string]*results.Row, level float64) Compare {
+	steps := p.Spec.Rollout.Steps
+	var sc stats.StratifiedCUPEDResult
+	if mp.M.Kind == metrics.KindRatio {
+		strata := make([]stats.StratumRatioCovariateMoments, len(steps))
+		for i, st := range steps {
+			strata[i] = stats.StratumRatioCovariateMoments{Base: rowRatioCovMoments(mp, rows[st.Name][plain.Baseline]), Treat: rowRatioCovMoments(mp, rows[st.Name][plain.Variant])}
+		}
+		sc = stats.StratifiedCUPEDRatio(strata, level)
+	} else {
+		strata := make([]stats.StratumCovariateMoments, len(steps))
+		for i, st := range steps {
+			strata[i] = stats.StratumCovariateMoments{Base: rowCovMoments(mp, rows[st.Name][plain.Baseline]), Treat: rowCovMoments(mp, rows[st.Name][plain.Variant])}
+		}
+		sc = stats.StratifiedCUPED(strata, level)
+	}
+	nan := Num(math.NaN())
+	info := &CUPEDInfo{Theta: nan, CovariateMean: nan, VarianceReduction: nan, BaselineValue: nan, BaselineStdError: nan, VariantValue: nan, VariantStdError: nan, Unadjusted: plain}
+	for _, th := range sc.Thetas {
+		info.StepThetas = append(info.StepThetas, Num(th))
+	}
+	if sc.Reason != "" || !sc.Adjusted {
+		info.NotApplied = sc.AdjustReason
+		if sc.Reason != "" {
+			info.NotApplied = sc.Reason
+		}
+		plain.CUPED = info
+		return plain
+	}
+	c := plain
+	c.Method = MethodByStep + " stratified-cuped-" + kindMethod(mp.M.Kind)
+	c.Difference, c.StdError, c.CILow, c.CIHigh = Num(sc.Difference), Num(sc.StdError), Num(sc.CILow), Num(sc.CIHigh)
+	c.Statistic, c.PValue, c.PValueAdjusted = Num(sc.Statistic), Num(sc.PValue), Num(sc.PValue)
+	c.Relative, c.RelativeCILow, c.RelativeCIHigh, c.RelativeShape, c.RelReason = nan, nan, nan, "", ""
+	if sc.Base.Value == 0 {
+		c.RelReason = "baseline mean is zero"
+	} else {
+		c.Relative = Num(sc.Difference / sc.Base.Value)
+		set := stats.Fieller(sc.Treat.Value, sc.Base.Value, sc.Treat.StdError, sc.Base.StdError, sc.Cov, stats.NormalQuantile((1+level)/2))
+		c.RelativeShape, c.RelReason = set.Shape, set.Reason
+		if set.Shape == stats.ShapeBounded || set.Shape == stats.ShapeUnbounded {
+			c.RelativeCILow, c.RelativeCIHigh = Num(set.Low-1), Num(set.High-1)
+		}
+		if set.Shape == stats.ShapeComplement {
+			c.RelReason = "the relative confidence set is not an interval (the baseline is not clearly away from zero)"
+		}
+	}
+	info.BaselineValue, info.BaselineStdError = Num(sc.Base.Value), Num(sc.Base.StdError)
+	info.VariantValue, info.VariantStdError = Num(sc.Treat.Value), Num(sc.Treat.StdError)
+	if u := float64(plain.StdError); u > 0 {
+		info.VarianceReduction = Num(1 - sc.StdError*sc.StdError/(u*u))
+	}
+	if sc.AdjustReason != "" {
+		info.NotApplied = "partly: " + sc.AdjustReason
+	}
+	c.CUPED = info
+	if plain.Sequential != nil {
+		// The always-valid interval follows the adjusted estimate.
+		c.Sequential = byStepSequential(p, mp, plain, sc.Difference, sc.StdError, rows, level)
+	}
+	return c
+}
+
+// byStepSequential is the always-valid interval of a by-step difference d
+// with standard error se (stats.SequentialDiff), tuned to the planned
+// units or, without a plan, to the units seen.
+func byStepSequential(p *compiler.Plan, mp *compiler.MetricPlan, pooled Compare, d, se float64, rows map[string]map[string]*results.Row, level float64) *SeqInfo {
+	var n float64
+	for _, st := range p.Spec.Rollout.Steps {
+		for _, v := range []string{pooled.Baseline, pooled.Variant} {
+			_, k := stepEstimate(mp, rows[st.Name][v])
+			n += k
+		}
+	}
+	target := n
+	vi := indexOf(p.Variants, pooled.Variant)
+	if t := stats.SequentialTarget(p.Spec.PlannedUnits, p.Weights, 0, vi); p.Spec.PlannedUnits > 0 && !math.IsNaN(t) {
+		target = t
+	}
+	sq := stats.SequentialDiff(d, se, n, stats.SequentialRho(1-level, target), 1-level)
+	return &SeqInfo{CILow: Num(sq.CILow), CIHigh: Num(sq.CIHigh), PValue: Num(sq.PValue), Reason: sq.Reason}
 }
 
 func indexOf(list []string, s string) int {

@@ -259,9 +259,17 @@ func metricDoc(d *document, m MetricInfo) {
 				continue
 			}
 			u := c.CUPED.Unadjusted
-			lines = append(lines, fmt.Sprintf("CUPED %s vs %s: adjusted values %s %s (std.err %s) and %s %s (std.err %s); theta %s, variance reduction %s; unadjusted difference %s [%s, %s], %s",
+			theta := "theta " + fmtNum(c.CUPED.Theta)
+			if len(c.CUPED.StepThetas) > 0 {
+				var ts []string
+				for _, th := range c.CUPED.StepThetas {
+					ts = append(ts, fmtNum(th))
+				}
+				theta = "theta by rollout step " + strings.Join(ts, ", ")
+			}
+			lines = append(lines, fmt.Sprintf("CUPED %s vs %s: adjusted values %s %s (std.err %s) and %s %s (std.err %s); %s, variance reduction %s; unadjusted difference %s [%s, %s], %s",
 				c.Variant, c.Baseline, c.Baseline, fmtNum(c.CUPED.BaselineValue), fmtNum(c.CUPED.BaselineStdError), c.Variant, fmtNum(c.CUPED.VariantValue), fmtNum(c.CUPED.VariantStdError),
-				fmtNum(c.CUPED.Theta), pctAbs(float64(c.CUPED.VarianceReduction)), signed(u.Difference), signed(u.CILow), signed(u.CIHigh), pEquals(float64(u.PValue))))
+				theta, pctAbs(float64(c.CUPED.VarianceReduction)), signed(u.Difference), signed(u.CILow), signed(u.CIHigh), pEquals(float64(u.PValue))))
 		}
 	}
 	for _, c := range m.Comparisons {

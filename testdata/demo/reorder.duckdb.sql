@@ -1,4 +1,4 @@
--- assay 0.1.0 cohort table query for experiment reorder-shelf-2026-03 (spec fingerprint 0156596dc764c47c)
+-- assay 0.1.0 cohort table query for experiment reorder-shelf-2026-03 (spec fingerprint 1d68f22f07de8837)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
@@ -102,7 +102,7 @@ SELECT n.unit_id, NULL AS variant, NULL AS trigger_us, NULL AS trigger_day, NULL
 FROM never_triggered AS n
 ;
 
--- assay 0.1.0 per-variant statistics query for experiment reorder-shelf-2026-03 (spec fingerprint 0156596dc764c47c)
+-- assay 0.1.0 per-variant statistics query for experiment reorder-shelf-2026-03 (spec fingerprint 1d68f22f07de8837)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
@@ -123,7 +123,7 @@ eligible AS (
     AND NOT c."fails_recent_order"
     AND NOT c."is_previously_exposed"
 ),
--- One pass over orders for: m_orders_14d, m_orders_14d__x, m_basket_value__num, m_basket_value__den, m_basket_value__x, m_converted, m_cancelled.
+-- One pass over orders for: m_orders_14d, m_orders_14d__x, m_orders_14d__b1, m_orders_14d__b2, m_basket_value__num, m_basket_value__den, m_basket_value__x, m_converted, m_cancelled.
 "pass_orders" AS (
   SELECT
     r.unit_id,
@@ -131,6 +131,10 @@ eligible AS (
     count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r."c_status" = 'delivered') THEN 1 END) AS "m_orders_14d",
     -- m_orders_14d__x: count of rows where status = 'delivered' in [trigger - 28d, trigger + 0d)
     count(CASE WHEN r.dt_us >= -2419200000000 AND r.dt_us < 0 AND (r."c_status" = 'delivered') THEN 1 END) AS "m_orders_14d__x",
+    -- m_orders_14d__b1: count of rows where status = 'delivered' in [trigger + 0d, trigger + 7d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 604800000000 AND (r."c_status" = 'delivered') THEN 1 END) AS "m_orders_14d__b1",
+    -- m_orders_14d__b2: count of rows where status = 'delivered' in [trigger + 7d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 604800000000 AND r.dt_us < 1209600000000 AND (r."c_status" = 'delivered') THEN 1 END) AS "m_orders_14d__b2",
     -- m_basket_value__num: sum of amount where status = 'delivered' in [trigger + 0d, trigger + 14d)
     CAST(sum(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r."c_status" = 'delivered') AND CAST(r."c_amount" AS DOUBLE) - CAST(r."c_amount" AS DOUBLE) = 0 THEN CAST(CAST(r."c_amount" AS DOUBLE) AS DECIMAL(38, 10)) END) AS DOUBLE) AS "m_basket_value__num",
     count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 AND (r."c_status" = 'delivered') AND NOT (CAST(r."c_amount" AS DOUBLE) - CAST(r."c_amount" AS DOUBLE) = 0) THEN 1 END) AS "m_basket_value__num__nonfinite",
@@ -150,12 +154,26 @@ eligible AS (
   WHERE r.dt_us >= -2419200000000 AND r.dt_us < 1209600000000
   GROUP BY r.unit_id
 ),
--- One pass over taps for: m_shelf_taps.
+-- One pass over taps for: m_shelf_taps, m_shelf_taps__b1, m_shelf_taps__b2, m_shelf_taps__b3, m_shelf_taps__b4, m_shelf_taps__b5, m_shelf_taps__b6, m_shelf_taps__b7.
 "pass_taps" AS (
   SELECT
     r.unit_id,
     -- m_shelf_taps: count of rows in [trigger + 0d, trigger + 14d)
-    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 THEN 1 END) AS "m_shelf_taps"
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 1209600000000 THEN 1 END) AS "m_shelf_taps",
+    -- m_shelf_taps__b1: count of rows in [trigger + 0d, trigger + 2d)
+    count(CASE WHEN r.dt_us >= 0 AND r.dt_us < 172800000000 THEN 1 END) AS "m_shelf_taps__b1",
+    -- m_shelf_taps__b2: count of rows in [trigger + 2d, trigger + 4d)
+    count(CASE WHEN r.dt_us >= 172800000000 AND r.dt_us < 345600000000 THEN 1 END) AS "m_shelf_taps__b2",
+    -- m_shelf_taps__b3: count of rows in [trigger + 4d, trigger + 6d)
+    count(CASE WHEN r.dt_us >= 345600000000 AND r.dt_us < 518400000000 THEN 1 END) AS "m_shelf_taps__b3",
+    -- m_shelf_taps__b4: count of rows in [trigger + 6d, trigger + 8d)
+    count(CASE WHEN r.dt_us >= 518400000000 AND r.dt_us < 691200000000 THEN 1 END) AS "m_shelf_taps__b4",
+    -- m_shelf_taps__b5: count of rows in [trigger + 8d, trigger + 10d)
+    count(CASE WHEN r.dt_us >= 691200000000 AND r.dt_us < 864000000000 THEN 1 END) AS "m_shelf_taps__b5",
+    -- m_shelf_taps__b6: count of rows in [trigger + 10d, trigger + 12d)
+    count(CASE WHEN r.dt_us >= 864000000000 AND r.dt_us < 1036800000000 THEN 1 END) AS "m_shelf_taps__b6",
+    -- m_shelf_taps__b7: count of rows in [trigger + 12d, trigger + 14d)
+    count(CASE WHEN r.dt_us >= 1036800000000 AND r.dt_us < 1209600000000 THEN 1 END) AS "m_shelf_taps__b7"
   FROM (
     SELECT e.unit_id, epoch_us(s."tapped_at") - e.trigger_us AS dt_us
     FROM eligible AS e
@@ -194,6 +212,8 @@ unit_values AS (
     (e.trigger_us + 1209600000000 <= 1776038400000000) AS mature_14d,
     coalesce(p1."m_orders_14d", 0) AS "m_orders_14d",
     coalesce(p1."m_orders_14d__x", 0) AS "m_orders_14d__x",
+    coalesce(p1."m_orders_14d__b1", 0) AS "m_orders_14d__b1",
+    coalesce(p1."m_orders_14d__b2", 0) AS "m_orders_14d__b2",
     coalesce(p1."m_basket_value__num", 0) AS "m_basket_value__num",
     coalesce(p1."m_basket_value__num__nonfinite", 0) AS "m_basket_value__num__nonfinite",
     coalesce(p1."m_orders_14d", 0) AS "m_basket_value__den",
@@ -201,6 +221,13 @@ unit_values AS (
     coalesce(p1."m_orders_14d", 0) AS "m_converted",
     coalesce(p1."m_cancelled", 0) AS "m_cancelled",
     coalesce(p2."m_shelf_taps", 0) AS "m_shelf_taps",
+    coalesce(p2."m_shelf_taps__b1", 0) AS "m_shelf_taps__b1",
+    coalesce(p2."m_shelf_taps__b2", 0) AS "m_shelf_taps__b2",
+    coalesce(p2."m_shelf_taps__b3", 0) AS "m_shelf_taps__b3",
+    coalesce(p2."m_shelf_taps__b4", 0) AS "m_shelf_taps__b4",
+    coalesce(p2."m_shelf_taps__b5", 0) AS "m_shelf_taps__b5",
+    coalesce(p2."m_shelf_taps__b6", 0) AS "m_shelf_taps__b6",
+    coalesce(p2."m_shelf_taps__b7", 0) AS "m_shelf_taps__b7",
     coalesce(p3."m_support_contacts", 0) AS "m_support_contacts"
   FROM eligible AS e
   LEFT JOIN "pass_orders" AS p1 ON p1.unit_id = e.unit_id
@@ -244,7 +271,16 @@ centres AS (
     u.variant,
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END) AS "c_orders_14d",
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) AS "c_orders_14d__x",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b1" AS DOUBLE) END) AS "c_orders_14d__b1",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b2" AS DOUBLE) END) AS "c_orders_14d__b2",
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) AS "c_shelf_taps",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b1" AS DOUBLE) END) AS "c_shelf_taps__b1",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b2" AS DOUBLE) END) AS "c_shelf_taps__b2",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b3" AS DOUBLE) END) AS "c_shelf_taps__b3",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b4" AS DOUBLE) END) AS "c_shelf_taps__b4",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b5" AS DOUBLE) END) AS "c_shelf_taps__b5",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b6" AS DOUBLE) END) AS "c_shelf_taps__b6",
+    avg(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b7" AS DOUBLE) END) AS "c_shelf_taps__b7",
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) AS "c_basket_value__num",
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__den" AS DOUBLE) END) AS "c_basket_value__den",
     avg(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__x" AS DOUBLE) END) AS "c_basket_value__x",
@@ -256,7 +292,7 @@ centres AS (
 -- The overall rows and one set of rows per breakdown, from one pass over the units: in each
 -- grouping the keys it does not use are NULL.
 SELECT
-  '0156596dc764c47c' AS "spec_fingerprint",
+  '1d68f22f07de8837' AS "spec_fingerprint",
   'as_of=2026-04-13T00:00:00Z;by=platform,tenure,rollout_step' AS "compile_options",
   u.variant AS "variant",
   u."key_seg_platform" AS "seg_platform",
@@ -271,10 +307,34 @@ SELECT
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END) ELSE min(c0."c_orders_14d__x") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END - c0."c_orders_14d__x")) END AS "orders_14d__x_mean",
   var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END - c0."c_orders_14d__x")) AS "orders_14d__x_var",
   covar_samp((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d" AS DOUBLE) END - c0."c_orders_14d"), (CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__x" AS DOUBLE) END - c0."c_orders_14d__x")) AS "orders_14d__yx_cov",
+  -- orders_14d by time since trigger: 2 buckets of 7d, each in [trigger + 0d, trigger + 7d) …
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b1" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b1" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b1" AS DOUBLE) END) ELSE min(c0."c_orders_14d__b1") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b1" AS DOUBLE) END - c0."c_orders_14d__b1")) END AS "orders_14d__b1_mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b1" AS DOUBLE) END - c0."c_orders_14d__b1")) AS "orders_14d__b1_var",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b2" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b2" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b2" AS DOUBLE) END) ELSE min(c0."c_orders_14d__b2") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b2" AS DOUBLE) END - c0."c_orders_14d__b2")) END AS "orders_14d__b2_mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b2" AS DOUBLE) END - c0."c_orders_14d__b2")) AS "orders_14d__b2_var",
+  -- orders_14d by time since trigger: trend contrast L = -1·b1 +1·b2
+  var_samp(-1 * (CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b1" AS DOUBLE) END - c0."c_orders_14d__b1") + 1 * (CASE WHEN u.mature_14d THEN CAST(u."m_orders_14d__b2" AS DOUBLE) END - c0."c_orders_14d__b2")) AS "orders_14d__trend_var",
   -- shelf_taps (mechanism, mean): mean per unit of count of rows; window [trigger + 0d, trigger + 14d), mature units only
   count(CASE WHEN u.mature_14d THEN 1 END) AS "shelf_taps__n",
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END) ELSE min(c0."c_shelf_taps") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END - c0."c_shelf_taps")) END AS "shelf_taps__mean",
   var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps" AS DOUBLE) END - c0."c_shelf_taps")) AS "shelf_taps__var",
+  -- shelf_taps by time since trigger: 7 buckets of 2d, each in [trigger + 0d, trigger + 2d) …
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b1" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b1" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b1" AS DOUBLE) END) ELSE min(c0."c_shelf_taps__b1") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b1" AS DOUBLE) END - c0."c_shelf_taps__b1")) END AS "shelf_taps__b1_mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b1" AS DOUBLE) END - c0."c_shelf_taps__b1")) AS "shelf_taps__b1_var",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b2" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b2" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b2" AS DOUBLE) END) ELSE min(c0."c_shelf_taps__b2") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b2" AS DOUBLE) END - c0."c_shelf_taps__b2")) END AS "shelf_taps__b2_mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b2" AS DOUBLE) END - c0."c_shelf_taps__b2")) AS "shelf_taps__b2_var",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b3" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b3" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b3" AS DOUBLE) END) ELSE min(c0."c_shelf_taps__b3") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b3" AS DOUBLE) END - c0."c_shelf_taps__b3")) END AS "shelf_taps__b3_mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b3" AS DOUBLE) END - c0."c_shelf_taps__b3")) AS "shelf_taps__b3_var",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b4" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b4" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b4" AS DOUBLE) END) ELSE min(c0."c_shelf_taps__b4") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b4" AS DOUBLE) END - c0."c_shelf_taps__b4")) END AS "shelf_taps__b4_mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b4" AS DOUBLE) END - c0."c_shelf_taps__b4")) AS "shelf_taps__b4_var",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b5" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b5" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b5" AS DOUBLE) END) ELSE min(c0."c_shelf_taps__b5") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b5" AS DOUBLE) END - c0."c_shelf_taps__b5")) END AS "shelf_taps__b5_mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b5" AS DOUBLE) END - c0."c_shelf_taps__b5")) AS "shelf_taps__b5_var",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b6" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b6" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b6" AS DOUBLE) END) ELSE min(c0."c_shelf_taps__b6") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b6" AS DOUBLE) END - c0."c_shelf_taps__b6")) END AS "shelf_taps__b6_mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b6" AS DOUBLE) END - c0."c_shelf_taps__b6")) AS "shelf_taps__b6_var",
+  CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b7" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b7" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b7" AS DOUBLE) END) ELSE min(c0."c_shelf_taps__b7") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b7" AS DOUBLE) END - c0."c_shelf_taps__b7")) END AS "shelf_taps__b7_mean",
+  var_samp((CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b7" AS DOUBLE) END - c0."c_shelf_taps__b7")) AS "shelf_taps__b7_var",
+  -- shelf_taps by time since trigger: trend contrast L = -6·b1 -4·b2 -2·b3 +0·b4 +2·b5 +4·b6 +6·b7
+  var_samp(-6 * (CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b1" AS DOUBLE) END - c0."c_shelf_taps__b1") + -4 * (CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b2" AS DOUBLE) END - c0."c_shelf_taps__b2") + -2 * (CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b3" AS DOUBLE) END - c0."c_shelf_taps__b3") + 0 * (CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b4" AS DOUBLE) END - c0."c_shelf_taps__b4") + 2 * (CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b5" AS DOUBLE) END - c0."c_shelf_taps__b5") + 4 * (CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b6" AS DOUBLE) END - c0."c_shelf_taps__b6") + 6 * (CASE WHEN u.mature_14d THEN CAST(u."m_shelf_taps__b7" AS DOUBLE) END - c0."c_shelf_taps__b7")) AS "shelf_taps__trend_var",
   -- basket_value (secondary, ratio): per-unit sum of amount where status = 'delivered' over per-unit count of rows where status = 'delivered'; window [trigger + 0d, trigger + 14d), mature units only; shared definition revenue_per_order from grocery.toml (definition 80b756ca)
   count(CASE WHEN u.mature_14d THEN 1 END) AS "basket_value__n",
   CASE WHEN min(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) = max(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) THEN min(CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END) ELSE min(c0."c_basket_value__num") + avg((CASE WHEN u.mature_14d THEN CAST(u."m_basket_value__num" AS DOUBLE) END - c0."c_basket_value__num")) END AS "basket_value__num_mean",
@@ -306,7 +366,7 @@ GROUP BY GROUPING SETS ((u.variant), (u.variant, u."key_seg_platform"), (u.varia
 ORDER BY "variant", "seg_platform", "seg_tenure", "rollout_step"
 ;
 
--- assay 0.1.0 health query for experiment reorder-shelf-2026-03 (spec fingerprint 0156596dc764c47c)
+-- assay 0.1.0 health query for experiment reorder-shelf-2026-03 (spec fingerprint 1d68f22f07de8837)
 -- Times are compared as integer microseconds since 1970-01-01 UTC; timestamps without a zone are read as UTC.
 -- Exposures are read in [2026-03-02T00:00:00Z, 2026-04-13T00:00:00Z); outcome windows must have ended by 2026-04-13T00:00:00Z.
 -- File paths are relative to the spec's directory.
