@@ -263,7 +263,11 @@ func fleetSummary(ctx context.Context, rs []fleetResult, total int, failHarm boo
 		}
 	}
 	if skipped := total - len(rs); skipped > 0 {
-		parts = append(parts, fmt.Sprintf("%d not run", skipped))
+		p := fmt.Sprintf("%d not run", skipped)
+		if ctx.Err() != nil {
+			p += " (interrupted before they started)"
+		}
+		parts = append(parts, p)
 	}
 	line := fmt.Sprintf("fleet: %d experiment(s): %s", total, strings.Join(parts, ", "))
 	if storePath != "" {

@@ -35,6 +35,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"os"
 	"sort"
 	"strings"
 	"time"
@@ -169,6 +170,14 @@ func classify(path string, err error) error {
 	msg := err.Error()
 	if strings.Contains(msg, "Could not set lock") || strings.Contains(msg, "Conflicting lock") {
 		return fmt.Errorf("%w: %s (%s)", ErrBusy, path, firstLine(msg))
+	}
+	// Another process that is creating the store has made the file but
+	// not yet written its header: wait for it like for a lock. A file
+	// that stays invalid fails once the wait is over.
+	if strings.Contains(msg, "not a valid DuckDB database file") {
+		if fi, err := os.Stat(path); err == nil && time.Since(fi.ModTime()) < 10*time.Second {
+			return fmt.Errorf("%w: %s (%s)", ErrBusy, path, firstLine(msg))
+		}
 	}
 	return fmt.Errorf("cannot open results store %s: %s", path, firstLine(msg))
 }
