@@ -68,6 +68,12 @@ func (r *Report) HTMLPage(p *compiler.Plan, q compiler.Queries, dialect string) 
 	if s, ok := b.priorApartSection(); ok {
 		page.Sections = append(page.Sections, s)
 	}
+	if s, ok := docSection("rollout", "Rollout steps", r.rolloutDoc); ok {
+		page.Sections = append(page.Sections, s)
+	}
+	if s, ok := docSection("timing", "Weekdays, calendar and time", r.timingDoc); ok {
+		page.Sections = append(page.Sections, s)
+	}
 	page.Sections = append(page.Sections, b.healthSection())
 	page.Sections = append(page.Sections, html.Section{ID: "cautions", Heading: "Cautions", Blocks: paras(r.Cautions, "– ")})
 	if sqlSec != nil {
@@ -432,6 +438,50 @@ func (b *htmlBuilder) segmentBlocks(seg Segment) (html.Forest, []html.Block) {
 		}
 	}
 	return f, inner
+}
+
+// docSection renders the part of the shared document that build adds (the
+// rollout section, say) as a page section: its own level-2 heading is the
+// section's, deeper headings, sentences, lists and tables follow as they
+// are. ok is false when build adds nothing.
+func docSection(id, heading string, build func(*document)) (html.Section, bool) {
+	var d document
+	build(&d)
+	if len(d.blocks) == 0 {
+		return html.Section{}, false
+	}
+	sec := html.Section{ID: id, Heading: heading}
+	n := 0
+	for _, bl := range d.blocks {
+		switch bl.kind {
+		case kHeading:
+			if bl.level > 2 {
+				sec.Blocks = append(sec.Blocks, html.Heading{Level: 3, Text: bl.text})
+			}
+		case kPara, kCode:
+			sec.Blocks = append(sec.Blocks, html.Paragraph{Text: bl.text})
+		case kAlarm:
+			sec.Blocks = append(sec.Blocks, html.Paragraph{Text: "!! " + bl.text})
+		case kList:
+			sec.Blocks = append(sec.Blocks, paras(bl.items, "– ")...)
+		case kTable:
+			n++
+			t := html.Table{ID: fmt.Sprintf("%s-table-%d", id, n), Header: bl.table.head}
+			for _, row := range bl.table.rows {
+				var cells []html.Cell
+				for i, c := range row {
+					if i < bl.table.left {
+						cells = append(cells, txt(c))
+					} else {
+						cells = append(cells, num(c, ""))
+					}
+				}
+				t.Rows = append(t.Rows, cells)
+			}
+			sec.Blocks = append(sec.Blocks, t)
+		}
+	}
+	return sec, true
 }
 
 // priorApartSection lists the comparisons of the units a prior run

@@ -146,13 +146,22 @@ func (r *Report) addBreakdown(p *compiler.Plan, g int, rows []results.Row, opt O
 		for i, q := range adjust(opt.Adjust, ps) {
 			fam[i].PValueAdjusted = Num(q)
 		}
+		ro := p.Spec.Rollout
+		byDesign := p.GroupBy[g].Step || p.GroupBy[g].Day && ro != nil && len(ro.Steps) > 1
 		flagAlpha := (1 - p.Spec.Confidence) / float64(max(1, len(p.Metrics)*len(p.GroupBy)*(len(p.Variants)-1)))
 		for ci, pc := range pooled.Comparisons {
 			chk := segmentCheck(pc, sm.Rows, ci, units, mp.M.Kind == metrics.KindRatio, flagAlpha)
 			sm.Checks = append(sm.Checks, chk)
-			if chk.Reversal {
-				sm.Flags = append(sm.Flags, fmt.Sprintf("Simpson's reversal: the pooled difference of %s on %s (%s) and the difference with %s segments weighted by size (%s) have opposite signs, and the gap is larger than random assignment explains (p = %s < %g): the variants received different mixes of %s. Read the stratified difference, and check the assignment.",
-					pc.Variant, mp.M.Name, signed(chk.Pooled), name, signed(chk.Stratified), fmtP(float64(chk.MixGapPValue)), flagAlpha, name))
+			switch {
+			case chk.Reversal && byDesign:
+				// The rollout schedule gives each step (and the days of
+				// each step) its own mix by design; the rollout section
+				// reads the effect by step.
+				sm.Flags = append(sm.Flags, fmt.Sprintf("Pooled and %s-stratified differences of %s on %s have opposite signs (%s pooled, %s stratified, %s): the rollout schedule gave the steps different allocations by design and the outcome changed over time, so the pooled difference mixes them unevenly. The by-step estimate in the rollout section is the one to read; the assignment itself is not in question.",
+					name, pc.Variant, mp.M.Name, signed(chk.Pooled), signed(chk.Stratified), pEquals(float64(chk.MixGapPValue))))
+			case chk.Reversal:
+				sm.Flags = append(sm.Flags, fmt.Sprintf("Simpson's reversal: the pooled difference of %s on %s (%s) and the difference with %s segments weighted by size (%s) have opposite signs, and the gap is larger than random assignment explains (%s < %g): the variants received different mixes of %s. Read the stratified difference, and check the assignment.",
+					pc.Variant, mp.M.Name, signed(chk.Pooled), name, signed(chk.Stratified), pEquals(float64(chk.MixGapPValue)), flagAlpha, name))
 			}
 			if chk.Reason == "" && chk.PValue.OK() && float64(chk.PValue) < flagAlpha {
 				sm.Flags = append(sm.Flags, fmt.Sprintf("The effect of %s on %s differs across %s segments (Cochran's Q %s < %g, I² = %s); the pooled effect averages unlike effects.",

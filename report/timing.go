@@ -276,7 +276,26 @@ func triggerWeeks(p *compiler.Plan, set *results.Set, infos []MetricInfo) *WeekE
 	start := time.UnixMicro(p.StartUS).In(p.Spec.TimeZone)
 	start = time.Date(start.Year(), start.Month(), start.Day(), 0, 0, 0, 0, p.Spec.TimeZone)
 	type acc struct{ n, sum, ss, units float64 } // ss: Σ (n_d−1)s²_d + Σ n_d ȳ_d², pooled below
+	// Under a rollout schedule with several steps, days are pooled within
+	// each (week, step) and a week's difference is post-stratified over
+	// its steps (stats.Stratified), so a week that spans a change of
+	// allocation is not read naively.
+	ro := p.Spec.Rollout
+	byStep := ro != nil && len(ro.Steps) > 1
+	stepOf := func(d time.Time) int {
+		k := 0
+		for i, st := range ro.Steps {
+			if i > 0 && !d.Before(st.Start) {
+				k = i
+			}
+		}
+		return k
+	}
+	if byStep {
+		we.Method = "per-week difference post-stratified by rollout step (days pooled within each step); Cochran's Q across weeks; weighted least-squares trend of the differences on the week number (weights 1/SE²), normal p-value"
+	}
 	weeks := map[int]map[string]*acc{}
+	cells := map[int]map[int]map[string]*acc{} // week → step → variant
 	for _, row := range set.Group(day) {
 		d, err := time.ParseInLocation("2006-01-02", row.Key, p.Spec.TimeZone)
 		if err != nil {
@@ -285,11 +304,24 @@ func triggerWeeks(p *compiler.Plan, set *results.Set, infos []MetricInfo) *WeekE
 		w := int(d.Sub(start).Hours()/24) / 7
 		if weeks[w] == nil {
 			weeks[w] = map[string]*acc{}
+			cells[w] = map[int]map[string]*acc{}
 		}
 		a := weeks[w][row.Variant]
 		if a == nil {
 			a = &acc{}
 			weeks[w][row.Variant] = a
+		}
+		k := 0
+		if byStep {
+			k = stepOf(d)
+		}
+		if cells[w][k] == nil {
+			cells[w][k] = map[string]*acc{}
+		}
+		ca := cells[w][k][row.Variant]
+		if ca == nil {
+			ca = &acc{}
+			cells[w][k][row.Variant] = ca
 		}
 		m := rowMoments(mp, &row)
 		a.units += float64(row.Units)
@@ -300,9 +332,11 @@ func triggerWeeks(p *compiler.Plan, set *results.Set, infos []MetricInfo) *WeekE
 		if math.IsNaN(v) {
 			v = 0 // one unit: no spread of its own
 		}
-		a.n += m.N
-		a.sum += m.N * m.Mean
-		a.ss += (m.N-1)*v + m.N*m.Mean*m.Mean
+		for _, x := range []*acc{a, ca} {
+			x.n += m.N
+			x.sum += m.N * m.Mean
+			x.ss += (m.N-1)*v + m.N*m.Mean*m.Mean
+		}
 	}
 	moments := func(a *acc) stats.Moments {
 		if a == nil || a.n == 0 {
@@ -324,9 +358,22 @@ func triggerWeeks(p *compiler.Plan, set *results.Set, infos []MetricInfo) *WeekE
 	for _, w := range idx {
 		b, tr := moments(weeks[w][p.Variants[0]]), moments(weeks[w][p.Variants[1]])
 		var c stats.Comparison
-		if mp.M.Kind == metrics.KindProportion {
+		switch {
+		case byStep && len(cells[w]) > 1:
+			var strata []stats.StratumMoments
+			for k := range ro.Steps {
+				if cl := cells[w][k]; cl != nil {
+					strata = append(strata, stats.StratumMoments{Base: moments(cl[p.Variants[0]]), Treat: moments(cl[p.Variants[1]])})
+				}
+			}
+			sr := stats.Stratified(strata, p.Spec.Confidence)
+			if mp.M.Kind == metrics.KindProportion {
+				sr = stats.StratifiedProportion(strata, p.Spec.Confidence)
+			}
+			c = stats.Comparison{Difference: sr.Difference, StdError: sr.StdError}
+		case mp.M.Kind == metrics.KindProportion:
 			c = stats.TwoProportion(b, tr, p.Spec.Confidence)
-		} else {
+		default:
 			c = stats.Welch(b, tr, p.Spec.Confidence)
 		}
 		var units float64
