@@ -99,20 +99,26 @@ func stratifiedFrom(ests []stratumEst, level float64) StratifiedResult {
 	if r.Reason != "" {
 		return r
 	}
-	r.Difference, r.StdError = diff, math.Sqrt(v)
+	r.normalTest(diff, v, level)
+	return r
+}
+
+// normalTest fills the difference d with variance v, its z statistic,
+// two-sided normal p-value and interval at level.
+func (r *StratifiedResult) normalTest(d, v, level float64) {
+	r.Difference, r.StdError = d, math.Sqrt(v)
 	if r.StdError == 0 {
 		r.Reason = reasonZeroSE
-		return r
+		return
 	}
-	r.Statistic = diff / r.StdError
+	r.Statistic = d / r.StdError
 	r.PValue = TwoSidedNormalP(r.Statistic)
 	if !validLevel(level) {
 		r.Reason = reasonBadLevel
-		return r
+		return
 	}
 	q := NormalQuantile((1 + level) / 2)
-	r.CILow, r.CIHigh = diff-q*r.StdError, diff+q*r.StdError
-	return r
+	r.CILow, r.CIHigh = d-q*r.StdError, d+q*r.StdError
 }
 
 // Stratified returns the post-stratified difference in means across
@@ -427,19 +433,7 @@ func stratifiedCUPEDFrom(cs []CUPEDComparison, ns [][2]float64, plain Stratified
 	if !r.Adjusted && r.AdjustReason == "" {
 		r.AdjustReason = "no stratum could be adjusted"
 	}
-	r.Difference, r.StdError = d, math.Sqrt(v)
 	r.Base, r.Treat, r.Cov = Estimate{Value: bb, StdError: math.Sqrt(vb)}, Estimate{Value: tb, StdError: math.Sqrt(vt)}, cov
-	if r.StdError == 0 {
-		r.Reason = reasonZeroSE
-		return r
-	}
-	r.Statistic = d / r.StdError
-	r.PValue = TwoSidedNormalP(r.Statistic)
-	if !validLevel(level) {
-		r.Reason = reasonBadLevel
-		return r
-	}
-	q := NormalQuantile((1 + level) / 2)
-	r.CILow, r.CIHigh = d-q*r.StdError, d+q*r.StdError
+	r.StratifiedResult.normalTest(d, v, level)
 	return r
 }
