@@ -186,6 +186,30 @@ unknown_values AS (
 nulls_1 AS (
   SELECT count(*) - count(s.`visitor_id`) AS null_unit, count(*) - count(s.`completed_at`) AS null_time
   FROM `analytics`.`checkouts` AS s
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day
+  FROM cohort AS c
+  WHERE NOT c.`is_crossover`
+    AND NOT c.`is_unknown_variant`
+),
+-- Eligible units with a row of checkouts from their trigger up to the as-of time.
+seen_1 AS (
+  SELECT DISTINCT e.unit_id
+  FROM eligible AS e
+  JOIN `analytics`.`checkouts` AS s ON s.`visitor_id` = e.unit_id
+  WHERE unix_micros(s.`completed_at`) >= e.trigger_us AND unix_micros(s.`completed_at`) < 1780012800000000
+),
+-- Per variant: eligible units, and those with no row in any outcome source.
+no_outcomes AS (
+  SELECT
+    e.variant,
+    count(*) AS eligible_units,
+    count(CASE WHEN o1.unit_id IS NULL THEN 1 END) AS none_any
+  FROM eligible AS e
+  LEFT JOIN seen_1 AS o1 ON o1.unit_id = e.unit_id
+  GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, NULL AS source, variant AS variant, CAST(timestamp_micros(ts_us) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
@@ -238,6 +262,9 @@ SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count F
   UNION ALL
   SELECT 'unknown_variant' AS kind, NULL AS reason, NULL AS source, variant AS variant, NULL AS day, units AS row_count, units AS unit_count
   FROM unknown_values
+  UNION ALL
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, NULL AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_any AS unit_count
+  FROM no_outcomes
 ) AS h
 ORDER BY h.kind, h.reason, h.source, h.variant, h.day
 ;
