@@ -163,7 +163,9 @@ func (n *NoOutcomes) earlyCheck() (status, detail string) {
 	case none == eligible:
 		return StatusFix, fmt.Sprintf("None of the %d eligible units has an outcome row after its trigger (up to %s): outcome logging is not reaching the sources the metrics read.", eligible, n.Through)
 	case len(dead) > 0:
-		return StatusFix, fmt.Sprintf("Every eligible unit of %s has no outcome row after its trigger (%s): outcome logging is broken for that arm.", strings.Join(dead, ", "), noOutcomeList(n.Variants))
+		return StatusFix, fmt.Sprintf("Every eligible unit of %s has no outcome row after its trigger (%s): outcome logging is broken for that arm, unless the metrics count only something that arm cannot do.", strings.Join(dead, ", "), noOutcomeList(n.Variants))
+	case none == 0:
+		return StatusOK, fmt.Sprintf("every eligible unit has an outcome row after its trigger (%s)", noOutcomeList(n.Variants))
 	}
 	t := n.EqualShare
 	switch {
