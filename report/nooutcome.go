@@ -172,7 +172,7 @@ func (n *NoOutcomes) earlyCheck() (status, detail string) {
 	case t.Reason != "":
 		return StatusOK, fmt.Sprintf("units without outcome rows: %s; %s", noOutcomeList(n.Variants), t.text())
 	case float64(t.PValue) < NoOutcomeAlpha:
-		return StatusWatch, fmt.Sprintf("The share of eligible units without any outcome row differs between arms (%s; %s, look below %g). A treatment can change whether units come back, so this is worth a look rather than proof of a logging fault: check that the treatment logs the same events.", noOutcomeList(n.Variants), t.text(), NoOutcomeAlpha)
+		return StatusWatch, fmt.Sprintf("The share of eligible units without any outcome row differs between arms (%s; %s, look below %g). A treatment can change whether units come back, so this is worth a look rather than proof of a logging fault: check that every arm logs the same events.", noOutcomeList(n.Variants), t.text(), NoOutcomeAlpha)
 	}
 	return StatusOK, fmt.Sprintf("units without outcome rows: %s; %s", noOutcomeList(n.Variants), t.text())
 }
