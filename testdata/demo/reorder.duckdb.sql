@@ -364,43 +364,44 @@ eligible AS (
     AND NOT c."is_unknown_variant"
     AND NOT c."fails_recent_order"
 ),
--- Eligible units with a row of orders from their trigger up to the as-of time.
-seen_1 AS (
-  SELECT DISTINCT e.unit_id
-  FROM eligible AS e
-  JOIN read_parquet('data/orders.parquet') AS s ON s."customer_id" = e.unit_id
-  WHERE epoch_us(s."ordered_at") >= e.trigger_us AND epoch_us(s."ordered_at") < 1776038400000000
+-- Each unit's latest row of orders in the analysis period before the as-of time.
+last_1 AS (
+  SELECT s."customer_id" AS unit_id, max(epoch_us(s."ordered_at")) AS last_us
+  FROM read_parquet('data/orders.parquet') AS s
+  WHERE s."customer_id" IS NOT NULL AND epoch_us(s."ordered_at") >= 1772409600000000 AND epoch_us(s."ordered_at") < 1776038400000000
     AND s."ordered_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."ordered_at" < TIMESTAMP '2026-04-15 00:00:00'
+  GROUP BY s."customer_id"
 ),
--- Eligible units with a row of taps from their trigger up to the as-of time.
-seen_2 AS (
-  SELECT DISTINCT e.unit_id
-  FROM eligible AS e
-  JOIN read_parquet('data/taps.parquet') AS s ON s."customer_id" = e.unit_id
-  WHERE epoch_us(s."tapped_at") >= e.trigger_us AND epoch_us(s."tapped_at") < 1776038400000000
+-- Each unit's latest row of taps in the analysis period before the as-of time.
+last_2 AS (
+  SELECT s."customer_id" AS unit_id, max(epoch_us(s."tapped_at")) AS last_us
+  FROM read_parquet('data/taps.parquet') AS s
+  WHERE s."customer_id" IS NOT NULL AND epoch_us(s."tapped_at") >= 1772409600000000 AND epoch_us(s."tapped_at") < 1776038400000000
     AND s."tapped_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."tapped_at" < TIMESTAMP '2026-04-15 00:00:00'
+  GROUP BY s."customer_id"
 ),
--- Eligible units with a row of support from their trigger up to the as-of time.
-seen_3 AS (
-  SELECT DISTINCT e.unit_id
-  FROM eligible AS e
-  JOIN read_parquet('data/support.parquet') AS s ON s."customer_id" = e.unit_id
-  WHERE epoch_us(s."contacted_at") >= e.trigger_us AND epoch_us(s."contacted_at") < 1776038400000000
+-- Each unit's latest row of support in the analysis period before the as-of time.
+last_3 AS (
+  SELECT s."customer_id" AS unit_id, max(epoch_us(s."contacted_at")) AS last_us
+  FROM read_parquet('data/support.parquet') AS s
+  WHERE s."customer_id" IS NOT NULL AND epoch_us(s."contacted_at") >= 1772409600000000 AND epoch_us(s."contacted_at") < 1776038400000000
     AND s."contacted_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."contacted_at" < TIMESTAMP '2026-04-15 00:00:00'
+  GROUP BY s."customer_id"
 ),
--- Per variant: eligible units, and those with no row in any outcome source (and in each).
+-- Per variant: eligible units, and those with no row from their trigger up to the as-of time in any
+-- outcome source (and in each).
 no_outcomes AS (
   SELECT
     e.variant,
     count(*) AS eligible_units,
-    count(CASE WHEN o1.unit_id IS NULL AND o2.unit_id IS NULL AND o3.unit_id IS NULL THEN 1 END) AS none_any,
-    count(CASE WHEN o1.unit_id IS NULL THEN 1 END) AS none_1,
-    count(CASE WHEN o2.unit_id IS NULL THEN 1 END) AS none_2,
-    count(CASE WHEN o3.unit_id IS NULL THEN 1 END) AS none_3
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) AND (o2.last_us IS NULL OR o2.last_us < e.trigger_us) AND (o3.last_us IS NULL OR o3.last_us < e.trigger_us) THEN 1 END) AS none_any,
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) THEN 1 END) AS none_1,
+    count(CASE WHEN (o2.last_us IS NULL OR o2.last_us < e.trigger_us) THEN 1 END) AS none_2,
+    count(CASE WHEN (o3.last_us IS NULL OR o3.last_us < e.trigger_us) THEN 1 END) AS none_3
   FROM eligible AS e
-  LEFT JOIN seen_1 AS o1 ON o1.unit_id = e.unit_id
-  LEFT JOIN seen_2 AS o2 ON o2.unit_id = e.unit_id
-  LEFT JOIN seen_3 AS o3 ON o3.unit_id = e.unit_id
+  LEFT JOIN last_1 AS o1 ON o1.unit_id = e.unit_id
+  LEFT JOIN last_2 AS o2 ON o2.unit_id = e.unit_id
+  LEFT JOIN last_3 AS o3 ON o3.unit_id = e.unit_id
   GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (

@@ -313,21 +313,22 @@ eligible AS (
   WHERE NOT c.`is_crossover`
     AND NOT c.`is_unknown_variant`
 ),
--- Eligible units with a row of orders from their trigger up to the as-of time.
-seen_1 AS (
-  SELECT DISTINCT e.unit_id
-  FROM eligible AS e
-  JOIN `shop`.`orders` AS s ON s.`visitor_id` = e.unit_id
-  WHERE unix_micros(s.`placed_at`) >= e.trigger_us AND unix_micros(s.`placed_at`) < 1777852800000000
+-- Each unit's latest row of orders in the analysis period before the as-of time.
+last_1 AS (
+  SELECT s.`visitor_id` AS unit_id, max(unix_micros(s.`placed_at`)) AS last_us
+  FROM `shop`.`orders` AS s
+  WHERE s.`visitor_id` IS NOT NULL AND unix_micros(s.`placed_at`) >= 1775433600000000 AND unix_micros(s.`placed_at`) < 1777852800000000
+  GROUP BY s.`visitor_id`
 ),
--- Per variant: eligible units, and those with no row in any outcome source.
+-- Per variant: eligible units, and those with no row from their trigger up to the as-of time in any
+-- outcome source.
 no_outcomes AS (
   SELECT
     e.variant,
     count(*) AS eligible_units,
-    count(CASE WHEN o1.unit_id IS NULL THEN 1 END) AS none_any
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) THEN 1 END) AS none_any
   FROM eligible AS e
-  LEFT JOIN seen_1 AS o1 ON o1.unit_id = e.unit_id
+  LEFT JOIN last_1 AS o1 ON o1.unit_id = e.unit_id
   GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (

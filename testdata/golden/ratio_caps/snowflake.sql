@@ -269,31 +269,32 @@ eligible AS (
   WHERE NOT c."is_crossover"
     AND NOT c."is_unknown_variant"
 ),
--- Eligible units with a row of orders from their trigger up to the as-of time.
-seen_1 AS (
-  SELECT DISTINCT e.unit_id
-  FROM eligible AS e
-  JOIN "orders" AS s ON s."account_id" = e.unit_id
-  WHERE DATE_PART(EPOCH_MICROSECOND, s."created_at") >= e.trigger_us AND DATE_PART(EPOCH_MICROSECOND, s."created_at") < 1782864000000000
+-- Each unit's latest row of orders in the analysis period before the as-of time.
+last_1 AS (
+  SELECT s."account_id" AS unit_id, max(DATE_PART(EPOCH_MICROSECOND, s."created_at")) AS last_us
+  FROM "orders" AS s
+  WHERE s."account_id" IS NOT NULL AND DATE_PART(EPOCH_MICROSECOND, s."created_at") >= 1780272000000000 AND DATE_PART(EPOCH_MICROSECOND, s."created_at") < 1782864000000000
+  GROUP BY s."account_id"
 ),
--- Eligible units with a row of sessions from their trigger up to the as-of time.
-seen_2 AS (
-  SELECT DISTINCT e.unit_id
-  FROM eligible AS e
-  JOIN "sessions" AS s ON s."account_id" = e.unit_id
-  WHERE DATE_PART(EPOCH_MICROSECOND, s."started_at") >= e.trigger_us AND DATE_PART(EPOCH_MICROSECOND, s."started_at") < 1782864000000000
+-- Each unit's latest row of sessions in the analysis period before the as-of time.
+last_2 AS (
+  SELECT s."account_id" AS unit_id, max(DATE_PART(EPOCH_MICROSECOND, s."started_at")) AS last_us
+  FROM "sessions" AS s
+  WHERE s."account_id" IS NOT NULL AND DATE_PART(EPOCH_MICROSECOND, s."started_at") >= 1780272000000000 AND DATE_PART(EPOCH_MICROSECOND, s."started_at") < 1782864000000000
+  GROUP BY s."account_id"
 ),
--- Per variant: eligible units, and those with no row in any outcome source (and in each).
+-- Per variant: eligible units, and those with no row from their trigger up to the as-of time in any
+-- outcome source (and in each).
 no_outcomes AS (
   SELECT
     e.variant,
     count(*) AS eligible_units,
-    count(CASE WHEN o1.unit_id IS NULL AND o2.unit_id IS NULL THEN 1 END) AS none_any,
-    count(CASE WHEN o1.unit_id IS NULL THEN 1 END) AS none_1,
-    count(CASE WHEN o2.unit_id IS NULL THEN 1 END) AS none_2
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) AND (o2.last_us IS NULL OR o2.last_us < e.trigger_us) THEN 1 END) AS none_any,
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) THEN 1 END) AS none_1,
+    count(CASE WHEN (o2.last_us IS NULL OR o2.last_us < e.trigger_us) THEN 1 END) AS none_2
   FROM eligible AS e
-  LEFT JOIN seen_1 AS o1 ON o1.unit_id = e.unit_id
-  LEFT JOIN seen_2 AS o2 ON o2.unit_id = e.unit_id
+  LEFT JOIN last_1 AS o1 ON o1.unit_id = e.unit_id
+  LEFT JOIN last_2 AS o2 ON o2.unit_id = e.unit_id
   GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (

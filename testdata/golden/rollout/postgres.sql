@@ -264,21 +264,22 @@ eligible AS (
     AND NOT c."is_unknown_variant"
     AND NOT c."is_previously_exposed"
 ),
--- Eligible units with a row of orders from their trigger up to the as-of time.
-seen_1 AS (
-  SELECT DISTINCT e.unit_id
-  FROM eligible AS e
-  JOIN "web"."orders" AS s ON s."visitor_id" = e.unit_id
-  WHERE CASE WHEN pg_typeof(s."placed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM s."placed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM s."placed_at" AT TIME ZONE 'Europe/Lisbon') * 1000000 AS BIGINT) END >= e.trigger_us AND CASE WHEN pg_typeof(s."placed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM s."placed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM s."placed_at" AT TIME ZONE 'Europe/Lisbon') * 1000000 AS BIGINT) END < 1782687600000000
+-- Each unit's latest row of orders in the analysis period before the as-of time.
+last_1 AS (
+  SELECT s."visitor_id" AS unit_id, max(CASE WHEN pg_typeof(s."placed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM s."placed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM s."placed_at" AT TIME ZONE 'Europe/Lisbon') * 1000000 AS BIGINT) END) AS last_us
+  FROM "web"."orders" AS s
+  WHERE s."visitor_id" IS NOT NULL AND CASE WHEN pg_typeof(s."placed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM s."placed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM s."placed_at" AT TIME ZONE 'Europe/Lisbon') * 1000000 AS BIGINT) END >= 1780268400000000 AND CASE WHEN pg_typeof(s."placed_at") = 'timestamp with time zone'::regtype THEN CAST(EXTRACT(EPOCH FROM s."placed_at") * 1000000 AS BIGINT) ELSE CAST(EXTRACT(EPOCH FROM s."placed_at" AT TIME ZONE 'Europe/Lisbon') * 1000000 AS BIGINT) END < 1782687600000000
+  GROUP BY s."visitor_id"
 ),
--- Per variant: eligible units, and those with no row in any outcome source.
+-- Per variant: eligible units, and those with no row from their trigger up to the as-of time in any
+-- outcome source.
 no_outcomes AS (
   SELECT
     e.variant,
     count(*) AS eligible_units,
-    count(CASE WHEN o1.unit_id IS NULL THEN 1 END) AS none_any
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) THEN 1 END) AS none_any
   FROM eligible AS e
-  LEFT JOIN seen_1 AS o1 ON o1.unit_id = e.unit_id
+  LEFT JOIN last_1 AS o1 ON o1.unit_id = e.unit_id
   GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (

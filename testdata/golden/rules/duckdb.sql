@@ -329,33 +329,34 @@ eligible AS (
     AND NOT c."fails_not_internal"
     AND NOT c."fails_paying"
 ),
--- Eligible units with a row of logins from their trigger up to the as-of time.
-seen_1 AS (
-  SELECT DISTINCT e.unit_id
-  FROM eligible AS e
-  JOIN read_parquet('logins.parquet') AS s ON s."account" = e.unit_id
-  WHERE epoch_us(s."at") >= e.trigger_us AND epoch_us(s."at") < 1772323200000000
+-- Each unit's latest row of logins in the analysis period before the as-of time.
+last_1 AS (
+  SELECT s."account" AS unit_id, max(epoch_us(s."at")) AS last_us
+  FROM read_parquet('logins.parquet') AS s
+  WHERE s."account" IS NOT NULL AND epoch_us(s."at") >= 1769904000000000 AND epoch_us(s."at") < 1772323200000000
     AND s."at" >= TIMESTAMP '2026-01-30 00:00:00' AND s."at" < TIMESTAMP '2026-03-03 00:00:00'
+  GROUP BY s."account"
 ),
--- Eligible units with a row of tickets from their trigger up to the as-of time.
-seen_2 AS (
-  SELECT DISTINCT e.unit_id
-  FROM eligible AS e
-  JOIN read_parquet('tickets.parquet') AS s ON s."account" = e.unit_id
-  WHERE epoch_us(s."opened_at") >= e.trigger_us AND epoch_us(s."opened_at") < 1772323200000000
+-- Each unit's latest row of tickets in the analysis period before the as-of time.
+last_2 AS (
+  SELECT s."account" AS unit_id, max(epoch_us(s."opened_at")) AS last_us
+  FROM read_parquet('tickets.parquet') AS s
+  WHERE s."account" IS NOT NULL AND epoch_us(s."opened_at") >= 1769904000000000 AND epoch_us(s."opened_at") < 1772323200000000
     AND s."opened_at" >= TIMESTAMP '2026-01-30 00:00:00' AND s."opened_at" < TIMESTAMP '2026-03-03 00:00:00'
+  GROUP BY s."account"
 ),
--- Per variant: eligible units, and those with no row in any outcome source (and in each).
+-- Per variant: eligible units, and those with no row from their trigger up to the as-of time in any
+-- outcome source (and in each).
 no_outcomes AS (
   SELECT
     e.variant,
     count(*) AS eligible_units,
-    count(CASE WHEN o1.unit_id IS NULL AND o2.unit_id IS NULL THEN 1 END) AS none_any,
-    count(CASE WHEN o1.unit_id IS NULL THEN 1 END) AS none_1,
-    count(CASE WHEN o2.unit_id IS NULL THEN 1 END) AS none_2
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) AND (o2.last_us IS NULL OR o2.last_us < e.trigger_us) THEN 1 END) AS none_any,
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) THEN 1 END) AS none_1,
+    count(CASE WHEN (o2.last_us IS NULL OR o2.last_us < e.trigger_us) THEN 1 END) AS none_2
   FROM eligible AS e
-  LEFT JOIN seen_1 AS o1 ON o1.unit_id = e.unit_id
-  LEFT JOIN seen_2 AS o2 ON o2.unit_id = e.unit_id
+  LEFT JOIN last_1 AS o1 ON o1.unit_id = e.unit_id
+  LEFT JOIN last_2 AS o2 ON o2.unit_id = e.unit_id
   GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (

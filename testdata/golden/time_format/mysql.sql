@@ -200,21 +200,22 @@ eligible AS (
   WHERE NOT c.`is_crossover`
     AND NOT c.`is_unknown_variant`
 ),
--- Eligible units with a row of signups from their trigger up to the as-of time.
-seen_1 AS (
-  SELECT DISTINCT e.unit_id
-  FROM eligible AS e
-  JOIN `web`.`signups` AS s ON s.`visitor_id` = e.unit_id
-  WHERE TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(STR_TO_DATE(s.`signed_up`, '%d/%m/%Y %H:%i:%s'), 'Europe/Berlin', '+00:00')) >= e.trigger_us AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(STR_TO_DATE(s.`signed_up`, '%d/%m/%Y %H:%i:%s'), 'Europe/Berlin', '+00:00')) < 1782684000000000
+-- Each unit's latest row of signups in the analysis period before the as-of time.
+last_1 AS (
+  SELECT s.`visitor_id` AS unit_id, max(TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(STR_TO_DATE(s.`signed_up`, '%d/%m/%Y %H:%i:%s'), 'Europe/Berlin', '+00:00'))) AS last_us
+  FROM `web`.`signups` AS s
+  WHERE s.`visitor_id` IS NOT NULL AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(STR_TO_DATE(s.`signed_up`, '%d/%m/%Y %H:%i:%s'), 'Europe/Berlin', '+00:00')) >= 1780264800000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', CONVERT_TZ(STR_TO_DATE(s.`signed_up`, '%d/%m/%Y %H:%i:%s'), 'Europe/Berlin', '+00:00')) < 1782684000000000
+  GROUP BY s.`visitor_id`
 ),
--- Per variant: eligible units, and those with no row in any outcome source.
+-- Per variant: eligible units, and those with no row from their trigger up to the as-of time in any
+-- outcome source.
 no_outcomes AS (
   SELECT
     e.variant,
     count(*) AS eligible_units,
-    count(CASE WHEN o1.unit_id IS NULL THEN 1 END) AS none_any
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) THEN 1 END) AS none_any
   FROM eligible AS e
-  LEFT JOIN seen_1 AS o1 ON o1.unit_id = e.unit_id
+  LEFT JOIN last_1 AS o1 ON o1.unit_id = e.unit_id
   GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (

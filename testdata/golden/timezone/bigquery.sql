@@ -194,21 +194,22 @@ eligible AS (
   WHERE NOT c.`is_crossover`
     AND NOT c.`is_unknown_variant`
 ),
--- Eligible units with a row of opens from their trigger up to the as-of time.
-seen_1 AS (
-  SELECT DISTINCT e.unit_id
-  FROM eligible AS e
-  JOIN `mail`.`opens` AS s ON s.`user id` = e.unit_id
-  WHERE UNIX_MICROS(TIMESTAMP(s.`opened at`, 'Europe/Amsterdam')) >= e.trigger_us AND UNIX_MICROS(TIMESTAMP(s.`opened at`, 'Europe/Amsterdam')) < 1774994400000000
+-- Each unit's latest row of opens in the analysis period before the as-of time.
+last_1 AS (
+  SELECT s.`user id` AS unit_id, max(UNIX_MICROS(TIMESTAMP(s.`opened at`, 'Europe/Amsterdam'))) AS last_us
+  FROM `mail`.`opens` AS s
+  WHERE s.`user id` IS NOT NULL AND UNIX_MICROS(TIMESTAMP(s.`opened at`, 'Europe/Amsterdam')) >= 1772319600000000 AND UNIX_MICROS(TIMESTAMP(s.`opened at`, 'Europe/Amsterdam')) < 1774994400000000
+  GROUP BY s.`user id`
 ),
--- Per variant: eligible units, and those with no row in any outcome source.
+-- Per variant: eligible units, and those with no row from their trigger up to the as-of time in any
+-- outcome source.
 no_outcomes AS (
   SELECT
     e.variant,
     count(*) AS eligible_units,
-    count(CASE WHEN o1.unit_id IS NULL THEN 1 END) AS none_any
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) THEN 1 END) AS none_any
   FROM eligible AS e
-  LEFT JOIN seen_1 AS o1 ON o1.unit_id = e.unit_id
+  LEFT JOIN last_1 AS o1 ON o1.unit_id = e.unit_id
   GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (
