@@ -159,7 +159,39 @@ const (
 	HealthIgnoredRows    HealthKind = "ignored_rows"         // exposure rows outside the window or incomplete
 	HealthOutcomeRows    HealthKind = "ignored_outcome_rows" // outcome rows no metric can use, per source
 	HealthUnknownVariant HealthKind = "unknown_variant"      // triggered units per undeclared variant value
+	// HealthNoOutcomes counts, per variant, the eligible units (the cohort
+	// the main query analyses, after every exclusion) that have no row at
+	// all in any outcome source (Plan.OutcomeSources) from their trigger up
+	// to the as-of time. Its row_count is the variant's eligible units and
+	// its unit_count those without a row; the row with no source covers all
+	// outcome sources together, and with two or more sources one row per
+	// source counts the units without a row in that source.
+	//
+	// The span ends at the as-of time rather than at the end of the longest
+	// metric window: the check asks whether anything at all is logged for
+	// a unit after it entered, and a row that falls after every window
+	// still shows that the unit's logging works. Every trigger is before
+	// the as-of time (Compile caps the analysis end at it), so no span is
+	// empty; units triggered late have a shorter span in every arm alike.
+	HealthNoOutcomes HealthKind = "no_outcome_rows"
 )
+
+// OutcomeSources lists the outcome sources of the no-outcome check
+// (HealthNoOutcomes): every event source a metric reads other than the
+// exposure source, in plan order. It is empty for a planning query, whose
+// health result only sizes the cohort.
+func (p *Plan) OutcomeSources() []*metrics.Source {
+	if p.Pooled {
+		return nil
+	}
+	var out []*metrics.Source
+	for _, sp := range p.Sources {
+		if s := sp.Source; s != p.Spec.Exposure.Source && s.IsEvent() {
+			out = append(out, s)
+		}
+	}
+	return out
+}
 
 // Health query result columns, in order.
 const (

@@ -3,6 +3,8 @@ package compiler
 import (
 	"fmt"
 	"strings"
+
+	"github.com/assay-dev/assay/metrics"
 )
 
 // The health query: exposures, triggers, exclusions, ignored rows and
@@ -50,7 +52,8 @@ func (pr *printer) health() (string, error) {
 	pr.line(1, ") AS v")
 	pr.line(1, "WHERE v.value_rank <= %d", UnknownVariantValues)
 	outcome := pr.outcomeSources()
-	pr.line(0, ")%s", commaIf(len(outcome) > 0))
+	seen := p.OutcomeSources()
+	pr.line(0, ")%s", commaIf(len(outcome) > 0 || len(seen) > 0))
 	for i, o := range outcome {
 		pr.line(0, "-- Rows of %s that no metric or rule can use: no unit or no time.", oneLine(o.Name))
 		pr.line(0, "nulls_%d AS (", i+1)
@@ -59,8 +62,9 @@ func (pr *printer) health() (string, error) {
 		// reading a column that holds no NULLs.
 		pr.line(1, "SELECT count(*) - count(s.%s) AS %s, count(*) - count(s.%s) AS %s", pr.id(o.Unit), IgnoredNullUnit, pr.id(o.Time), IgnoredNullTime)
 		pr.line(1, "FROM %s AS s", pr.from(o))
-		pr.line(0, ")%s", commaIf(i < len(outcome)-1))
+		pr.line(0, ")%s", commaIf(i < len(outcome)-1 || len(seen) > 0))
 	}
+	pr.noOutcomes(seen)
 	hc := make([]string, len(HealthColumns))
 	for i, c := range HealthColumns {
 		hc[i] = "h." + c
@@ -105,7 +109,71 @@ func (pr *printer) health() (string, error) {
 		}
 	}
 	sel(HealthUnknownVariant, "NULL", "NULL", "variant", "NULL", "units", "units", "unknown_values", "", "")
+	if len(seen) > 0 {
+		sel(HealthNoOutcomes, "NULL", "NULL", "variant", "NULL", "eligible_units", "none_any", "no_outcomes", "", "")
+		for i, o := range seen {
+			if len(seen) > 1 {
+				sel(HealthNoOutcomes, "NULL", q(o.Name), "variant", "NULL", "eligible_units", fmt.Sprintf("none_%d", i+1), "no_outcomes", "", "")
+			}
+		}
+	}
 	pr.line(0, ") AS h")
 	pr.line(0, "ORDER BY h.%s, h.%s, h.%s, h.%s, h.%s", HColKind, HColReason, HColSource, HColVariant, HColDay)
 	return pr.b.String(), pr.err
+}
+
+// noOutcomes prints the CTEs of the no-outcome check (HealthNoOutcomes):
+// the eligible units; per outcome source, each unit's latest row before
+// the as-of time (a unit has a row in [trigger, as-of) exactly when that
+// latest row is at or after its trigger); and per variant the eligible
+// units and those without any row, by a LEFT JOIN anti-join. Aggregating
+// each source by unit first, rather than joining every source row to the
+// eligible units, keeps it one scan and one hash aggregate per source on
+// every engine, and an indexed lookup on engines without hash joins
+// (MariaDB). It prints nothing when srcs is empty.
+func (pr *printer) noOutcomes(srcs []*metrics.Source) {
+	if len(srcs) == 0 {
+		return
+	}
+	p := pr.p
+	pr.eligible()
+	for i, o := range srcs {
+		t := pr.time(o, "s")
+		pr.line(0, "-- Each unit's latest row of %s in the analysis period before the as-of time.", oneLine(o.Name))
+		pr.line(0, "last_%d AS (", i+1)
+		pr.line(1, "SELECT s.%s AS unit_id, max(%s) AS last_us", pr.id(o.Unit), t)
+		pr.line(1, "FROM %s AS s", pr.from(o))
+		pr.line(1, "WHERE s.%s IS NOT NULL AND %s >= %s AND %s < %s", pr.id(o.Unit), t, us(p.StartUS), t, us(p.AsOfUS))
+		if pf := pr.prefilter(o, "s", 0, p.AsOfUS-p.EndUS); pf != "" {
+			pr.line(2, "AND %s", pf)
+		}
+		pr.line(1, "GROUP BY s.%s", pr.id(o.Unit))
+		pr.line(0, "),")
+	}
+	none := make([]string, len(srcs))
+	for i := range srcs {
+		none[i] = fmt.Sprintf("(o%d.last_us IS NULL OR o%d.last_us < e.trigger_us)", i+1, i+1)
+	}
+	each := ""
+	if len(srcs) > 1 {
+		each = " (and in each)"
+	}
+	pr.line(0, "-- Per variant: eligible units, and those with no row from their trigger up to the as-of time in any")
+	pr.line(0, "-- outcome source%s.", each)
+	pr.line(0, "no_outcomes AS (")
+	pr.line(1, "SELECT")
+	pr.line(2, "e.variant,")
+	pr.line(2, "count(*) AS eligible_units,")
+	pr.line(2, "count(CASE WHEN %s THEN 1 END) AS none_any%s", strings.Join(none, " AND "), commaIf(len(srcs) > 1))
+	if len(srcs) > 1 {
+		for i := range srcs {
+			pr.line(2, "count(CASE WHEN %s THEN 1 END) AS none_%d%s", none[i], i+1, commaIf(i < len(srcs)-1))
+		}
+	}
+	pr.line(1, "FROM eligible AS e")
+	for i := range srcs {
+		pr.line(1, "LEFT JOIN last_%d AS o%d ON o%d.unit_id = e.unit_id", i+1, i+1, i+1)
+	}
+	pr.line(1, "GROUP BY e.variant")
+	pr.line(0, ")")
 }

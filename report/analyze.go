@@ -133,6 +133,9 @@ type Health struct {
 	// UnknownVariants are the undeclared variant values seen on triggered
 	// units, the most frequent first (at most compiler.UnknownVariantValues).
 	UnknownVariants []UnknownVariant `json:"unknown_variants"`
+	// NoOutcomes counts eligible units without any outcome row
+	// (nooutcome.go); absent when the health result has no such rows.
+	NoOutcomes *NoOutcomes `json:"no_outcome_units,omitempty"`
 }
 
 // UnknownVariant is an undeclared variant value with its triggered units
@@ -525,6 +528,7 @@ func health(p *compiler.Plan, rows []results.HealthRow, byVariant map[string]*re
 		}
 	}
 	h.ExposedUnits = h.Triggered + h.NeverTriggered
+	h.NoOutcomes = noOutcomes(p, rows) // nooutcome.go
 	sort.Strings(excOrder)
 	for _, k := range excOrder {
 		e := exc[k]

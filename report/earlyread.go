@@ -15,9 +15,9 @@ import (
 // widened: is the experiment running as designed? It checks the
 // assignment (sample ratio), the logging (exposure rows without a variant
 // or unit, undeclared variants, crossovers, outcome rows no metric can
-// use, sources without rows, metrics that are zero for every unit or not
-// yet readable) and the guard metrics at a looser level than the final
-// analysis, and lists what to fix first. It never judges whether the
+// use, sources without rows, eligible units without any outcome row,
+// metrics that are zero for every unit or not yet readable) and the guard
+// metrics at a looser level than the final analysis, and lists what to fix first. It never judges whether the
 // change is good: the effect estimates of a test step are too imprecise
 // for that, and the decision belongs to the product's owners.
 
@@ -129,6 +129,10 @@ func ReadEarly(p *compiler.Plan, set *results.Set, rep *Report, opt Options) *Ea
 			if n > 0 {
 				add("logging", "outcome rows of "+s, StatusFix, fmt.Sprintf("%d rows of source %s have no unit id or no time, so no metric can use them.", n, s))
 			}
+		}
+		if h.NoOutcomes != nil {
+			status, detail := h.NoOutcomes.earlyCheck() // nooutcome.go
+			add("logging", NoOutcomeCheck, status, detail)
 		}
 	}
 	for _, s := range opt.EmptySources {

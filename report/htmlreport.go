@@ -695,6 +695,7 @@ func (b *htmlBuilder) healthSection() html.Section {
 			et.Rows = append(et.Rows, []html.Cell{txt(e.Reason), num(strconv.FormatInt(e.Units, 10), b.link("health-excluded-"+slugID(e.Reason))), num(pctAbs(float64(e.Rate)), "")})
 		}
 		bl = append(bl, et)
+		bl = append(bl, b.noOutcomeBlocks(h.NoOutcomes)...) // nooutcome.go
 		ig := h.IgnoredRows
 		lines := []string{fmt.Sprintf("ignored exposure rows: %d before start, %d at or after end, %d without unit, %d without time, %d without a variant (they count for the trigger time only)", ig["before_start"], ig["after_end"], ig["null_unit"], ig["null_time"], ig["null_variant"])}
 		srcs := make([]string, 0, len(h.IgnoredOutcomeRows))

@@ -185,6 +185,7 @@ func (r *Report) healthDoc(d *document) {
 			items = append(items, fmt.Sprintf("ignored rows of %s: %d without unit, %d without time", src, o["null_unit"], o["null_time"]))
 		}
 	}
+	items = append(items, h.NoOutcomes.healthItems()...)
 	d.list(items)
 	if len(h.UnknownVariants) > 0 {
 		var vs []string

@@ -429,6 +429,55 @@ nulls_2 AS (
 nulls_3 AS (
   SELECT count(*) - count(s."customer_id") AS null_unit, count(*) - count(s."contacted_at") AS null_time
   FROM read_parquet('data/support.parquet') AS s
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day, c."seg_platform", c."seg_tenure"
+  FROM cohort AS c
+  WHERE NOT c."is_crossover"
+    AND NOT c."is_unknown_variant"
+    AND NOT c."fails_recent_order"
+    AND NOT c."is_previously_exposed"
+),
+-- Each unit's latest row of orders in the analysis period before the as-of time.
+last_1 AS (
+  SELECT s."customer_id" AS unit_id, max(epoch_us(s."ordered_at")) AS last_us
+  FROM read_parquet('data/orders.parquet') AS s
+  WHERE s."customer_id" IS NOT NULL AND epoch_us(s."ordered_at") >= 1772409600000000 AND epoch_us(s."ordered_at") < 1776038400000000
+    AND s."ordered_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."ordered_at" < TIMESTAMP '2026-04-15 00:00:00'
+  GROUP BY s."customer_id"
+),
+-- Each unit's latest row of taps in the analysis period before the as-of time.
+last_2 AS (
+  SELECT s."customer_id" AS unit_id, max(epoch_us(s."tapped_at")) AS last_us
+  FROM read_parquet('data/taps.parquet') AS s
+  WHERE s."customer_id" IS NOT NULL AND epoch_us(s."tapped_at") >= 1772409600000000 AND epoch_us(s."tapped_at") < 1776038400000000
+    AND s."tapped_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."tapped_at" < TIMESTAMP '2026-04-15 00:00:00'
+  GROUP BY s."customer_id"
+),
+-- Each unit's latest row of support in the analysis period before the as-of time.
+last_3 AS (
+  SELECT s."customer_id" AS unit_id, max(epoch_us(s."contacted_at")) AS last_us
+  FROM read_parquet('data/support.parquet') AS s
+  WHERE s."customer_id" IS NOT NULL AND epoch_us(s."contacted_at") >= 1772409600000000 AND epoch_us(s."contacted_at") < 1776038400000000
+    AND s."contacted_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."contacted_at" < TIMESTAMP '2026-04-15 00:00:00'
+  GROUP BY s."customer_id"
+),
+-- Per variant: eligible units, and those with no row from their trigger up to the as-of time in any
+-- outcome source (and in each).
+no_outcomes AS (
+  SELECT
+    e.variant,
+    count(*) AS eligible_units,
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) AND (o2.last_us IS NULL OR o2.last_us < e.trigger_us) AND (o3.last_us IS NULL OR o3.last_us < e.trigger_us) THEN 1 END) AS none_any,
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) THEN 1 END) AS none_1,
+    count(CASE WHEN (o2.last_us IS NULL OR o2.last_us < e.trigger_us) THEN 1 END) AS none_2,
+    count(CASE WHEN (o3.last_us IS NULL OR o3.last_us < e.trigger_us) THEN 1 END) AS none_3
+  FROM eligible AS e
+  LEFT JOIN last_1 AS o1 ON o1.unit_id = e.unit_id
+  LEFT JOIN last_2 AS o2 ON o2.unit_id = e.unit_id
+  LEFT JOIN last_3 AS o3 ON o3.unit_id = e.unit_id
+  GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, NULL AS source, variant AS variant, CAST(make_timestamp(ts_us) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
@@ -503,6 +552,18 @@ SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count F
   UNION ALL
   SELECT 'unknown_variant' AS kind, NULL AS reason, NULL AS source, variant AS variant, NULL AS day, units AS row_count, units AS unit_count
   FROM unknown_values
+  UNION ALL
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, NULL AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_any AS unit_count
+  FROM no_outcomes
+  UNION ALL
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, 'orders' AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_1 AS unit_count
+  FROM no_outcomes
+  UNION ALL
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, 'taps' AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_2 AS unit_count
+  FROM no_outcomes
+  UNION ALL
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, 'support' AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_3 AS unit_count
+  FROM no_outcomes
 ) AS h
 ORDER BY h.kind, h.reason, h.source, h.variant, h.day
 ;

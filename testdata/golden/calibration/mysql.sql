@@ -241,6 +241,31 @@ unknown_values AS (
 nulls_1 AS (
   SELECT count(*) - count(s.`visitor_id`) AS null_unit, count(*) - count(s.`placed_at`) AS null_time
   FROM `shop`.`orders` AS s
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day
+  FROM cohort AS c
+  WHERE NOT c.`is_crossover`
+    AND NOT c.`is_unknown_variant`
+),
+-- Each unit's latest row of orders in the analysis period before the as-of time.
+last_1 AS (
+  SELECT s.`visitor_id` AS unit_id, max(TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`placed_at`)) AS last_us
+  FROM `shop`.`orders` AS s
+  WHERE s.`visitor_id` IS NOT NULL AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`placed_at`) >= 1775433600000000 AND TIMESTAMPDIFF(MICROSECOND, TIMESTAMP '1970-01-01 00:00:00', s.`placed_at`) < 1777852800000000
+  GROUP BY s.`visitor_id`
+),
+-- Per variant: eligible units, and those with no row from their trigger up to the as-of time in any
+-- outcome source.
+no_outcomes AS (
+  SELECT
+    e.variant,
+    count(*) AS eligible_units,
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) THEN 1 END) AS none_any
+  FROM eligible AS e
+  LEFT JOIN last_1 AS o1 ON o1.unit_id = e.unit_id
+  GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, NULL AS source, variant AS variant, DATE(TIMESTAMPADD(MICROSECOND, ts_us, TIMESTAMP '1970-01-01 00:00:00')) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
@@ -293,6 +318,9 @@ SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count F
   UNION ALL
   SELECT 'unknown_variant' AS kind, NULL AS reason, NULL AS source, variant AS variant, NULL AS day, units AS row_count, units AS unit_count
   FROM unknown_values
+  UNION ALL
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, NULL AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_any AS unit_count
+  FROM no_outcomes
 ) AS h
 ORDER BY h.kind, h.reason, h.source, h.variant, h.day
 ;

@@ -186,6 +186,31 @@ unknown_values AS (
 nulls_1 AS (
   SELECT count(*) - count(s.`visitor_id`) AS null_unit, count(*) - count(s.`completed_at`) AS null_time
   FROM `analytics`.`checkouts` AS s
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day
+  FROM cohort AS c
+  WHERE NOT c.`is_crossover`
+    AND NOT c.`is_unknown_variant`
+),
+-- Each unit's latest row of checkouts in the analysis period before the as-of time.
+last_1 AS (
+  SELECT s.`visitor_id` AS unit_id, max(UNIX_MICROS(CAST(s.`completed_at` AS TIMESTAMP))) AS last_us
+  FROM `analytics`.`checkouts` AS s
+  WHERE s.`visitor_id` IS NOT NULL AND UNIX_MICROS(CAST(s.`completed_at` AS TIMESTAMP)) >= 1777593600000000 AND UNIX_MICROS(CAST(s.`completed_at` AS TIMESTAMP)) < 1780012800000000
+  GROUP BY s.`visitor_id`
+),
+-- Per variant: eligible units, and those with no row from their trigger up to the as-of time in any
+-- outcome source.
+no_outcomes AS (
+  SELECT
+    e.variant,
+    count(*) AS eligible_units,
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) THEN 1 END) AS none_any
+  FROM eligible AS e
+  LEFT JOIN last_1 AS o1 ON o1.unit_id = e.unit_id
+  GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, NULL AS source, variant AS variant, DATE(TIMESTAMP_MICROS(ts_us)) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
@@ -238,6 +263,9 @@ SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count F
   UNION ALL
   SELECT 'unknown_variant' AS kind, NULL AS reason, NULL AS source, variant AS variant, NULL AS day, units AS row_count, units AS unit_count
   FROM unknown_values
+  UNION ALL
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, NULL AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_any AS unit_count
+  FROM no_outcomes
 ) AS h
 ORDER BY h.kind, h.reason, h.source, h.variant, h.day
 ;

@@ -306,6 +306,43 @@ nulls_1 AS (
 nulls_2 AS (
   SELECT count(*) - count(s."account_id") AS null_unit, count(*) - count(s."started_at") AS null_time
   FROM "sessions" AS s
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day
+  FROM cohort AS c
+  WHERE NOT c."is_crossover"
+    AND NOT c."is_unknown_variant"
+),
+-- Each unit's latest row of orders in the analysis period before the as-of time.
+last_1 AS (
+  SELECT s."account_id" AS unit_id, max(epoch_us(s."created_at")) AS last_us
+  FROM "orders" AS s
+  WHERE s."account_id" IS NOT NULL AND epoch_us(s."created_at") >= 1780272000000000 AND epoch_us(s."created_at") < 1782864000000000
+    AND s."created_at" >= TIMESTAMP '2026-05-30 00:00:00' AND s."created_at" < TIMESTAMP '2026-07-03 00:00:00'
+  GROUP BY s."account_id"
+),
+-- Each unit's latest row of sessions in the analysis period before the as-of time.
+last_2 AS (
+  SELECT s."account_id" AS unit_id, max(epoch_us(s."started_at")) AS last_us
+  FROM "sessions" AS s
+  WHERE s."account_id" IS NOT NULL AND epoch_us(s."started_at") >= 1780272000000000 AND epoch_us(s."started_at") < 1782864000000000
+    AND s."started_at" >= TIMESTAMP '2026-05-30 00:00:00' AND s."started_at" < TIMESTAMP '2026-07-03 00:00:00'
+  GROUP BY s."account_id"
+),
+-- Per variant: eligible units, and those with no row from their trigger up to the as-of time in any
+-- outcome source (and in each).
+no_outcomes AS (
+  SELECT
+    e.variant,
+    count(*) AS eligible_units,
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) AND (o2.last_us IS NULL OR o2.last_us < e.trigger_us) THEN 1 END) AS none_any,
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) THEN 1 END) AS none_1,
+    count(CASE WHEN (o2.last_us IS NULL OR o2.last_us < e.trigger_us) THEN 1 END) AS none_2
+  FROM eligible AS e
+  LEFT JOIN last_1 AS o1 ON o1.unit_id = e.unit_id
+  LEFT JOIN last_2 AS o2 ON o2.unit_id = e.unit_id
+  GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, NULL AS source, variant AS variant, CAST(make_timestamp(ts_us) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
@@ -364,6 +401,15 @@ SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count F
   UNION ALL
   SELECT 'unknown_variant' AS kind, NULL AS reason, NULL AS source, variant AS variant, NULL AS day, units AS row_count, units AS unit_count
   FROM unknown_values
+  UNION ALL
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, NULL AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_any AS unit_count
+  FROM no_outcomes
+  UNION ALL
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, 'orders' AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_1 AS unit_count
+  FROM no_outcomes
+  UNION ALL
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, 'sessions' AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_2 AS unit_count
+  FROM no_outcomes
 ) AS h
 ORDER BY h.kind, h.reason, h.source, h.variant, h.day
 ;

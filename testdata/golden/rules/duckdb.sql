@@ -317,6 +317,47 @@ nulls_1 AS (
 nulls_2 AS (
   SELECT count(*) - count(s."account") AS null_unit, count(*) - count(s."opened_at") AS null_time
   FROM read_parquet('tickets.parquet') AS s
+),
+-- Eligible units: one variant only, a declared variant, and every eligibility rule met at the trigger.
+eligible AS (
+  SELECT c.unit_id, c.variant, c.trigger_us, c.trigger_day, c."seg_platform", c."seg_tier"
+  FROM cohort AS c
+  WHERE NOT c."is_crossover"
+    AND NOT c."is_unknown_variant"
+    AND NOT c."fails_active"
+    AND NOT c."fails_no_open_ticket"
+    AND NOT c."fails_not_internal"
+    AND NOT c."fails_paying"
+),
+-- Each unit's latest row of logins in the analysis period before the as-of time.
+last_1 AS (
+  SELECT s."account" AS unit_id, max(epoch_us(s."at")) AS last_us
+  FROM read_parquet('logins.parquet') AS s
+  WHERE s."account" IS NOT NULL AND epoch_us(s."at") >= 1769904000000000 AND epoch_us(s."at") < 1772323200000000
+    AND s."at" >= TIMESTAMP '2026-01-30 00:00:00' AND s."at" < TIMESTAMP '2026-03-03 00:00:00'
+  GROUP BY s."account"
+),
+-- Each unit's latest row of tickets in the analysis period before the as-of time.
+last_2 AS (
+  SELECT s."account" AS unit_id, max(epoch_us(s."opened_at")) AS last_us
+  FROM read_parquet('tickets.parquet') AS s
+  WHERE s."account" IS NOT NULL AND epoch_us(s."opened_at") >= 1769904000000000 AND epoch_us(s."opened_at") < 1772323200000000
+    AND s."opened_at" >= TIMESTAMP '2026-01-30 00:00:00' AND s."opened_at" < TIMESTAMP '2026-03-03 00:00:00'
+  GROUP BY s."account"
+),
+-- Per variant: eligible units, and those with no row from their trigger up to the as-of time in any
+-- outcome source (and in each).
+no_outcomes AS (
+  SELECT
+    e.variant,
+    count(*) AS eligible_units,
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) AND (o2.last_us IS NULL OR o2.last_us < e.trigger_us) THEN 1 END) AS none_any,
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) THEN 1 END) AS none_1,
+    count(CASE WHEN (o2.last_us IS NULL OR o2.last_us < e.trigger_us) THEN 1 END) AS none_2
+  FROM eligible AS e
+  LEFT JOIN last_1 AS o1 ON o1.unit_id = e.unit_id
+  LEFT JOIN last_2 AS o2 ON o2.unit_id = e.unit_id
+  GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (
   SELECT 'exposures' AS kind, NULL AS reason, NULL AS source, variant AS variant, CAST(make_timestamp(ts_us) AS DATE) AS day, count(*) AS row_count, count(DISTINCT unit_id) AS unit_count
@@ -395,6 +436,15 @@ SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count F
   UNION ALL
   SELECT 'unknown_variant' AS kind, NULL AS reason, NULL AS source, variant AS variant, NULL AS day, units AS row_count, units AS unit_count
   FROM unknown_values
+  UNION ALL
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, NULL AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_any AS unit_count
+  FROM no_outcomes
+  UNION ALL
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, 'logins' AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_1 AS unit_count
+  FROM no_outcomes
+  UNION ALL
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, 'tickets' AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_2 AS unit_count
+  FROM no_outcomes
 ) AS h
 ORDER BY h.kind, h.reason, h.source, h.variant, h.day
 ;
