@@ -184,10 +184,21 @@ func (p *Plan) OutcomeSources() []*metrics.Source {
 	if p.Pooled {
 		return nil
 	}
+	// A source that only mechanism metrics read (the change's own
+	// surface, such as taps on a new shelf) has rows in the treatment
+	// alone by design, so it does not say whether logging reaches every
+	// arm; it is left out.
 	var out []*metrics.Source
 	for _, sp := range p.Sources {
-		if s := sp.Source; s != p.Spec.Exposure.Source && s.IsEvent() {
-			out = append(out, s)
+		s := sp.Source
+		if s == p.Spec.Exposure.Source || !s.IsEvent() {
+			continue
+		}
+		for _, a := range sp.Aggs {
+			if a.Metric.M.Role != metrics.Mechanism {
+				out = append(out, s)
+				break
+			}
 		}
 	}
 	return out

@@ -9,6 +9,7 @@ import (
 	"github.com/assay-dev/assay/compiler"
 	"github.com/assay-dev/assay/metrics"
 	"github.com/assay-dev/assay/results"
+	"github.com/assay-dev/assay/stats"
 )
 
 // The early read of a test step answers one question before a rollout is
@@ -204,6 +205,10 @@ func ReadEarly(p *compiler.Plan, set *results.Set, rep *Report, opt Options) *Ea
 					mp.M.Name, pastTense(string(mp.M.Harmful)), c.Variant, pct(float64(c.Relative)), EarlyGuardLevel*100, pct(float64(c.Guard.Lower)), pct(float64(c.Guard.Upper)), pctAbs(mp.M.Margin)))
 			case c.Guard.Verdict == "harm shown, within margin":
 				add("guards", mp.M.Name+" "+c.Variant, StatusWatch, detail)
+			case c.Guard.Verdict == string(stats.VerdictUndefined) && li.ImmatureUnits > 0:
+				add("guards", mp.M.Name+" "+c.Variant, StatusNotYet, fmt.Sprintf("guard %s, %s: not readable yet (%d eligible units still inside the %s to %s window)", mp.M.Name, c.Variant, li.ImmatureUnits, li.Window[0], li.Window[1]))
+			case c.Guard.Verdict == string(stats.VerdictUndefined):
+				add("guards", mp.M.Name+" "+c.Variant, StatusUnknown, detail)
 			default:
 				add("guards", mp.M.Name+" "+c.Variant, StatusOK, detail)
 			}

@@ -447,16 +447,8 @@ last_1 AS (
     AND s."ordered_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."ordered_at" < TIMESTAMP '2026-04-15 00:00:00'
   GROUP BY s."customer_id"
 ),
--- Each unit's latest row of taps in the analysis period before the as-of time.
-last_2 AS (
-  SELECT s."customer_id" AS unit_id, max(epoch_us(s."tapped_at")) AS last_us
-  FROM read_parquet('data/taps.parquet') AS s
-  WHERE s."customer_id" IS NOT NULL AND epoch_us(s."tapped_at") >= 1772409600000000 AND epoch_us(s."tapped_at") < 1776038400000000
-    AND s."tapped_at" >= TIMESTAMP '2026-02-28 00:00:00' AND s."tapped_at" < TIMESTAMP '2026-04-15 00:00:00'
-  GROUP BY s."customer_id"
-),
 -- Each unit's latest row of support in the analysis period before the as-of time.
-last_3 AS (
+last_2 AS (
   SELECT s."customer_id" AS unit_id, max(epoch_us(s."contacted_at")) AS last_us
   FROM read_parquet('data/support.parquet') AS s
   WHERE s."customer_id" IS NOT NULL AND epoch_us(s."contacted_at") >= 1772409600000000 AND epoch_us(s."contacted_at") < 1776038400000000
@@ -469,14 +461,12 @@ no_outcomes AS (
   SELECT
     e.variant,
     count(*) AS eligible_units,
-    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) AND (o2.last_us IS NULL OR o2.last_us < e.trigger_us) AND (o3.last_us IS NULL OR o3.last_us < e.trigger_us) THEN 1 END) AS none_any,
+    count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) AND (o2.last_us IS NULL OR o2.last_us < e.trigger_us) THEN 1 END) AS none_any,
     count(CASE WHEN (o1.last_us IS NULL OR o1.last_us < e.trigger_us) THEN 1 END) AS none_1,
-    count(CASE WHEN (o2.last_us IS NULL OR o2.last_us < e.trigger_us) THEN 1 END) AS none_2,
-    count(CASE WHEN (o3.last_us IS NULL OR o3.last_us < e.trigger_us) THEN 1 END) AS none_3
+    count(CASE WHEN (o2.last_us IS NULL OR o2.last_us < e.trigger_us) THEN 1 END) AS none_2
   FROM eligible AS e
   LEFT JOIN last_1 AS o1 ON o1.unit_id = e.unit_id
   LEFT JOIN last_2 AS o2 ON o2.unit_id = e.unit_id
-  LEFT JOIN last_3 AS o3 ON o3.unit_id = e.unit_id
   GROUP BY e.variant
 )
 SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count FROM (
@@ -559,10 +549,7 @@ SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count F
   SELECT 'no_outcome_rows' AS kind, NULL AS reason, 'orders' AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_1 AS unit_count
   FROM no_outcomes
   UNION ALL
-  SELECT 'no_outcome_rows' AS kind, NULL AS reason, 'taps' AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_2 AS unit_count
-  FROM no_outcomes
-  UNION ALL
-  SELECT 'no_outcome_rows' AS kind, NULL AS reason, 'support' AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_3 AS unit_count
+  SELECT 'no_outcome_rows' AS kind, NULL AS reason, 'support' AS source, variant AS variant, NULL AS day, eligible_units AS row_count, none_2 AS unit_count
   FROM no_outcomes
 ) AS h
 ORDER BY h.kind, h.reason, h.source, h.variant, h.day
