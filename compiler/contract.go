@@ -153,7 +153,7 @@ type HealthKind string
 // Health row kinds.
 const (
 	HealthExposures      HealthKind = "exposures"            // exposure rows and units per variant and day
-	HealthTriggers       HealthKind = "triggers"             // triggered units per variant and trigger day
+	HealthTriggers       HealthKind = "triggers"             // triggered units per variant and trigger day; row_count: those not exposed in a prior run
 	HealthNeverTriggered HealthKind = "never_triggered"      // exposed units without a qualifying exposure
 	HealthExcluded       HealthKind = "excluded"             // triggered units excluded, per reason and variant
 	HealthIgnoredRows    HealthKind = "ignored_rows"         // exposure rows outside the window or incomplete

@@ -88,7 +88,14 @@ func (pr *printer) health() (string, error) {
 	q := pr.d.Literal
 	day := pr.d.Day("ts_us", p.TZ)
 	sel(HealthExposures, "NULL", "NULL", "variant", day, "count(*)", "count(DISTINCT unit_id)", "exposure_rows", "", "variant, "+day)
-	sel(HealthTriggers, "NULL", "NULL", "variant", "trigger_day", "count(*)", "count(*)", "cohort", "", "variant, trigger_day")
+	// Triggered units per variant and day (unit_count) and, as row_count,
+	// those of them not exposed in a prior run: the daily sample ratio
+	// reads the latter, since a prior run's units were assigned then.
+	fresh := "count(*)"
+	if len(p.Spec.PriorRuns) > 0 {
+		fresh = "count(CASE WHEN NOT " + pr.id(FlagPrior) + " THEN 1 END)"
+	}
+	sel(HealthTriggers, "NULL", "NULL", "variant", "trigger_day", fresh, "count(*)", "cohort", "", "variant, trigger_day")
 	sel(HealthNeverTriggered, "NULL", "NULL", "NULL", "NULL", "count(*)", "count(*)", neverFrom, "u.trigger_us IS NULL", "")
 	var all []string
 	for _, x := range p.Exclusions {

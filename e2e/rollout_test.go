@@ -688,3 +688,54 @@ window = ["0d", "14d"]
 		})
 	}
 }
+
+// TestPriorRunsDailySampleRatio: units a prior run exposed were assigned
+// then, so the daily sample-ratio check reads only the units new to this
+// run. 150 prior units, all in control, trigger on the first day beside
+// 400 new units split 50/50 over a week: counting them would make the
+// first day's ratio 150 units lopsided.
+// Source: the planted assignment; the chi-square of the first day with
+// the prior units counted is far beyond the 0.001 alarm level (Pearson
+// Σ(O−E)²/E by hand).
+func TestPriorRunsDailySampleRatio(t *testing.T) {
+	dir := t.TempDir()
+	r := newRand(1501)
+	var expo, ev [][]string
+	for i := range 550 {
+		u := fmt.Sprintf("u%06d", i)
+		arm, trig := []string{"control", "treatment"}[i%2], within(r, start3T.Add(time.Duration(i%7)*day), day)
+		if i >= 400 {
+			arm, trig = "control", within(r, start3T, day)
+			expo = append(expo, []string{u, arm, tsText(within(r, ts("2026-02-20 00:00:00"), day))})
+		}
+		expo = append(expo, []string{u, arm, tsText(trig)})
+		ev = append(ev, []string{u, tsText(trig.Add(time.Hour))})
+	}
+	writeBulk(t, dir, "exposures.parquet", []col3{{"unit_id", "VARCHAR"}, {"variant", "VARCHAR"}, {"exposed_at", "TIMESTAMP"}}, expo)
+	writeBulk(t, dir, "events.parquet", []col3{{"unit_id", "VARCHAR"}, {"happened_at", "TIMESTAMP"}}, ev)
+	spec := writeText(t, dir, "spec.toml", spec3{Metrics: metricVisits, Extra: "[prior_runs.first]\nsource = \"exposures\"\nfrom = 2026-02-01T00:00:00Z\n"}.toml())
+	code, out, errs := runCLI("run", "--format", "json", spec)
+	var rep report
+	if err := json.Unmarshal([]byte(out), &rep); err != nil {
+		t.Fatalf("exit %d: %v\n%s", code, err, errs)
+	}
+	// Day 0 with the prior units: about 29 new units per arm plus 150 in
+	// control; Pearson's statistic is over 100 (p far below 0.001).
+	var c0, t0 int64
+	for _, d := range rep.Health.Daily {
+		if d.Day == "2026-03-02" {
+			if d.Variant == "control" {
+				c0 = d.TriggeredUnits
+			} else {
+				t0 = d.TriggeredUnits
+			}
+		}
+	}
+	e := float64(c0+t0) / 2
+	if x2 := (float64(c0)-e)*(float64(c0)-e)/e + (float64(t0)-e)*(float64(t0)-e)/e; x2 < 50 {
+		t.Fatalf("fixture: day 0 triggered control %d, treatment %d (chi-square %.1f); want it lopsided", c0, t0, x2)
+	}
+	if code != 0 || len(rep.Alarms) != 0 {
+		t.Errorf("exit %d, alarms %q: the prior run's units must not raise a daily sample-ratio alarm", code, rep.Alarms)
+	}
+}

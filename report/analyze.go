@@ -190,6 +190,9 @@ type Daily struct {
 	ExposureRows  int64  `json:"exposure_rows"`
 	ExposedUnits  int64  `json:"exposed_units"`
 	TriggeredUnit int64  `json:"triggered_units"`
+	// NewUnits are the triggered units not exposed in a prior run (all of
+	// them when the spec declares none); the daily sample ratio reads them.
+	NewUnits int64 `json:"new_triggered_units"`
 }
 
 // MetricInfo is one metric's per-variant values and comparisons.
@@ -501,6 +504,7 @@ func health(p *compiler.Plan, rows []results.HealthRow, byVariant map[string]*re
 			h.Triggered += row.Units
 			d := dailyRow(daily, row.Day, row.Variant)
 			d.TriggeredUnit += row.Units
+			d.NewUnits += row.Rows
 		case compiler.HealthExposures:
 			d := dailyRow(daily, row.Day, row.Variant)
 			d.ExposureRows += row.Rows
@@ -558,7 +562,7 @@ func health(p *compiler.Plan, rows []results.HealthRow, byVariant map[string]*re
 		t := 0.0
 		for _, d := range h.Daily {
 			if d.Variant == v.Name {
-				t += float64(d.TriggeredUnit)
+				t += float64(d.NewUnits)
 			}
 		}
 		obs = append(obs, n)
@@ -571,14 +575,14 @@ func health(p *compiler.Plan, rows []results.HealthRow, byVariant map[string]*re
 	byDay := map[string]map[string]float64{}
 	var days []string
 	for _, d := range h.Daily {
-		if d.TriggeredUnit == 0 {
+		if d.NewUnits == 0 {
 			continue
 		}
 		if byDay[d.Day] == nil {
 			byDay[d.Day] = map[string]float64{}
 			days = append(days, d.Day)
 		}
-		byDay[d.Day][d.Variant] += float64(d.TriggeredUnit)
+		byDay[d.Day][d.Variant] += float64(d.NewUnits)
 	}
 	sort.Strings(days)
 	for _, day := range days {

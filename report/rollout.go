@@ -185,7 +185,7 @@ func rolloutDaily(p *compiler.Plan, h *Health, alpha float64) {
 	byDay := map[string][]float64{}
 	var days []string
 	for _, d := range h.Daily {
-		if d.TriggeredUnit == 0 {
+		if d.NewUnits == 0 {
 			continue
 		}
 		if byDay[d.Day] == nil {
@@ -194,7 +194,7 @@ func rolloutDaily(p *compiler.Plan, h *Health, alpha float64) {
 		}
 		for i, v := range p.Variants {
 			if v == d.Variant {
-				byDay[d.Day][i] += float64(d.TriggeredUnit)
+				byDay[d.Day][i] += float64(d.NewUnits)
 			}
 		}
 	}

@@ -287,7 +287,7 @@ SELECT h.kind, h.reason, h.source, h.variant, h.day, h.row_count, h.unit_count F
   FROM exposure_rows
   GROUP BY variant, CAST(from_unixtime_nanos(ts_us * 1000) AT TIME ZONE 'Europe/Lisbon' AS DATE)
   UNION ALL
-  SELECT 'triggers' AS kind, NULL AS reason, NULL AS source, variant AS variant, trigger_day AS day, count(*) AS row_count, count(*) AS unit_count
+  SELECT 'triggers' AS kind, NULL AS reason, NULL AS source, variant AS variant, trigger_day AS day, count(CASE WHEN NOT "is_previously_exposed" THEN 1 END) AS row_count, count(*) AS unit_count
   FROM cohort
   GROUP BY variant, trigger_day
   UNION ALL
