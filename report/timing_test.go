@@ -276,7 +276,7 @@ func TestRolloutDays(t *testing.T) {
 	}
 	h := &Health{Available: true}
 	for _, d := range []string{"2026-06-05", "2026-06-08", "2026-06-09"} {
-		h.Daily = append(h.Daily, Daily{Day: d, Variant: "control", TriggeredUnit: 150}, Daily{Day: d, Variant: "dated", TriggeredUnit: 50})
+		h.Daily = append(h.Daily, Daily{Day: d, Variant: "control", TriggeredUnit: 150, NewUnits: 150}, Daily{Day: d, Variant: "dated", TriggeredUnit: 50, NewUnits: 50})
 	}
 	rolloutDaily(p, h, SRMAlpha)
 	days := h.SampleRatioDaily.Days
