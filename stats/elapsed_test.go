@@ -217,3 +217,55 @@ func TestElapsedTrendStratifiedOneStratum(t *testing.T) {
 		t.Errorf("3 bucket moments for 2 weights gave no reason")
 	}
 }
+
+// TestElapsedTrendStratifiedCalibration: under a launch in steps whose
+// allocations differ and whose baseline falls with time since the trigger
+// differently in each step, a constant additive effect must be flagged in
+// at most alpha of simulations by the trend stratified by step.
+// Source: exact binomial range (BinomialRange, checked against R's qbinom).
+func TestElapsedTrendStratifiedCalibration(t *testing.T) {
+	if testing.Short() {
+		t.Skip("simulation")
+	}
+	const (
+		sims  = 600
+		alpha = 0.05
+	)
+	steps := []struct {
+		n     int
+		treat float64
+		base  []float64
+	}{
+		{400, 0.05, []float64{2, 1.2}},
+		{600, 0.25, []float64{1.4, 1.1}},
+		{1500, 0.5, []float64{1, 1}},
+	}
+	rng := rand.New(rand.NewPCG(11, 13))
+	flags := 0
+	for range sims {
+		var strata []StratumBuckets
+		for _, st := range steps {
+			nt := 0
+			for range st.n {
+				if rng.Float64() < st.treat {
+					nt++
+				}
+			}
+			base, _ := elapsedArm(rng, st.n-nt, 7, st.base, ones(2, 1), ones(2, 0))
+			treat, _ := elapsedArm(rng, nt, 7, st.base, ones(2, 1), ones(2, 0.1))
+			strata = append(strata, StratumBuckets{Base: base, Treat: treat})
+		}
+		r := ElapsedTrendStratified(TrendWeights(2), strata, 1-alpha)
+		if r.Reason != "" {
+			t.Fatalf("undefined: %s", r.Reason)
+		}
+		if r.PValue < alpha {
+			flags++
+		}
+	}
+	lo, hi := BinomialRange(sims, alpha, 0.999)
+	t.Logf("constant effect under a ramp: %d of %d flagged (99.9%% range %d–%d)", flags, sims, lo, hi)
+	if flags < lo || flags > hi {
+		t.Errorf("flagged %d of %d; a calibrated test flags %d–%d", flags, sims, lo, hi)
+	}
+}
