@@ -125,6 +125,8 @@ func TestDemo(t *testing.T) {
 	// The copy uses the demo's shared library, by absolute path.
 	lib, _ := filepath.Abs(filepath.Join("..", "testdata", "library", "grocery.toml"))
 	text = strings.Replace(text, `library = "../library/grocery.toml"`, `library = "`+filepath.ToSlash(lib)+`"`, 1)
+	cal, _ := filepath.Abs(filepath.Join("..", "testdata", "library", "grocery-calendar.toml"))
+	text = strings.Replace(text, `"../library/grocery-calendar.toml"`, `"`+filepath.ToSlash(cal)+`"`, 1)
 	if strings.Contains(text, "file =") || !strings.Contains(text, "table =") {
 		t.Fatal("the demo spec's file sources were not all rewritten to tables")
 	}

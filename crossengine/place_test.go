@@ -41,6 +41,7 @@ func TestOneSpecTwoPlaces(t *testing.T) {
 		s = strings.ReplaceAll(s, `table = "grocery.`, `table = "`+schema+`.`)
 		return strings.ReplaceAll(s, `file = "data/`, `file = "`+filepath.ToSlash(data)+`/`)
 	})
+	copyText(filepath.Join("..", "testdata", "library", "grocery-calendar.toml"), "library/grocery-calendar.toml", func(s string) string { return s })
 	spec := copyText(filepath.Join("..", "testdata", "demo", "checkout.toml"), "demo/checkout.toml", func(s string) string { return s })
 
 	var sqlText, errText bytes.Buffer

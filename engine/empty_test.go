@@ -35,6 +35,8 @@ func emptyDemo(t *testing.T, empty map[string][2]string) string {
 	// The copy's shared library is the demo's, by absolute path.
 	lib, _ := filepath.Abs("../testdata/library/grocery.toml")
 	text = strings.Replace(text, `library = "../library/grocery.toml"`, `library = "`+filepath.ToSlash(lib)+`"`, 1)
+	cal, _ := filepath.Abs("../testdata/library/grocery-calendar.toml")
+	text = strings.Replace(text, `"../library/grocery-calendar.toml"`, `"`+filepath.ToSlash(cal)+`"`, 1)
 	for _, name := range []string{"exposures", "orders", "taps", "support", "customers", "visits"} {
 		old := `file = "data/` + name + `.parquet"`
 		path := filepath.Join(data, name+".parquet")

@@ -114,6 +114,10 @@ type LoadOptions struct {
 	// Target picks each source's place (see the package's library notes);
 	// "" keeps the default table or file.
 	Target string
+	// asPriorRun loads a spec named by another spec's prior run: only its
+	// exposure source, filter and period are used, so its own prior runs
+	// are not followed (two specs naming each other would never end).
+	asPriorRun bool
 }
 
 // SharedDef records that a metric's definition comes from a library.

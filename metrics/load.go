@@ -486,7 +486,7 @@ func (l *loader) load(raw map[string]any) {
 	if rt := root.sub("rollout", false, rolloutKeys...); rt != nil {
 		l.rollout(rt)
 	}
-	if pt := root.sub("prior_runs", false); pt != nil {
+	if pt := root.sub("prior_runs", false); pt != nil && !l.opts.asPriorRun {
 		for _, name := range pt.keys() {
 			if r := l.priorRun(name, pt.sub(name, false, priorRunKeys...), ref); r != nil {
 				s.PriorRuns = append(s.PriorRuns, r)

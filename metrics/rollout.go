@@ -277,7 +277,12 @@ func (l *loader) priorSpec(pr *PriorRun, t *table) bool {
 	if !filepath.IsAbs(p) {
 		full = filepath.Join(filepath.Dir(l.file), p)
 	}
-	if filepath.Clean(full) == filepath.Clean(l.file) {
+	here, err1 := filepath.Abs(l.file)
+	there, err2 := filepath.Abs(full)
+	if err1 != nil || err2 != nil {
+		here, there = filepath.Clean(l.file), filepath.Clean(full)
+	}
+	if here == there {
 		l.errAt(path, CodePriorRun, "name the spec of the earlier run", "prior run `%s` names this spec itself", pr.Name)
 		return false
 	}
@@ -286,7 +291,9 @@ func (l *loader) priorSpec(pr *PriorRun, t *table) bool {
 		l.errAt(path, CodePriorRun, "paths are relative to the spec's directory", "cannot read the spec of prior run `%s`: %s", pr.Name, cleanIOError(err))
 		return false
 	}
-	other, ds := LoadWith(full, src, l.opts)
+	opts := l.opts
+	opts.asPriorRun = true
+	other, ds := LoadWith(full, src, opts)
 	if other == nil || ds.HasErrors() || other.Exposure.Source == nil {
 		first := "it cannot be parsed"
 		for _, d := range ds {
@@ -302,10 +309,15 @@ func (l *loader) priorSpec(pr *PriorRun, t *table) bool {
 		l.errAt(path, CodePriorRun, "earlier exposures must be of the same kind of unit", "the spec of prior run `%s` randomises %q, this one %q", pr.Name, other.Unit, l.spec.Unit)
 		return false
 	}
+	// The earlier spec's relative file paths are relative to its own
+	// directory: rebase them onto this spec's (absolute when that fails).
 	cp := *other.Exposure.Source
 	if cp.File != "" && !filepath.IsAbs(cp.File) {
-		if rel, err := filepath.Rel(filepath.Dir(l.file), filepath.Join(filepath.Dir(full), cp.File)); err == nil {
+		target := filepath.Join(filepath.Dir(there), cp.File)
+		if rel, err := filepath.Rel(filepath.Dir(here), target); err == nil && filepath.IsAbs(here) && filepath.IsAbs(there) {
 			cp.File = rel
+		} else {
+			cp.File = target
 		}
 	}
 	pr.Spec, pr.Source, pr.Filter, pr.From, pr.Until = p, &cp, other.Exposure.Filter, other.Start, other.End

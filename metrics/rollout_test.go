@@ -120,3 +120,72 @@ kind = "sale"
 		}
 	}
 }
+
+// priorSpecText is a spec whose exposures are read from file; prior is
+// its [prior_runs] table.
+func priorSpecText(start, end, file, prior string) string {
+	return `[experiment]
+id = "p"
+hypothesis = "A shelf of earlier purchases makes repeat orders quicker."
+unit = "customer"
+start = ` + start + `
+end = ` + end + `
+
+[variants]
+control = 0.5
+shelf = 0.5
+
+[sources.exposures]
+file = "` + file + `"
+unit = "u"
+time = "t"
+columns = ["u", "arm", "t"]
+
+[exposure]
+source = "exposures"
+variant = "arm"
+
+[metrics.m]
+role = "primary"
+kind = "count"
+source = "exposures"
+window = ["0d", "7d"]
+` + prior
+}
+
+// TestPriorRunSpec: a prior run named by its spec takes that spec's
+// exposure source and period, with the file path rebased onto this spec's
+// directory whether the path was given relative or absolute; two specs
+// naming each other load (the earlier spec's own prior runs are not
+// followed); a spec naming itself, even by an absolute path, is refused.
+// Source: the rule of the [prior_runs] reference in README.md.
+func TestPriorRunSpec(t *testing.T) {
+	dir := t.TempDir()
+	if err := os.MkdirAll(filepath.Join(dir, "old"), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	write := func(name, text string) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	absOld := filepath.Join(dir, "old", "first.toml")
+	write("old/first.toml", priorSpecText("2026-04-01T00:00:00Z", "2026-04-15T00:00:00Z", "feb.parquet", "\n[prior_runs.back]\nspec = \"../spec.toml\"\n"))
+	for _, ref := range []string{"old/first.toml", absOld} {
+		path := write("spec.toml", priorSpecText("2026-05-01T00:00:00Z", "2026-05-29T00:00:00Z", "may.parquet", "\n[prior_runs.first]\nspec = \""+ref+"\"\n"))
+		s, _, ds := LoadFile(path)
+		if ds.HasErrors() {
+			t.Fatalf("spec = %q: %v", ref, ds)
+		}
+		pr := s.PriorRuns[0]
+		if pr.Source.File != filepath.Join("old", "feb.parquet") || !pr.From.Equal(time.Date(2026, 4, 1, 0, 0, 0, 0, time.UTC)) || !pr.Until.Equal(time.Date(2026, 4, 15, 0, 0, 0, 0, time.UTC)) {
+			t.Errorf("spec = %q: source file %q, period %v to %v; want old/feb.parquet over the earlier spec's period", ref, pr.Source.File, pr.From, pr.Until)
+		}
+	}
+	self := write("self.toml", priorSpecText("2026-05-01T00:00:00Z", "2026-05-29T00:00:00Z", "may.parquet", "\n[prior_runs.me]\nspec = \""+filepath.Join(dir, "self.toml")+"\"\n"))
+	if _, _, ds := LoadFile(self); !ds.HasErrors() || !strings.Contains(ds.Error(), "names this spec itself") {
+		t.Errorf("a spec naming itself by an absolute path: got %v, want it refused", ds)
+	}
+}

@@ -132,7 +132,13 @@ func ReadEarly(p *compiler.Plan, set *results.Set, rep *Report, opt Options) *Ea
 			}
 		}
 		if h.NoOutcomes != nil {
-			status, detail := h.NoOutcomes.earlyCheck() // nooutcome.go
+			anyMature := false
+			for _, m := range rep.Metrics {
+				for _, v := range m.Variants {
+					anyMature = anyMature || v.N > 0
+				}
+			}
+			status, detail := h.NoOutcomes.earlyCheck(anyMature) // nooutcome.go
 			add("logging", NoOutcomeCheck, status, detail)
 		}
 	}

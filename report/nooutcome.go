@@ -2,6 +2,7 @@ package report
 
 import (
 	"fmt"
+	"math"
 	"strconv"
 	"strings"
 
@@ -146,24 +147,46 @@ func (n *NoOutcomes) healthItems() []string {
 }
 
 // earlyCheck returns the status and detail of the early read's logging
-// check on units without outcome rows.
-func (n *NoOutcomes) earlyCheck() (status, detail string) {
-	var dead []string
+// check on units without outcome rows. anyMature says some unit's metric
+// window has elapsed: before that, no outcome row at all may just mean
+// too little time has passed.
+//
+// An arm whose every unit is silent is a logging fault ("fix") only when
+// that is implausible from the other arms: with p̂ their pooled share of
+// silent units, P(all n silent) = p̂ⁿ (units independent, a binomial
+// model) must be below NoOutcomeAlpha; otherwise a small arm (a 5% test
+// step) may be silent by chance, and the check says "watch".
+func (n *NoOutcomes) earlyCheck(anyMature bool) (status, detail string) {
+	var dead []NoOutcomeArm
 	var eligible, none int64
 	for _, a := range n.Variants {
 		eligible += a.Eligible
 		none += a.Units
 		if a.Eligible > 0 && a.Units == a.Eligible {
-			dead = append(dead, a.Variant)
+			dead = append(dead, a)
 		}
 	}
 	switch {
 	case eligible == 0:
 		return StatusUnknown, "no eligible units: units without outcome rows cannot be counted"
+	case none == eligible && !anyMature:
+		return StatusNotYet, fmt.Sprintf("none of the %d eligible units has an outcome row yet (up to %s), and no metric window has elapsed: read again later", eligible, n.Through)
 	case none == eligible:
 		return StatusFix, fmt.Sprintf("None of the %d eligible units has an outcome row after its trigger (up to %s): outcome logging is not reaching the sources the metrics read.", eligible, n.Through)
 	case len(dead) > 0:
-		return StatusFix, fmt.Sprintf("Every eligible unit of %s has no outcome row after its trigger (%s): outcome logging is broken for that arm, unless the metrics count only something that arm cannot do.", strings.Join(dead, ", "), noOutcomeList(n.Variants))
+		var names, odds []string
+		fix := false
+		for _, a := range dead {
+			otherN, otherNone := eligible-a.Eligible, none-a.Units
+			p := math.Pow(float64(otherNone)/float64(otherN), float64(a.Eligible))
+			names = append(names, a.Variant)
+			odds = append(odds, fmt.Sprintf("%s: %s", a.Variant, fmtP(p)))
+			fix = fix || p < NoOutcomeAlpha
+		}
+		if fix {
+			return StatusFix, fmt.Sprintf("Every eligible unit of %s has no outcome row after its trigger (%s; chance of that at the other arms' share of silent units %s): outcome logging is broken for that arm, unless the metrics count only something that arm cannot do.", strings.Join(names, ", "), noOutcomeList(n.Variants), strings.Join(odds, ", "))
+		}
+		return StatusWatch, fmt.Sprintf("Every eligible unit of %s has no outcome row after its trigger (%s), but with so few units that is not unlikely at the other arms' share of silent units (chance %s): read again when the arm has more units.", strings.Join(names, ", "), noOutcomeList(n.Variants), strings.Join(odds, ", "))
 	case none == 0:
 		return StatusOK, fmt.Sprintf("every eligible unit has an outcome row after its trigger (%s)", noOutcomeList(n.Variants))
 	}

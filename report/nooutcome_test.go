@@ -81,6 +81,11 @@ func TestReadEarlyNoOutcomes(t *testing.T) {
 	}{
 		{"treatment silent", map[string][2]int64{"control": {500, 20}, "treatment": {500, 500}}, StatusFix, "Every eligible unit of treatment has no outcome row"},
 		{"every unit silent", map[string][2]int64{"control": {500, 500}, "treatment": {500, 500}}, StatusFix, "None of the 1000 eligible units"},
+		// No metric window has elapsed: silence may be too little time.
+		{"every unit silent, too early", map[string][2]int64{"control": {500, 500}, "treatment": {500, 500}}, StatusNotYet, "no metric window has elapsed"},
+		// A 10-unit arm all silent beside a control with 80% silent units:
+		// 0.8^10 = 0.107 (by hand), not implausible.
+		{"small arm silent", map[string][2]int64{"control": {500, 400}, "treatment": {10, 10}}, StatusWatch, "chance treatment: 0.1074"},
 		// p = 3.1e-06 (scipy, in TestNoOutcomeEqualShare).
 		{"shares differ", map[string][2]int64{"control": {500, 20}, "treatment": {500, 60}}, StatusWatch, "A treatment can change whether units come back"},
 		// p = 0.4456 (scipy, in TestNoOutcomeEqualShare).
@@ -91,7 +96,14 @@ func TestReadEarlyNoOutcomes(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			set := &results.Set{SpecFingerprint: s.Fingerprint, Options: p.Options.Text()}
 			for _, v := range p.Variants {
-				set.Rows = append(set.Rows, results.Row{Variant: v, Group: -1, Units: 500, Stats: map[string]float64{}})
+				st := map[string]float64{}
+				if !strings.Contains(tc.name, "too early") {
+					// Some units' windows have elapsed.
+					for _, mp := range p.Metrics {
+						st[mp.Column(compiler.StatN)], st[mp.Column(compiler.StatMean)], st[mp.Column(compiler.StatVar)] = 100, 1, 1
+					}
+				}
+				set.Rows = append(set.Rows, results.Row{Variant: v, Group: -1, Units: 500, Stats: st})
 				set.Health = append(set.Health,
 					results.HealthRow{Kind: compiler.HealthTriggers, Variant: v, Day: "2026-03-02", Rows: 500, Units: 500},
 					results.HealthRow{Kind: compiler.HealthNoOutcomes, Variant: v, Rows: tc.counts[v][0], Units: tc.counts[v][1]})
