@@ -123,7 +123,8 @@ type Health struct {
 	// or a time, which no metric can use.
 	IgnoredOutcomeRows map[string]map[string]int64 `json:"ignored_outcome_rows"`
 	SampleRatio        SampleRatio                 `json:"sample_ratio"`
-	// SampleRatioTriggered tests triggered units (before exclusions).
+	// SampleRatioTriggered tests triggered units (before exclusions), less
+	// those a prior run exposed (they were assigned then).
 	SampleRatioTriggered SampleRatio `json:"sample_ratio_triggered"`
 	// SampleRatioDaily tests each day's newly triggered units.
 	SampleRatioDaily DailySRM `json:"sample_ratio_daily"`

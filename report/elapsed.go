@@ -127,11 +127,13 @@ func elapsedEffects(p *compiler.Plan, set *results.Set) []ElapsedEffect {
 				strata = []stats.StratumBuckets{{Base: bucketArm(mp, overall[p.Variants[0]]), Treat: bucketArm(mp, overall[v])}}
 				e.Method = "Welch's t on the per-unit linear trend contrast"
 			}
+			// The slope's interval is at the flag's level, so it excludes
+			// zero exactly when the trend is flagged.
 			var tr stats.TrendResult
 			if len(strata) == 1 {
-				tr = stats.ElapsedTrend(w, strata[0].Base, strata[0].Treat, level)
+				tr = stats.ElapsedTrend(w, strata[0].Base, strata[0].Treat, 1-alpha)
 			} else {
-				tr = stats.ElapsedTrendStratified(w, strata, level)
+				tr = stats.ElapsedTrendStratified(w, strata, 1-alpha)
 			}
 			e.Slope, e.SlopeStdError, e.SlopeCILow, e.SlopeCIHigh, e.PValue, e.Reason = Num(tr.Slope), Num(tr.StdError), Num(tr.CILow), Num(tr.CIHigh), Num(tr.PValue), tr.Reason
 			total := 0.0
@@ -189,6 +191,9 @@ func bucketCompare(mp *compiler.MetricPlan, strata []stats.StratumBuckets, b int
 	return bk
 }
 
+// elapsedCaveat is what every rendering of the section says beside it.
+const elapsedCaveat = "Bucket values are not capped; for a proportion, each bucket's value is whether the bucket alone passes the metric's threshold. The test reads the additive difference: a constant relative effect on a baseline that itself rises or falls with time since the trigger shows as a trend (compare the baseline column)."
+
 // elapsedCautions are the cautions of flagged trends.
 func elapsedCautions(es []ElapsedEffect) []string {
 	var c []string
@@ -230,11 +235,11 @@ func (r *Report) elapsedDoc(d *document) {
 			if e.Trend != "" {
 				verdict = "flagged: " + e.Trend
 			}
-			d.para("Trend of the difference: %s per bucket [%s, %s] (SE %s, %s); %s at %s (1 − confidence over %s).", signed(e.Slope), signed(e.SlopeCILow), signed(e.SlopeCIHigh), fmtNum(e.SlopeStdError), pEquals(float64(e.PValue)), verdict, trimP(e.Alpha), plural(r.trendTests(), "trend test"))
+			d.para("Trend of the difference: %s per bucket [%s, %s] (%s%% interval, the flag's level; SE %s, %s); %s at %s (1 − confidence over %s).", signed(e.Slope), signed(e.SlopeCILow), signed(e.SlopeCIHigh), trimP(100*(1-e.Alpha)), fmtNum(e.SlopeStdError), pEquals(float64(e.PValue)), verdict, trimP(e.Alpha), plural(r.trendTests(), "trend test"))
 		}
 	}
 	if len(r.Timing.Elapsed) > 0 {
-		d.para("Bucket values are not capped. The test reads the additive difference: a constant relative effect on a baseline that itself rises or falls with time since the trigger shows as a trend (compare the baseline column).")
+		d.para("%s", elapsedCaveat)
 	}
 }
 

@@ -527,7 +527,7 @@ func (b *htmlBuilder) elapsedSection() (html.Section, bool) {
 		return html.Section{}, false
 	}
 	sec := html.Section{ID: "elapsed", Heading: "Effect by time since the trigger"}
-	sec.Blocks = append(sec.Blocks, html.Paragraph{Text: "Each point is the difference between the arms in one part of the outcome window, counted from each unit's trigger, from the same units and the same pass over the data as the metric. A line that falls towards zero suggests the effect fades (novelty); one that rises, that it grows (learning). Bucket values are not capped."})
+	sec.Blocks = append(sec.Blocks, html.Paragraph{Text: "Each point is the difference between the arms in one part of the outcome window, counted from each unit's trigger, from the same units and the same pass over the data as the metric. A line that falls towards zero suggests the effect fades (novelty); one that rises, that it grows (learning). The arms' values per bucket are in the weekdays, calendar and time section. " + elapsedCaveat})
 	for _, e := range r.Timing.Elapsed {
 		var pts []html.LinePoint
 		for i, bk := range e.Buckets {
@@ -543,7 +543,7 @@ func (b *htmlBuilder) elapsedSection() (html.Section, bool) {
 			if e.Trend != "" {
 				verdict = "flagged: the effect is " + e.Trend
 			}
-			text = fmt.Sprintf("Trend of the difference (%s): %s per bucket [%s, %s], %s; %s at %s.", e.Method, signed(e.Slope), signed(e.SlopeCILow), signed(e.SlopeCIHigh), pEquals(float64(e.PValue)), verdict, trimP(e.Alpha))
+			text = fmt.Sprintf("Trend of the difference (%s): %s per bucket [%s, %s] (%s%% interval, the flag's level), %s; %s at %s.", e.Method, signed(e.Slope), signed(e.SlopeCILow), signed(e.SlopeCIHigh), trimP(100*(1-e.Alpha)), pEquals(float64(e.PValue)), verdict, trimP(e.Alpha))
 		}
 		sec.Blocks = append(sec.Blocks, html.Paragraph{Text: text})
 	}
@@ -686,7 +686,7 @@ func (b *htmlBuilder) healthSection() html.Section {
 		bl = append(bl, html.Paragraph{Text: fmt.Sprintf("Sample ratio (eligible units): chi-square %s, df %g, %s (alarm below %g): %s.", fmtNum(sr.Statistic), float64(sr.DF), pEquals(float64(sr.PValue)), sr.Alpha, verdict)})
 	}
 	if st := h.SampleRatioTriggered; h.Available && st.Reason == "" {
-		bl = append(bl, html.Paragraph{Text: fmt.Sprintf("Sample ratio (triggered units, before exclusions): chi-square %s, %s.", fmtNum(st.Statistic), pEquals(float64(st.PValue)))})
+		bl = append(bl, html.Paragraph{Text: fmt.Sprintf("Sample ratio (triggered units new to this run, before other exclusions): chi-square %s, %s.", fmtNum(st.Statistic), pEquals(float64(st.PValue)))})
 	}
 	if h.Available {
 		bl = append(bl, html.Paragraph{Text: fmt.Sprintf("Units of all arms: %d exposed, %d never triggered (no qualifying exposure), %d triggered, %d eligible. A unit's arm is fixed at its trigger (it may have been exposed in several arms before), so exposed units are counted over all arms.", h.ExposedUnits, h.NeverTriggered, h.Triggered, h.Eligible)})

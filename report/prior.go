@@ -37,7 +37,7 @@ func (r *Report) AddPriorApart(p *compiler.Plan, set *results.Set, opt Options) 
 		return err
 	}
 	pa := &PriorApart{Units: map[string]int64{}, Metrics: sub.Metrics,
-		Note: "These units saw the change in an earlier run before this one started. They are left out of every other result of this report and compared here on their own: a unit that has seen the change before may respond differently the second time, so read this beside the main result, not pooled with it."}
+		Note: "These units saw the change in an earlier run before this one started. They are left out of every other result of this report and compared here on their own: a unit that has seen the change before may respond differently the second time, so read this beside the main result, not pooled with it. The arms of this group may not be comparable: the units are those that came back after the earlier exposure, which the earlier variant may itself have influenced, and no sample-ratio check is run on them."}
 	for _, pr := range p.Spec.PriorRuns {
 		pa.Runs = append(pa.Runs, pr.Name)
 	}

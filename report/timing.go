@@ -131,7 +131,7 @@ func (r *Report) timing(p *compiler.Plan, set *results.Set) {
 		if err != nil || vi < 0 {
 			continue
 		}
-		counts[vi][weekdayIndex(day.Weekday())] += float64(d.TriggeredUnit)
+		counts[vi][weekdayIndex(day.Weekday())] += float64(d.NewUnits) // units a prior run exposed were assigned then
 	}
 	for i, v := range p.Variants {
 		var c [7]int64
@@ -283,8 +283,12 @@ func triggerWeeks(p *compiler.Plan, set *results.Set, infos []MetricInfo) *WeekE
 	ro := p.Spec.Rollout
 	byStep := ro != nil && len(ro.Steps) > 1
 	stepOf := func(d time.Time) int {
+		next := d.AddDate(0, 0, 1)
 		k := 0
 		for i, st := range ro.Steps {
+			if i > 0 && st.Start.After(d) && st.Start.Before(next) {
+				return len(ro.Steps) + i // a step began during the day: a stratum of its own
+			}
 			if i > 0 && !d.Before(st.Start) {
 				k = i
 			}
@@ -292,7 +296,7 @@ func triggerWeeks(p *compiler.Plan, set *results.Set, infos []MetricInfo) *WeekE
 		return k
 	}
 	if byStep {
-		we.Method = "per-week difference post-stratified by rollout step (days pooled within each step); Cochran's Q across weeks; weighted least-squares trend of the differences on the week number (weights 1/SE²), normal p-value"
+		we.Method = "per-week difference post-stratified by rollout step (days pooled within each step; a day on which a step began is a stratum of its own); Cochran's Q across weeks; weighted least-squares trend of the differences on the week number (weights 1/SE²), normal p-value"
 	}
 	weeks := map[int]map[string]*acc{}
 	cells := map[int]map[int]map[string]*acc{} // week → step → variant
@@ -361,7 +365,7 @@ func triggerWeeks(p *compiler.Plan, set *results.Set, infos []MetricInfo) *WeekE
 		switch {
 		case byStep && len(cells[w]) > 1:
 			var strata []stats.StratumMoments
-			for k := range ro.Steps {
+			for k := range 2 * len(ro.Steps) {
 				if cl := cells[w][k]; cl != nil {
 					strata = append(strata, stats.StratumMoments{Base: moments(cl[p.Variants[0]]), Treat: moments(cl[p.Variants[1]])})
 				}
@@ -447,7 +451,7 @@ func (r *Report) timingDoc(d *document) {
 		}
 		tb.rows = append(tb.rows, row)
 	}
-	d.para("Triggered units by weekday of the trigger (%s):", r.Experiment.TimeZone)
+	d.para("Triggered units by weekday of the trigger (%s), not counting units a prior run exposed:", r.Experiment.TimeZone)
 	d.tab(tb)
 	if !wm.Statistic.OK() {
 		d.para("Weekday mix across variants: not tested (%s).", wm.Reason)

@@ -227,7 +227,7 @@ func TestWeekdayMix(t *testing.T) {
 		if d%7 >= 5 {
 			tr = 60 // fewer treatment triggers at weekends
 		}
-		r.Health.Daily = append(r.Health.Daily, Daily{Day: day, Variant: "control", TriggeredUnit: c}, Daily{Day: day, Variant: "treatment", TriggeredUnit: tr})
+		r.Health.Daily = append(r.Health.Daily, Daily{Day: day, Variant: "control", TriggeredUnit: c, NewUnits: c}, Daily{Day: day, Variant: "treatment", TriggeredUnit: tr, NewUnits: tr})
 		obs[0][d%7] += float64(c)
 		obs[1][d%7] += float64(tr)
 	}
@@ -323,5 +323,83 @@ func TestCumulativeByDay(t *testing.T) {
 	}
 	if math.Abs(float64(got.Difference)-d) > 1e-9 || math.Abs(float64(got.CILow)-(d-q*math.Sqrt(a+c))) > 1e-9 || math.Abs(float64(got.CIHigh)-(d+q*math.Sqrt(a+c))) > 1e-9 {
 		t.Errorf("day 14: got %v [%v, %v], want %v ± %v", float64(got.Difference), float64(got.CILow), float64(got.CIHigh), d, q*math.Sqrt(a+c))
+	}
+}
+
+// TestTriggerWeeksByStep: under the golden rollout schedule (trial 95/5
+// from 06-01, half 75/25 from 06-04, wide 50/50 from noon on 06-08,
+// Lisbon), each trigger week's difference pools days within a step and
+// weights the steps by their units; the day on which a step began mid-day
+// is a stratum of its own.
+// Source: the post-stratified difference (Cochran 1977, §5A.9) written out
+// here from the planted per-day moments.
+func TestTriggerWeeksByStep(t *testing.T) {
+	s, _, ds := metrics.LoadFile("../testdata/golden/rollout/spec.toml")
+	if ds.HasErrors() {
+		t.Fatal(ds)
+	}
+	p, ds := compiler.Compile(s, compiler.Options{Breakdowns: []string{compiler.KeyTriggerDay}})
+	if ds.HasErrors() {
+		t.Fatal(ds)
+	}
+	g := -1
+	for i, k := range p.GroupBy {
+		if k.Day {
+			g = i
+		}
+	}
+	mp := p.MetricByName("orders")
+	// Per day: control n, mean; dated n, mean (variance 1 everywhere).
+	type dayRow struct {
+		day    string
+		cell   int // the stratum the rule puts the day in
+		nc, nt float64
+		mc, mt float64
+	}
+	days := []dayRow{
+		{"2026-06-01", 0, 190, 10, 3.0, 3.5}, {"2026-06-02", 0, 180, 9, 2.8, 3.1}, {"2026-06-03", 0, 170, 11, 2.9, 3.4},
+		{"2026-06-04", 1, 150, 50, 2.0, 2.3}, {"2026-06-05", 1, 140, 45, 2.1, 2.2}, {"2026-06-06", 1, 160, 55, 1.9, 2.4}, {"2026-06-07", 1, 150, 52, 2.0, 2.1},
+		{"2026-06-08", 3, 120, 80, 1.5, 1.9}, {"2026-06-09", 2, 100, 100, 1.2, 1.5},
+	}
+	set := &results.Set{}
+	for _, d := range days {
+		for _, a := range []struct {
+			v    string
+			n, m float64
+		}{{"control", d.nc, d.mc}, {"dated", d.nt, d.mt}} {
+			set.Rows = append(set.Rows, results.Row{Variant: a.v, Group: g, Key: d.day, Units: int64(a.n),
+				Stats: map[string]float64{mp.Column(compiler.StatN): a.n, mp.Column(compiler.StatMean): a.m, mp.Column(compiler.StatVar): 1}})
+		}
+	}
+	// By hand: per week, per cell, pooled means; weights by cell units.
+	want := map[int]float64{}
+	for _, wk := range []int{0, 1} {
+		type acc struct{ nc, nt, sc, st float64 }
+		cells := map[int]*acc{}
+		var total float64
+		for i, d := range days {
+			if (i >= 7) != (wk == 1) {
+				continue
+			}
+			c := cells[d.cell]
+			if c == nil {
+				c = &acc{}
+				cells[d.cell] = c
+			}
+			c.nc, c.nt, c.sc, c.st = c.nc+d.nc, c.nt+d.nt, c.sc+d.nc*d.mc, c.st+d.nt*d.mt
+			total += d.nc + d.nt
+		}
+		for _, c := range cells {
+			want[wk] += (c.nc + c.nt) / total * (c.st/c.nt - c.sc/c.nc)
+		}
+	}
+	we := triggerWeeks(p, set, nil)
+	if we == nil || len(we.Weeks) != 2 {
+		t.Fatalf("trigger weeks: got %+v, want two weeks", we)
+	}
+	for wk := range 2 {
+		if got := float64(we.Weeks[wk].Difference); math.Abs(got-want[wk]) > 1e-12 {
+			t.Errorf("week %d: got %v, want %v (post-stratified by step by hand)", wk+1, got, want[wk])
+		}
 	}
 }
