@@ -37,6 +37,9 @@ type ElapsedEffect struct {
 	// Alpha is the level below which the trend is flagged: 1 − confidence
 	// divided by the number of trend tests in the report (Bonferroni).
 	Alpha float64 `json:"alpha"`
+	// SlopeLevel is the confidence level of the slope's interval, 1 − Alpha,
+	// so the interval excludes zero exactly when the trend is flagged.
+	SlopeLevel float64 `json:"slope_level"`
 	// Trend is "fading", "growing" or "changing" when flagged, else "".
 	Trend  string `json:"trend"`
 	Method string `json:"method"`
@@ -109,7 +112,7 @@ func elapsedEffects(p *compiler.Plan, set *results.Set) []ElapsedEffect {
 		}
 		w := mp.TrendWeights
 		for _, v := range p.Variants[1:] {
-			e := ElapsedEffect{Metric: mp.M.Name, Variant: v, Baseline: p.Variants[0], BucketLength: mp.M.Bucket.Text, Alpha: alpha, Buckets: []ElapsedBucket{}}
+			e := ElapsedEffect{Metric: mp.M.Name, Variant: v, Baseline: p.Variants[0], BucketLength: mp.M.Bucket.Text, Alpha: alpha, SlopeLevel: 1 - alpha, Buckets: []ElapsedBucket{}}
 			// The strata read: the overall rows, the last step's, or every
 			// step's (weighted by its units, as the primary comparison).
 			var strata []stats.StratumBuckets
@@ -235,7 +238,7 @@ func (r *Report) elapsedDoc(d *document) {
 			if e.Trend != "" {
 				verdict = "flagged: " + e.Trend
 			}
-			d.para("Trend of the difference: %s per bucket [%s, %s] (%s%% interval, the flag's level; SE %s, %s); %s at %s (1 − confidence over %s).", signed(e.Slope), signed(e.SlopeCILow), signed(e.SlopeCIHigh), trimP(100*(1-e.Alpha)), fmtNum(e.SlopeStdError), pEquals(float64(e.PValue)), verdict, trimP(e.Alpha), plural(r.trendTests(), "trend test"))
+			d.para("Trend of the difference: %s per bucket [%s, %s] (%s%% interval, the flag's level; SE %s, %s); %s at %s (1 − confidence over %s).", signed(e.Slope), signed(e.SlopeCILow), signed(e.SlopeCIHigh), trimP(100*e.SlopeLevel), fmtNum(e.SlopeStdError), pEquals(float64(e.PValue)), verdict, trimP(e.Alpha), plural(r.trendTests(), "trend test"))
 		}
 	}
 	if len(r.Timing.Elapsed) > 0 {

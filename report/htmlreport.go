@@ -543,7 +543,7 @@ func (b *htmlBuilder) elapsedSection() (html.Section, bool) {
 			if e.Trend != "" {
 				verdict = "flagged: the effect is " + e.Trend
 			}
-			text = fmt.Sprintf("Trend of the difference (%s): %s per bucket [%s, %s] (%s%% interval, the flag's level), %s; %s at %s.", e.Method, signed(e.Slope), signed(e.SlopeCILow), signed(e.SlopeCIHigh), trimP(100*(1-e.Alpha)), pEquals(float64(e.PValue)), verdict, trimP(e.Alpha))
+			text = fmt.Sprintf("Trend of the difference (%s): %s per bucket [%s, %s] (%s%% interval, the flag's level), %s; %s at %s.", e.Method, signed(e.Slope), signed(e.SlopeCILow), signed(e.SlopeCIHigh), trimP(100*e.SlopeLevel), pEquals(float64(e.PValue)), verdict, trimP(e.Alpha))
 		}
 		sec.Blocks = append(sec.Blocks, html.Paragraph{Text: text})
 	}

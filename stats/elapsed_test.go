@@ -50,27 +50,27 @@ func ones(n int, v float64) []float64 {
 // per-unit contrasts' means, its test is Welch's on those contrasts, and
 // the slope is the ordinary least-squares slope of the bucket differences
 // on the bucket index.
-// Source: gonum stat.MeanVariance and stat.LinearRegression on the raw
-// simulated values; Welch's t from this package's Welch (checked against
-// R's t.test in compare_test.go).
+// Source: gonum stat.MeanVariance, stat.LinearRegression and
+// distuv.StudentsT on the raw simulated values (Welch's t written out).
 func TestElapsedTrendAgreesWithRawData(t *testing.T) {
 	rng := rand.New(rand.NewPCG(41, 43))
 	for _, B := range []int{2, 3, 7} {
-		base, _ := elapsedArm(rng, 800, 2, ones(B, 1), ones(B, 1), ones(B, 0))
+		base, bl := elapsedArm(rng, 800, 2, ones(B, 1), ones(B, 1), ones(B, 0))
 		mult := make([]float64, B)
 		for b := range mult {
 			mult[b] = 1.4 - 0.4*float64(b)/float64(B-1)
 		}
 		treat, tl := elapsedArm(rng, 900, 2, ones(B, 1), mult, ones(B, 0))
 		got := ElapsedTrend(TrendWeights(B), base, treat, 0.95)
+		// Welch's t on the raw per-unit contrasts, written out with gonum.
 		tm, tv := stat.MeanVariance(tl, nil)
-		bm := 0.0
-		for b, x := range TrendWeights(B) {
-			bm += float64(x) * base.Buckets[b].Mean
-		}
-		want := Welch(Moments{N: 800, Mean: bm, Var: base.TrendVar}, Moments{N: 900, Mean: tm, Var: tv}, 0.95)
-		if math.Abs(got.Contrast.Difference-want.Difference) > 1e-9 || math.Abs(got.PValue-want.PValue) > 1e-9 {
-			t.Errorf("B=%d: contrast %v p %v, want %v p %v", B, got.Contrast.Difference, got.PValue, want.Difference, want.PValue)
+		bm, bv := stat.MeanVariance(bl, nil)
+		a, b := bv/800, tv/900
+		df := (a + b) * (a + b) / (a*a/799 + b*b/899)
+		wantD := tm - bm
+		wantP := 2 * distuv.StudentsT{Mu: 0, Sigma: 1, Nu: df}.Survival(math.Abs(wantD/math.Sqrt(a+b)))
+		if math.Abs(got.Contrast.Difference-wantD) > 1e-9 || math.Abs(got.PValue-wantP) > 1e-9 {
+			t.Errorf("B=%d: contrast %v p %v, want %v p %v", B, got.Contrast.Difference, got.PValue, wantD, wantP)
 		}
 		xs, ds := make([]float64, B), make([]float64, B)
 		for b := range B {
@@ -200,18 +200,21 @@ func TestTrendDirection(t *testing.T) {
 }
 
 // TestElapsedTrendStratifiedOneStratum: with one stratum the stratified
-// contrast difference equals the unstratified one (normal instead of t).
-// Source: the definition of post-stratification (Cochran 1977, §5.3): one
-// stratum of weight 1 is the plain difference.
+// slope is the difference of the per-unit contrasts' means over Σ w_b·b,
+// with the unpooled standard error, written out with gonum.
+// Source: Cochran 1977, §5A.9 (one stratum of weight 1 is the plain
+// difference); gonum stat.MeanVariance on the raw contrasts.
 func TestElapsedTrendStratifiedOneStratum(t *testing.T) {
 	rng := rand.New(rand.NewPCG(7, 9))
-	base, _ := elapsedArm(rng, 500, 7, []float64{1, 1, 1}, ones(3, 1), ones(3, 0))
-	treat, _ := elapsedArm(rng, 500, 7, []float64{1, 1, 1}, []float64{1.3, 1.1, 1}, ones(3, 0))
-	w := TrendWeights(3)
-	a := ElapsedTrend(w, base, treat, 0.95)
+	base, bl := elapsedArm(rng, 500, 7, []float64{1, 1, 1}, ones(3, 1), ones(3, 0))
+	treat, tl := elapsedArm(rng, 450, 7, []float64{1, 1, 1}, []float64{1.3, 1.1, 1}, ones(3, 0))
+	w := TrendWeights(3) // −2, 0, 2: Σ w_b·b = 4
+	bm, bv := stat.MeanVariance(bl, nil)
+	tm, tv := stat.MeanVariance(tl, nil)
+	wantSlope, wantSE := (tm-bm)/4, math.Sqrt(bv/500+tv/450)/4
 	b := ElapsedTrendStratified(w, []StratumBuckets{{base, treat}}, 0.95)
-	if math.Abs(a.Slope-b.Slope) > 1e-12 || math.Abs(a.StdError-b.StdError) > 1e-12 {
-		t.Errorf("stratified slope %v±%v, plain %v±%v", b.Slope, b.StdError, a.Slope, a.StdError)
+	if math.Abs(b.Slope-wantSlope) > 1e-12 || math.Abs(b.StdError-wantSE) > 1e-12 {
+		t.Errorf("stratified slope %v±%v, by hand %v±%v", b.Slope, b.StdError, wantSlope, wantSE)
 	}
 	if r := ElapsedTrend([]int{-1, 1}, base, treat, 0.95); r.Reason == "" {
 		t.Errorf("3 bucket moments for 2 weights gave no reason")

@@ -400,17 +400,34 @@ func TestStratifiedCUPEDCoverage(t *testing.T) {
 	}
 }
 
-// TestStratifiedCUPEDOneStratum: one stratum is CUPEDWelch itself (normal
-// instead of t), and the Fieller set from (Base, Treat, Cov) agrees with
-// the test. Source: the definitions (Cochran 1977 §5A.9 with one stratum;
-// Fieller 1954 at θ = 1).
-func TestStratifiedCUPEDOneStratum(t *testing.T) {
-	b := CovariateMoments{N: 400, MeanY: 10, VarY: 9, MeanX: 5, VarX: 4, CovYX: 4.2}
-	tr := CovariateMoments{N: 300, MeanY: 10.6, VarY: 9.5, MeanX: 5.1, VarX: 4.1, CovYX: 4.4}
-	c := CUPEDWelch(b, tr, 0.95)
-	r := StratifiedCUPED([]StratumCovariateMoments{{b, tr}}, 0.95)
-	if math.Abs(r.Difference-c.Difference) > 1e-12 || math.Abs(r.StdError-c.StdError) > 1e-12 {
-		t.Errorf("one stratum: %v±%v, CUPEDWelch %v±%v", r.Difference, r.StdError, c.Difference, c.StdError)
+// TestStratifiedCUPEDMatchesANCOVA: within each stratum the CUPED
+// difference (θ pooled within the stratum's pair) is the treatment
+// coefficient of y ~ 1 + treat + x, so the post-stratified CUPED
+// difference is Σ_k w_k·β_k; Treat − Base equals it, the covariance
+// reproduces its variance, and the Fieller set from (Base, Treat, Cov)
+// agrees with the test.
+// Source: least squares per stratum with gonum/mat (ancova in
+// cuped_test.go); Cochran 1977 §5A.9 weights; Fieller 1954 at θ = 1.
+func TestStratifiedCUPEDMatchesANCOVA(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 8))
+	sizes := [][2]int{{380, 20}, {300, 100}, {250, 250}}
+	var strata []StratumCovariateMoments
+	want, total := 0.0, 0.0
+	for k, sz := range sizes {
+		yb, xb := cupedRows(rng, sz[0], float64(k))
+		yt, xt := cupedRows(rng, sz[1], float64(k)+0.4)
+		beta, _ := ancova(t, yb, xb, yt, xt)
+		want += float64(sz[0]+sz[1]) * beta
+		total += float64(sz[0] + sz[1])
+		strata = append(strata, StratumCovariateMoments{Base: covMomentsOf(yb, xb), Treat: covMomentsOf(yt, xt)})
+	}
+	want /= total
+	r := StratifiedCUPED(strata, 0.95)
+	if r.Reason != "" || !r.Adjusted {
+		t.Fatalf("undefined: %s %s", r.Reason, r.AdjustReason)
+	}
+	if math.Abs(r.Difference-want) > 1e-9 {
+		t.Errorf("difference %v, Σ w_k·β_k by least squares %v", r.Difference, want)
 	}
 	if d := r.Treat.Value - r.Base.Value; math.Abs(d-r.Difference) > 1e-12 {
 		t.Errorf("Treat − Base = %v, difference %v", d, r.Difference)
