@@ -99,13 +99,9 @@ func elapsedEffects(p *compiler.Plan, set *results.Set) []ElapsedEffect {
 	}
 	level := p.Spec.Confidence
 	alpha := (1 - level) / float64(tests)
-	overall := map[string]*results.Row{}
+	overall := rowsByVariant(set.Overall())
 	steps := stepRows(p, set)
 	ro := p.Spec.Rollout
-	for _, r := range set.Overall() {
-		r := r
-		overall[r.Variant] = &r
-	}
 	for _, mp := range p.Metrics {
 		if len(mp.Buckets) == 0 {
 			continue
