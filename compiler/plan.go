@@ -18,6 +18,7 @@ import (
 
 	"github.com/assay-dev/assay/metrics"
 	"github.com/assay-dev/assay/metrics/expr"
+	"github.com/assay-dev/assay/stats"
 )
 
 // Version is the tool version printed into compiled SQL.
@@ -316,7 +317,8 @@ type MetricPlan struct {
 	// not capped.
 	Buckets []*AggPlan
 	// TrendWeights are the integer weights w_b = 2b − (B − 1) of the
-	// linear trend contrast L = Σ_b w_b·y_b, one per bucket (b = 0 … B−1).
+	// linear trend contrast L = Σ_b w_b·y_b, one per bucket (b = 0 … B−1;
+	// stats.TrendWeights).
 	// They sum to zero, so L's mean difference between two arms is zero
 	// when the effect is the same in every bucket (report: ElapsedTrend).
 	TrendWeights []int
@@ -488,7 +490,9 @@ func Compile(s *metrics.Spec, opt Options) (*Plan, metrics.Diagnostics) {
 			from := bucketOffset(m.From, int64(b)*m.Bucket.Micros)
 			to := bucketOffset(m.From, int64(b+1)*m.Bucket.Micros)
 			mp.Buckets = append(mp.Buckets, add(m.Value, fmt.Sprintf("b%d", b+1), from, to))
-			mp.TrendWeights = append(mp.TrendWeights, 2*b-(m.Buckets()-1))
+		}
+		if len(mp.Buckets) > 0 {
+			mp.TrendWeights = stats.TrendWeights(len(mp.Buckets))
 		}
 		mp.Mature = matureCol(m.To.Micros)
 		ends[m.To.Micros] = true
