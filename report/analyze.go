@@ -693,15 +693,6 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 		}
 		return n
 	}
-	moments := func(row *results.Row) stats.Moments {
-		return stats.Moments{N: nOf(row), Mean: stat(row, compiler.StatMean), Var: stat(row, compiler.StatVar)}
-	}
-	rmoments := func(row *results.Row) stats.RatioMoments {
-		return stats.RatioMoments{N: nOf(row), MeanNum: stat(row, compiler.StatNumMean), MeanDen: stat(row, compiler.StatDenMean),
-			VarNum: stat(row, compiler.StatNumVar), VarDen: stat(row, compiler.StatDenVar), Cov: stat(row, compiler.StatCov)}
-	}
-	cmoments := func(row *results.Row) stats.CovariateMoments { return rowCovMoments(mp, row) }
-	rcmoments := func(row *results.Row) stats.RatioCovariateMoments { return rowRatioCovMoments(mp, row) }
 	// theta and the covariate mean are pooled within each compared pair, so
 	// a comparison does not change when another arm does.
 	if mp.Cov != nil {
@@ -719,11 +710,11 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 		var est stats.Estimate
 		switch m.Kind {
 		case metrics.KindRatio:
-			est = stats.RatioEstimate(rmoments(row))
+			est = stats.RatioEstimate(rowRatioMoments(mp, row))
 		case metrics.KindProportion:
-			est = stats.ProportionEstimate(moments(row))
+			est = stats.ProportionEstimate(rowMoments(mp, row))
 		default:
-			est = stats.MeanEstimate(moments(row))
+			est = stats.MeanEstimate(rowMoments(mp, row))
 		}
 		vv := VariantVal{Variant: v, N: int64(nOf(row)), Value: Num(est.Value), StdError: Num(est.StdError), Reason: est.Reason}
 		if row != nil {
@@ -738,19 +729,19 @@ func metricInfo(p *compiler.Plan, mp *compiler.MetricPlan, byVariant map[string]
 		var c stats.Comparison
 		switch m.Kind {
 		case metrics.KindRatio:
-			c = stats.RatioDiff(rmoments(base), rmoments(row), level)
+			c = stats.RatioDiff(rowRatioMoments(mp, base), rowRatioMoments(mp, row), level)
 		case metrics.KindProportion:
-			c = stats.TwoProportion(moments(base), moments(row), level)
+			c = stats.TwoProportion(rowMoments(mp, base), rowMoments(mp, row), level)
 		default:
-			c = stats.Welch(moments(base), moments(row), level)
+			c = stats.Welch(rowMoments(mp, base), rowMoments(mp, row), level)
 		}
 		cmp := compareOf(c, v, p.Variants[0])
 		if mp.Cov != nil {
 			var cc stats.CUPEDComparison
 			if m.Kind == metrics.KindRatio {
-				cc = stats.CUPEDRatio(rcmoments(base), rcmoments(row), level)
+				cc = stats.CUPEDRatio(rowRatioCovMoments(mp, base), rowRatioCovMoments(mp, row), level)
 			} else {
-				cc = stats.CUPEDWelch(cmoments(base), cmoments(row), level)
+				cc = stats.CUPEDWelch(rowCovMoments(mp, base), rowCovMoments(mp, row), level)
 			}
 			unadj := cmp
 			if !cc.Adjusted {
