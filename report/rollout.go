@@ -439,18 +439,8 @@ func byStepCompare(p *compiler.Plan, mp *compiler.MetricPlan, pooled Compare, sr
 	switch {
 	case sr.Reason != "" || math.IsNaN(b):
 		c.RelReason = "the by-step difference is undefined"
-	case b == 0:
-		c.RelReason = "baseline mean is zero"
 	default:
-		c.Relative = Num(sr.Difference / b)
-		set := stats.Fieller(t, b, math.Sqrt(vt), math.Sqrt(vb), 0, stats.NormalQuantile((1+level)/2))
-		c.RelativeShape, c.RelReason = set.Shape, set.Reason
-		if set.Shape == stats.ShapeBounded || set.Shape == stats.ShapeUnbounded {
-			c.RelativeCILow, c.RelativeCIHigh = Num(set.Low-1), Num(set.High-1)
-		}
-		if set.Shape == stats.ShapeComplement {
-			c.RelReason = "the relative confidence set is not an interval (the baseline is not clearly away from zero)"
-		}
+		setRelative(&c, t, b, math.Sqrt(vt), math.Sqrt(vb), 0, level)
 	}
 	if pooled.Sequential != nil && sr.Reason == "" {
 		c.Sequential = byStepSequential(p, mp, pooled, sr.Difference, sr.StdError, rows, level)
@@ -497,19 +487,7 @@ func byStepCUPED(p *compiler.Plan, mp *compiler.MetricPlan, plain Compare, rows 
 	c.Difference, c.StdError, c.CILow, c.CIHigh = Num(sc.Difference), Num(sc.StdError), Num(sc.CILow), Num(sc.CIHigh)
 	c.Statistic, c.PValue, c.PValueAdjusted = Num(sc.Statistic), Num(sc.PValue), Num(sc.PValue)
 	c.Relative, c.RelativeCILow, c.RelativeCIHigh, c.RelativeShape, c.RelReason = nan, nan, nan, "", ""
-	if sc.Base.Value == 0 {
-		c.RelReason = "baseline mean is zero"
-	} else {
-		c.Relative = Num(sc.Difference / sc.Base.Value)
-		set := stats.Fieller(sc.Treat.Value, sc.Base.Value, sc.Treat.StdError, sc.Base.StdError, sc.Cov, stats.NormalQuantile((1+level)/2))
-		c.RelativeShape, c.RelReason = set.Shape, set.Reason
-		if set.Shape == stats.ShapeBounded || set.Shape == stats.ShapeUnbounded {
-			c.RelativeCILow, c.RelativeCIHigh = Num(set.Low-1), Num(set.High-1)
-		}
-		if set.Shape == stats.ShapeComplement {
-			c.RelReason = "the relative confidence set is not an interval (the baseline is not clearly away from zero)"
-		}
-	}
+	setRelative(&c, sc.Treat.Value, sc.Base.Value, sc.Treat.StdError, sc.Base.StdError, sc.Cov, level)
 	info.BaselineValue, info.BaselineStdError = Num(sc.Base.Value), Num(sc.Base.StdError)
 	info.VariantValue, info.VariantStdError = Num(sc.Treat.Value), Num(sc.Treat.StdError)
 	if u := float64(plain.StdError); u > 0 {
@@ -524,6 +502,26 @@ func byStepCUPED(p *compiler.Plan, mp *compiler.MetricPlan, plain Compare, rows 
 		c.Sequential = byStepSequential(p, mp, plain, sc.Difference, sc.StdError, rows, level)
 	}
 	return c
+}
+
+// setRelative fills c's relative change t/b − 1 of the stratified means
+// t and b (standard errors seT, seB, covariance cov) with Fieller's set at
+// the normal critical value of level (stats.Fieller), which excludes 0
+// exactly when the stratified normal test rejects.
+func setRelative(c *Compare, t, b, seT, seB, cov, level float64) {
+	if b == 0 {
+		c.RelReason = "baseline mean is zero"
+		return
+	}
+	c.Relative = Num((t - b) / b)
+	set := stats.Fieller(t, b, seT, seB, cov, stats.NormalQuantile((1+level)/2))
+	c.RelativeShape, c.RelReason = set.Shape, set.Reason
+	switch set.Shape {
+	case stats.ShapeBounded, stats.ShapeUnbounded:
+		c.RelativeCILow, c.RelativeCIHigh = Num(set.Low-1), Num(set.High-1)
+	case stats.ShapeComplement:
+		c.RelReason = "the relative confidence set is not an interval (the baseline is not clearly away from zero)"
+	}
 }
 
 // byStepSequential is the always-valid interval of a by-step difference d
